@@ -1,0 +1,134 @@
+"""What a healthy circuit should read: expected meter displays with tolerance bands.
+
+This is the library call behind ``faultfind expect``; the terminal UI uses it
+too.  It sits above the engine: it builds the readings to predict, picks the
+meter profiles and turns the engine's arrays into small result objects.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from .engine.bands import tolerance_band
+from .engine.meter import overrange as meter_overrange
+from .engine.predict import predict
+from .io.meters_file import meters_with_default
+from .model import Circuit, Reading
+
+__all__ = ["Expected", "expect", "survey_readings", "UNITS", "power_state"]
+
+#: Display unit of each quantity.
+UNITS = {"voltage": "V", "current": "A", "resistance": "Ω"}
+
+PASSIVE_KINDS = ("resistor", "capacitor", "inductor", "fuse", "switch")
+
+
+@dataclass(frozen=True)
+class Expected:
+    """The expected display of one reading on a healthy circuit.
+
+    Attributes
+    ----------
+    reading : Reading
+        The reading (its ``value`` is not used).
+    expected : float or None
+        What the meter would display at nominal values, with its loading;
+        None when the probes have no path between them (the meter shows OL).
+    low, high : float or None
+        The ~95 % band of a healthy circuit (parts' tolerances; meter
+        uncertainty excluded).
+    sigma : float or None
+        Standard deviation the tolerances cause.
+    unit : str
+        "V", "A" or "Ω".
+    power : str
+        "on" when the circuit must be energized for the reading, "off" when it
+        must be isolated.
+    overrange : bool
+        True when the meter would show OL (no path, or above its top range).
+    """
+
+    reading: Reading
+    expected: float | None
+    low: float | None
+    high: float | None
+    sigma: float | None
+    unit: str
+    power: str
+    overrange: bool
+
+
+def power_state(reading: Reading) -> str:
+    """"off" for a resistance reading (circuit isolated), else "on"."""
+    return "off" if reading.quantity == "resistance" else "on"
+
+
+def survey_readings(circuit: Circuit) -> list[Reading]:
+    """Every reading worth knowing on a healthy circuit.
+
+    Every node's voltage to ground (DC, and AC when AC sources exist), every
+    part's current (op-amps excepted; AC too when AC sources exist), and the
+    in-circuit resistance across every two-terminal passive part (power off).
+    """
+    out = []
+    ground = circuit.ground
+    modes = ["dc"] + (["ac"] if circuit.has_ac else [])
+    for mode in modes:
+        f = circuit.frequency if mode == "ac" else None
+        for node in circuit.nodes:
+            if node != ground:
+                out.append(Reading("voltage", mode, node, ground, frequency=f))
+        for p in circuit.parts:
+            if p.kind != "opamp":
+                out.append(Reading("current", mode, part=p.ref, frequency=f))
+    for p in circuit.parts:
+        if p.kind in PASSIVE_KINDS:
+            out.append(Reading("resistance", None, part=p.ref, setup="in-circuit"))
+    return out
+
+
+def expect(circuit: Circuit, readings=None, meters=None) -> list[Expected]:
+    """Expected displays of ``readings`` (default: :func:`survey_readings`).
+
+    Parameters
+    ----------
+    circuit : Circuit
+        A validated circuit.
+    readings : sequence of Reading, optional
+        Validated readings; their values are ignored.
+    meters : dict, optional
+        Meter profiles by name; the built-in default is added when absent.
+
+    Returns
+    -------
+    list of Expected
+        In the order of ``readings``.
+    """
+    meters = meters_with_default(meters)
+    readings = survey_readings(circuit) if readings is None else list(readings)
+    if not readings:
+        return []
+    pred = predict(circuit, readings, meters)
+    tl = np.array([circuit.part(r).tol_low for r in pred.params])
+    th = np.array([circuit.part(r).tol_high for r in pred.params])
+    low, high, sigma = tolerance_band(np.where(np.isfinite(pred.value), pred.value, 0.0),
+                                      pred.sensitivity, tl, th)
+    out = []
+    for i, rd in enumerate(readings):
+        v = pred.value[i]
+        finite = bool(np.isfinite(v))
+        meter = meters[rd.meter or "default"]
+        ol = (not finite) or bool(meter_overrange(meter, rd.quantity, v))
+        out.append(Expected(
+            reading=rd,
+            expected=float(v) if finite else None,
+            low=float(low[i]) if finite else None,
+            high=float(high[i]) if finite else None,
+            sigma=float(sigma[i]) if finite else None,
+            unit=UNITS[rd.quantity],
+            power=power_state(rd),
+            overrange=ol,
+        ))
+    return out

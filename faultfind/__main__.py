@@ -1,0 +1,7 @@
+"""``python -m faultfind``."""
+
+import sys
+
+from .cli.main import main
+
+sys.exit(main())

@@ -1,0 +1,68 @@
+"""``faultfind check CIRCUIT``: validate a circuit file and summarize it."""
+
+from __future__ import annotations
+
+from collections import Counter
+
+from ..io.circuit_file import circuit_warnings, load_circuit
+from ..model import KINDS
+from ..units import format_tolerance, format_value
+from .output import emit_json, table
+
+
+def add_parser(sub):
+    p = sub.add_parser("check", help="validate a circuit file and print a summary",
+                       description="Validate a circuit file and print a summary "
+                                   "(nodes, parts, sources, warnings).")
+    p.add_argument("circuit", metavar="CIRCUIT", help="circuit file (TOML)")
+    p.add_argument("--json", action="store_true", help="print one JSON document")
+    p.set_defaults(run=run)
+
+
+def summary(circuit) -> dict:
+    kinds = Counter(p.kind for p in circuit.parts)
+    sources = [p for p in circuit.parts if p.is_source]
+    return {
+        "title": circuit.title,
+        "file": circuit.source,
+        "ground": circuit.ground,
+        "frequency": circuit.frequency,
+        "nodes": list(circuit.nodes),
+        "parts": len(circuit.parts),
+        "kinds": dict(kinds),
+        "sources": [{"ref": p.ref, "kind": p.kind, "nodes": list(p.nodes), "value": p.value,
+                     "waveform": p.waveform, "off_state": p.off_state} for p in sources],
+        "warnings": circuit_warnings(circuit),
+    }
+
+
+def run(args) -> int:
+    circuit = load_circuit(args.circuit)
+    doc = summary(circuit)
+    if args.json:
+        emit_json(doc)
+        return 0
+    print(f"{circuit.title or '(untitled)'}  [{args.circuit}]")
+    print(f"ground: {circuit.ground}" + (f"   AC frequency: {format_value(circuit.frequency, 'Hz')}"
+                                         if circuit.frequency else ""))
+    print(f"nodes ({len(doc['nodes'])}): {', '.join(doc['nodes'])}")
+    print(f"parts ({doc['parts']}): " + ", ".join(f"{n} {k}" for k, n in doc["kinds"].items()))
+    print()
+    rows = []
+    for p in circuit.parts:
+        unit = KINDS[p.kind].unit or ""
+        val = format_value(p.value, unit) if p.value is not None else "—"
+        if p.is_source and p.waveform == "ac":
+            val += " rms"
+        tol = format_tolerance(p.tol_low, p.tol_high) if p.value is not None else ""
+        rows.append([p.ref, p.kind, "-".join(p.nodes), val, tol, p.label])
+    table(["ref", "kind", "nodes", "value", "tolerance", "label"], rows)
+    print()
+    if doc["warnings"]:
+        print(f"{len(doc['warnings'])} warning(s):")
+        for w in doc["warnings"]:
+            print(f"  warning: {w}")
+    else:
+        print("no warnings")
+    print("circuit file OK")
+    return 0

@@ -1,0 +1,618 @@
+"""Readings files (CSV, formats.md section 2) read into :class:`~faultfind.model.Reading` lists.
+
+One row a reading, as a technician writes them down::
+
+    quantity,mode,plus,minus,part,setup,value,label
+    voltage,dc,A,,,,11.91,TP1
+    current,dc,,,R1,,2.45 mA,
+    resistance,,,,F1,,OL,fuse check
+
+The file is read with pandas as text only (nothing is turned into NaN or a
+number behind the reader's back), then every row is checked.  All problems
+of all rows are gathered into one :class:`~faultfind.errors.ReadingsError`,
+so a file is fixed in one go.  docs/readings-files.md is the user's guide to
+the format as this module reads it.
+"""
+
+from __future__ import annotations
+
+import csv
+import difflib
+import io
+import math
+import os
+import re
+from collections.abc import Mapping
+
+import numpy as np
+import pandas as pd
+
+from faultfind.errors import ReadingsError, UnitError
+from faultfind.model import KINDS, MODES, QUANTITIES, SETUPS, Circuit, MeterProfile, Reading
+from faultfind.units import parse_frequency, parse_value
+
+__all__ = ["COLUMNS", "QUANTITY_UNITS", "load_readings", "parse_readings", "readings_to_frame",
+           "write_readings", "reading_to_row"]
+
+#: Columns a readings file may have, in the order faultfind writes them.
+COLUMNS = ("quantity", "mode", "plus", "minus", "part", "setup", "value", "frequency", "meter",
+           "label")
+
+#: Unit of each quantity's value.
+QUANTITY_UNITS = {"voltage": "V", "current": "A", "resistance": "Ω"}
+
+# Columns always written; frequency and meter only when a reading uses them.
+_ALWAYS = ("quantity", "mode", "plus", "minus", "part", "setup", "value", "label")
+# An over-range display: OL, O.L, O.L. with an optional sign, any case.
+_OVERRANGE = re.compile(r"^([+-]?)\s*O\.?L\.?$", re.IGNORECASE)
+# Nodes or parts listed in full in a message when there are at most this many.
+_LIST_AT_MOST = 12
+_HEADER_EXAMPLE = "quantity,mode,plus,minus,part,setup,value,label"
+
+
+def load_readings(path, circuit=None, meters=None, *, require_values=True) -> list[Reading]:
+    """Read a readings file.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        The readings file: CSV, UTF-8 (a leading byte-order mark is allowed),
+        comma-separated, with a header row.
+    circuit, meters, require_values
+        As for :func:`parse_readings`.
+
+    Returns
+    -------
+    list of Reading
+        One reading per non-blank row, in file order, ``line`` set.
+
+    Raises
+    ------
+    ReadingsError
+        The file is missing, unreadable or not UTF-8, or its content is not
+        valid (see :func:`parse_readings`).
+    TypeError
+        ``path`` is not a str or path-like object.
+    """
+    if not isinstance(path, (str, os.PathLike)):
+        raise TypeError(f"path must be a str or os.PathLike, not {type(path).__name__}")
+    name = os.fspath(path)
+    try:
+        with open(path, "rb") as f:
+            data = f.read()
+    except FileNotFoundError:
+        raise ReadingsError("no such readings file", file=name) from None
+    except IsADirectoryError:
+        raise ReadingsError("is a directory, not a readings file", file=name) from None
+    except OSError as exc:
+        raise ReadingsError(f"cannot read the readings file: {exc.strerror or exc}",
+                            file=name) from None
+    try:
+        text = data.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        line = data[:exc.start].count(b"\n") + 1
+        raise ReadingsError(f"not UTF-8 text (byte 0x{data[exc.start]:02x}): save the file "
+                            "as 'CSV UTF-8'", file=name, line=line) from None
+    return parse_readings(text, name, circuit, meters, require_values=require_values)
+
+
+def parse_readings(text, source="<string>", circuit=None, meters=None, *,
+                   require_values=True) -> list[Reading]:
+    """Read the text of a readings file.
+
+    Parameters
+    ----------
+    text : str
+        CSV text: a header row naming the columns (any of :data:`COLUMNS`,
+        case-insensitive, surrounding spaces ignored; ``quantity`` required),
+        then one reading a row.  Blank rows (also rows of empty cells) are
+        skipped; every cell is stripped of surrounding whitespace.
+    source : str, optional
+        Where the text came from, for messages.
+    circuit : Circuit, optional
+        When given, every node and part a row names must be in it, a current
+        reading's part and a resistance reading's part must have two
+        terminals, an AC reading needs an AC source in it, and an empty
+        ``minus`` of a voltage or node-pair resistance reading becomes
+        ``circuit.ground``.  Without it ``minus`` stays None when empty.
+    meters : dict of str to MeterProfile, optional
+        When given, a row's ``meter`` must be empty, ``default`` or one of
+        its keys.  Without it any name is accepted.
+    require_values : bool, optional
+        True (default): every row needs a ``value``.  False: an empty value
+        gives ``value=None`` (a planned reading, e.g. for ``expect --at``).
+
+    Returns
+    -------
+    list of Reading
+        One reading per non-blank row, in order; ``line`` is the row's line
+        in the text (the header is line 1).  A file holding only its header
+        gives an empty list.
+
+    Raises
+    ------
+    ReadingsError
+        Empty text, no header, a header without ``quantity``, an unknown or
+        repeated column (file-level problems, raised at once); or any bad row.
+        All bad rows are reported in one error: its ``line`` is the first bad
+        line, its message lists every problem as ``line N (column): what``,
+        and its ``problems`` attribute holds one ReadingsError per problem.
+        A single problem is raised as it stands, with ``key`` the column.
+    TypeError
+        ``text``, ``circuit`` or ``meters`` of the wrong type.
+    """
+    if not isinstance(text, str):
+        raise TypeError(f"text must be a str, not {type(text).__name__}")
+    if circuit is not None and not isinstance(circuit, Circuit):
+        raise TypeError(f"circuit must be a faultfind.model.Circuit or None, "
+                        f"not {type(circuit).__name__}")
+    if meters is not None and not (isinstance(meters, Mapping) and all(
+            isinstance(k, str) and isinstance(v, MeterProfile) for k, v in meters.items())):
+        raise TypeError("meters must be a dict of names to MeterProfile, or None")
+    source = str(source)
+    names, rows = _read_table(text.removeprefix("\ufeff"), source)
+    checker = _RowChecker(source, circuit, meters, bool(require_values))
+    readings = []
+    for line, cells, extra in rows:
+        reading = checker.row(line, cells, extra)
+        if reading is not None:
+            readings.append(reading)
+    checker.raise_problems()
+    return readings
+
+
+# -- the table ---------------------------------------------------------------------------
+
+
+def _read_table(text: str, source: str):
+    """Header names and ``(line, {column: cell}, extra cells)`` per non-blank row."""
+    if not text.strip():
+        raise ReadingsError(f"the file is empty: a readings file starts with a header line "
+                            f"such as '{_HEADER_EXAMPLE}'", file=source, line=1)
+    try:
+        width = max(len(r) for r in csv.reader(io.StringIO(text)))
+        frame = pd.read_csv(io.StringIO(text), header=None, names=list(range(width)), dtype=str,
+                            keep_default_na=False, skip_blank_lines=False)
+    except (csv.Error, pd.errors.ParserError, ValueError) as exc:
+        line = _unclosed_quote_line(text)
+        if line is not None:
+            raise ReadingsError('a quote (") opened on this line is never closed',
+                                file=source, line=line) from None
+        raise ReadingsError(f"not a readable CSV file: {exc}", file=source) from None
+    records = frame.to_numpy(dtype=object, na_value="").tolist()
+    lines, line = [], 1
+    for record in records:
+        lines.append(line)
+        line += 1 + sum(str(cell).count("\n") for cell in record)
+    stripped = [[str(cell).strip() for cell in record] for record in records]
+    body = [(ln, r) for ln, r in zip(lines, stripped) if any(r)]
+    if not body:
+        raise ReadingsError("the file has no header line", file=source, line=1)
+    (header_line, header), body = body[0], body[1:]
+    names = _check_header(header, header_line, source)
+    names += [None] * (len(header) - len(names))
+    rows = []
+    for ln, record in body:
+        cells = {n: c for n, c in zip(names, record) if n is not None}
+        extra = [c for n, c in zip(names, record) if n is None and c]
+        rows.append((ln, cells, extra))
+    return names, rows
+
+
+def _check_header(header, line, source):
+    """Column names (lower case; None for an unnamed column), or ReadingsError."""
+    while header and not header[-1]:
+        header = header[:-1]
+    if len(header) == 1 and (";" in header[0] or "\t" in header[0]):
+        sep = "semicolons" if ";" in header[0] else "tabs"
+        raise ReadingsError(f"the header is one column {header[0]!r}: the fields seem separated "
+                            f"by {sep}; faultfind reads comma-separated files: save it as CSV "
+                            "with commas", file=source, line=line)
+    names = [h.lower() or None for h in header]
+    if "quantity" not in names and any(n in QUANTITIES for n in names):
+        raise ReadingsError(f"no header: the first line must name the columns, e.g. "
+                            f"'{_HEADER_EXAMPLE}'; this line looks like a reading",
+                            file=source, line=line)
+    unknown = [h for h, n in zip(header, names) if n is not None and n not in COLUMNS]
+    if unknown:
+        what = "; ".join(f"{h!r}{_did_you_mean(h.lower(), COLUMNS)}" for h in unknown)
+        raise ReadingsError(f"unknown column{'s' if len(unknown) > 1 else ''} {what}: the "
+                            f"columns are {', '.join(COLUMNS)}", file=source, line=line,
+                            key=unknown[0])
+    repeated = sorted({n for n in names if n is not None and names.count(n) > 1})
+    if repeated:
+        raise ReadingsError(f"column {repeated[0]!r} appears more than once in the header",
+                            file=source, line=line, key=repeated[0])
+    if "quantity" not in names:
+        raise ReadingsError("the header has no 'quantity' column (it is required); the "
+                            f"columns are {', '.join(COLUMNS)}", file=source, line=line,
+                            key="quantity")
+    return names
+
+
+def _unclosed_quote_line(text: str) -> int | None:
+    """Line on which a quoted field opens and never closes (RFC 4180 quoting), else None."""
+    quoted, opened, line, at_start, i = False, None, 1, True, 0
+    while i < len(text):
+        ch = text[i]
+        if quoted and ch == '"':
+            if text[i + 1:i + 2] == '"':  # a doubled quote inside the field
+                i += 1
+            else:
+                quoted = False
+        elif not quoted and ch == '"' and at_start:
+            quoted, opened = True, line
+        if ch == "\n":
+            line += 1
+        if not quoted:
+            at_start = ch in ",\n\r" or (at_start and ch in " \t")
+        i += 1
+    return opened if quoted else None
+
+
+def _did_you_mean(word, choices) -> str:
+    close = difflib.get_close_matches(word, list(choices), n=1)
+    return f" (did you mean {close[0]!r}?)" if close else ""
+
+
+# -- the rows ----------------------------------------------------------------------------
+
+
+class _RowChecker:
+    """Checks rows one by one, gathering every problem with its line and column."""
+
+    def __init__(self, source, circuit, meters, require_values):
+        self.source = source
+        self.circuit = circuit
+        self.meters = meters
+        self.require_values = require_values
+        self.problems: list[ReadingsError] = []
+
+    def problem(self, line, key, message):
+        self.problems.append(ReadingsError(message, file=self.source, line=line, key=key))
+
+    def raise_problems(self):
+        if not self.problems:
+            return
+        order = {c: i for i, c in enumerate(COLUMNS)}
+        found = sorted(self.problems, key=lambda e: (e.line, order.get(e.key, -1)))
+        if len(found) == 1:
+            err = found[0]
+        else:
+            lines = sorted({e.line for e in found})
+            listing = "\n".join(f"  line {e.line}" + (f" ({e.key})" if e.key else "")
+                                + f": {e.message}" for e in found)
+            err = ReadingsError(f"{len(found)} problems on {len(lines)} line"
+                                f"{'s' if len(lines) > 1 else ''}; fix them all, then load "
+                                f"the file again:\n{listing}", file=self.source,
+                                line=found[0].line)
+        err.problems = found
+        raise err
+
+    def row(self, line, cells, extra) -> Reading | None:
+        """The reading of one row, or None after recording its problems."""
+        before = len(self.problems)
+        get = lambda column: cells.get(column, "")  # noqa: E731
+        if extra:
+            self.problem(line, None, f"{len(extra)} cell(s) in columns the header does not "
+                         f"name ({', '.join(map(repr, extra))}): name the column in the header "
+                         "or remove them")
+        quantity = get("quantity").lower()
+        if not quantity:
+            self.problem(line, "quantity", "no quantity: write voltage, current or resistance")
+            return None
+        if quantity not in QUANTITIES:
+            self.problem(line, "quantity", f"unknown quantity {get('quantity')!r}"
+                         f"{_did_you_mean(quantity, QUANTITIES)}: write voltage, current or "
+                         "resistance")
+            return None
+        mode, setup = self.mode_and_setup(line, quantity, get)
+        plus, minus, part = self.probes(line, quantity, get)
+        frequency = self.frequency(line, mode, get("frequency"))
+        value, overrange = self.value(line, quantity, mode, get("value"))
+        meter = self.meter(line, get("meter"))
+        if self.circuit is not None and len(self.problems) == before:
+            plus, minus = self.against_circuit(line, quantity, mode, plus, minus, part)
+        if len(self.problems) > before:
+            return None
+        return Reading(quantity=quantity, mode=mode, plus=plus, minus=minus, part=part,
+                       setup=setup, frequency=frequency, meter=meter, label=get("label"),
+                       value=value, overrange=overrange, raw=get("value"), line=line)
+
+    def mode_and_setup(self, line, quantity, get):
+        mode, setup = get("mode").lower(), get("setup").lower()
+        if quantity == "resistance":
+            if mode:
+                self.problem(line, "mode", f"mode {get('mode')!r} on a resistance reading: an "
+                             "ohmmeter reading is neither dc nor ac; leave mode empty")
+            setup = setup or "in-circuit"
+            if setup not in SETUPS:
+                self.problem(line, "setup", f"unknown setup {get('setup')!r}"
+                             f"{_did_you_mean(setup, SETUPS)}: write in-circuit or lifted")
+            return None, setup
+        if setup:
+            self.problem(line, "setup", f"setup {get('setup')!r} on a {quantity} reading: setup "
+                         "is for resistance readings only; leave it empty")
+        mode = mode or "dc"
+        if mode not in MODES:
+            self.problem(line, "mode", f"unknown mode {get('mode')!r}"
+                         f"{_did_you_mean(mode, MODES)}: write dc or ac")
+        return mode, None
+
+    def probes(self, line, quantity, get):
+        plus, minus, part = (get(c) or None for c in ("plus", "minus", "part"))
+        if quantity == "voltage":
+            if part:
+                self.problem(line, "part", "a voltage reading takes the probes' nodes in plus "
+                             "and minus, not a part")
+            if not plus:
+                self.problem(line, "plus", "a voltage reading needs plus: the node the red "
+                             "probe touches")
+        elif quantity == "current":
+            for column, node in (("plus", plus), ("minus", minus)):
+                if node:
+                    self.problem(line, column, f"{column} on a current reading: the meter goes "
+                                 "in series with the part named in part; leave it empty")
+            if not part:
+                self.problem(line, "part", "a current reading needs part: the part whose "
+                             "current the meter reads")
+        else:
+            if part and plus:
+                self.problem(line, "part", "a resistance reading takes either part or "
+                             "plus/minus, not both")
+            elif part and minus:
+                self.problem(line, "minus", "minus goes with plus: a resistance reading across a "
+                             "part takes only part")
+            elif not part and not plus:
+                self.problem(line, "part", "a resistance reading needs part (across a part) or "
+                             "plus (and minus) for the nodes the probes touch")
+        if plus and minus and plus == minus:
+            self.problem(line, "minus", f"plus and minus are the same node {plus!r}: the meter "
+                         "would read nothing")
+        return plus, minus, part
+
+    def frequency(self, line, mode, raw):
+        if not raw:
+            return None
+        if mode != "ac":
+            if mode is not None and mode not in MODES:
+                return None  # the mode's own problem says it all
+            self.problem(line, "frequency", "frequency is for AC readings only (mode ac); "
+                         "leave it empty")
+            return None
+        try:
+            return parse_frequency(raw)
+        except UnitError as exc:
+            self.problem(line, "frequency", exc.message)
+            return None
+
+    def value(self, line, quantity, mode, raw):
+        if not raw:
+            if self.require_values:
+                self.problem(line, "value", "no value: write the meter's display or OL")
+            return None, 0
+        over = _OVERRANGE.match(raw)
+        if over:
+            sign = -1 if over[1] == "-" else 1
+            number = None
+        else:
+            try:
+                number = parse_value(raw, QUANTITY_UNITS[quantity])
+            except UnitError as exc:
+                self.problem(line, "value", exc.message)
+                return None, 0
+            sign = -1 if number < 0 else 1
+        if sign < 0 and quantity == "resistance":
+            self.problem(line, "value", f"negative resistance {raw!r}: the circuit is still "
+                         "powered or a capacitor is charged; switch off, discharge and read again")
+        elif sign < 0 and mode == "ac":
+            self.problem(line, "value", f"negative AC reading {raw!r}: an AC reading is an RMS "
+                         "value and cannot be below zero")
+        return number, (sign if over else 0)
+
+    def meter(self, line, raw):
+        if not raw or raw.lower() == "default":
+            return None
+        if self.meters is not None and raw not in self.meters:
+            named = [m for m in self.meters if m != "default"]
+            have = ", ".join(named) if named else "none besides the default"
+            self.problem(line, "meter", f"unknown meter {raw!r}{_did_you_mean(raw, named)}: "
+                         f"the meter profiles are {have}")
+        return raw
+
+    def against_circuit(self, line, quantity, mode, plus, minus, part):
+        """Check names against the circuit; return (plus, minus) with minus defaulted."""
+        circuit = self.circuit
+        if quantity == "voltage" or (quantity == "resistance" and part is None):
+            if minus is None:
+                minus = circuit.ground
+                if plus == minus:
+                    self.problem(line, "plus", f"plus is the ground node {plus!r} and minus is "
+                                 "empty (ground): the meter would read nothing")
+            for column, node in (("plus", plus), ("minus", minus)):
+                if node not in circuit.nodes:
+                    self.problem(line, column, f"node {node!r} is not in the circuit"
+                                 + _hint(node, circuit.nodes, "nodes"))
+        if part is not None:
+            if not circuit.has_part(part):
+                refs = [p.ref for p in circuit.parts]
+                self.problem(line, "part", f"part {part!r} is not in the circuit"
+                             + _hint(part, refs, "parts"))
+            elif KINDS[circuit.part(part).kind].nodes != 2:
+                kind = circuit.part(part).kind
+                self.problem(line, "part", f"{part} is an {kind} with "
+                             f"{KINDS[kind].nodes} terminals: a {quantity} reading needs a "
+                             "two-terminal part")
+        if mode == "ac" and not circuit.has_ac:
+            self.problem(line, "mode", "an AC reading, but the circuit has no AC source: "
+                         "write dc, or add the AC source to the circuit file")
+        return plus, minus
+
+
+def _hint(name, choices, what) -> str:
+    """``; did you mean 'A'?`` and/or the full list when it is short."""
+    choices = list(choices)
+    bits = []
+    same = [c for c in choices if c.lower() == name.lower()]
+    close = same or difflib.get_close_matches(name, choices, n=1)
+    if close:
+        bits.append(f"did you mean {close[0]!r}?" + (" (names are case-sensitive)"
+                                                      if same else ""))
+    if len(choices) <= _LIST_AT_MOST:
+        bits.append(f"the circuit's {what} are {', '.join(choices)}")
+    return "; " + "; ".join(bits) if bits else ""
+
+
+# -- writing -----------------------------------------------------------------------------
+
+
+def _number_text(x: float) -> str:
+    """Shortest plain decimal that reads back as exactly ``x`` (no exponent)."""
+    return np.format_float_positional(float(x), unique=True, trim="-")
+
+
+def _check_readings(readings) -> list[Reading]:
+    if isinstance(readings, (str, bytes, Reading)):
+        raise TypeError("readings must be a sequence of faultfind.model.Reading")
+    try:
+        items = list(readings)
+    except TypeError:
+        raise TypeError(f"readings must be a sequence of faultfind.model.Reading, "
+                        f"not {type(readings).__name__}") from None
+    for i, r in enumerate(items):
+        if not isinstance(r, Reading):
+            raise TypeError(f"readings[{i}] is a {type(r).__name__}, not a Reading")
+        if r.quantity not in QUANTITIES:
+            raise ReadingsError(f"readings[{i}] has quantity {r.quantity!r}: expected voltage, "
+                                "current or resistance", line=r.line, key="quantity")
+    return items
+
+
+def _value_text(r: Reading) -> str:
+    if r.raw:
+        return r.raw
+    if r.overrange:
+        return "-OL" if r.overrange < 0 else "OL"
+    if r.value is None or not math.isfinite(r.value):
+        return ""
+    return _number_text(r.value)
+
+
+def readings_to_frame(readings) -> pd.DataFrame:
+    """The readings as a table of text cells, exactly as :func:`write_readings` writes them.
+
+    Parameters
+    ----------
+    readings : sequence of Reading
+
+    Returns
+    -------
+    pandas.DataFrame
+        One row per reading, all cells str (empty for None).  Columns
+        ``quantity, mode, plus, minus, part, setup, value, label`` always,
+        with ``frequency`` and ``meter`` before ``label`` when any reading
+        has one.  ``value`` is ``raw`` when set, else ``OL``/``-OL`` or the
+        number in SI units (shortest exact decimal); ``mode`` is empty for
+        resistance.
+
+    Raises
+    ------
+    TypeError
+        ``readings`` is not a sequence of Reading.
+    ReadingsError
+        A reading with an unknown quantity.
+    """
+    items = _check_readings(readings)
+    columns = [c for c in COLUMNS if c in _ALWAYS
+               or (c == "frequency" and any(r.frequency is not None for r in items))
+               or (c == "meter" and any(r.meter for r in items))]
+    rows = []
+    for r in items:
+        cells = {
+            "quantity": r.quantity,
+            "mode": "" if r.quantity == "resistance" else (r.mode or ""),
+            "plus": r.plus or "", "minus": r.minus or "", "part": r.part or "",
+            "setup": (r.setup or "") if r.quantity == "resistance" else "",
+            "value": _value_text(r),
+            "frequency": "" if r.frequency is None else _number_text(r.frequency),
+            "meter": r.meter or "", "label": r.label or "",
+        }
+        rows.append([cells[c] for c in columns])
+    return pd.DataFrame(rows, columns=columns, dtype=object)
+
+
+def write_readings(readings, path_or_buffer) -> None:
+    """Write readings as a readings file that :func:`load_readings` reads back.
+
+    Parameters
+    ----------
+    readings : sequence of Reading
+    path_or_buffer : str, os.PathLike or text file object
+        Where to write: a path (written as UTF-8 without a byte-order mark,
+        replacing the file) or an open text stream.
+
+    Notes
+    -----
+    ``load_readings(path)`` of the written file gives back the same
+    readings apart from ``line`` (and labels' surrounding spaces, which the
+    loader strips).  Cells are quoted as RFC 4180 does where needed.
+
+    Raises
+    ------
+    TypeError
+        ``readings`` is not a sequence of Reading.
+    ReadingsError
+        A reading with an unknown quantity, or the file cannot be written.
+    """
+    frame = readings_to_frame(readings)
+    if isinstance(path_or_buffer, (str, os.PathLike)):
+        try:
+            frame.to_csv(path_or_buffer, index=False, lineterminator="\n", encoding="utf-8")
+        except OSError as exc:
+            raise ReadingsError(f"cannot write the readings file: {exc.strerror or exc}",
+                                file=os.fspath(path_or_buffer)) from None
+    elif hasattr(path_or_buffer, "write"):
+        frame.to_csv(path_or_buffer, index=False, lineterminator="\n")
+    else:
+        raise TypeError("path_or_buffer must be a path or a text stream, not "
+                        f"{type(path_or_buffer).__name__}")
+
+
+def reading_to_row(reading) -> dict:
+    """A reading as the JSON object of the command line (cli.md).
+
+    Parameters
+    ----------
+    reading : Reading
+
+    Returns
+    -------
+    dict
+        Exactly the keys ``quantity, mode, plus, minus, part, setup,
+        frequency, unit``: ``mode`` None for resistance, ``setup`` None
+        unless resistance, ``unit`` ``"V"``, ``"A"`` or ``"Ω"``.
+
+    Raises
+    ------
+    TypeError
+        ``reading`` is not a Reading.
+    ReadingsError
+        An unknown quantity.
+    """
+    if not isinstance(reading, Reading):
+        raise TypeError(f"reading must be a faultfind.model.Reading, not "
+                        f"{type(reading).__name__}")
+    if reading.quantity not in QUANTITIES:
+        raise ReadingsError(f"quantity {reading.quantity!r}: expected voltage, current or "
+                            "resistance", line=reading.line, key="quantity")
+    resistance = reading.quantity == "resistance"
+    return {
+        "quantity": reading.quantity,
+        "mode": None if resistance else reading.mode,
+        "plus": reading.plus,
+        "minus": reading.minus,
+        "part": reading.part,
+        "setup": reading.setup if resistance else None,
+        "frequency": reading.frequency,
+        "unit": QUANTITY_UNITS[reading.quantity],
+    }

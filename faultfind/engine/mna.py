@@ -139,7 +139,7 @@ def _omega(analysis, frequency):
 
 
 def assemble(circuit: Circuit, analysis: str, frequency: float | None = None,
-             overrides: dict | None = None) -> Network:
+             overrides: dict | None = None, floating: bool = False) -> Network:
     """Assemble the MNA system of ``circuit`` for one analysis.
 
     Parameters
@@ -154,6 +154,11 @@ def assemble(circuit: Circuit, analysis: str, frequency: float | None = None,
         Part ref to a replacement value (SI), or to the strings ``"open"`` or
         ``"short"`` (for a source, ``"dead"`` sets it to zero).  Used by the
         re-solve path that checks the fast diagnosis engine, and by drills.
+    floating : bool, optional
+        Give every part of the network that has no connection to ground a
+        reference node of its own (always done for ``"off"``).  Voltages
+        inside such a section are then relative to its reference; a faulted
+        circuit may leave a section floating.
 
     Returns
     -------
@@ -224,14 +229,14 @@ def assemble(circuit: Circuit, analysis: str, frequency: float | None = None,
     # node numbering: reference(s) get -1
     pos = {name: i for i, name in enumerate(names)}
     n_all = len(names)
-    if analysis == "off":
-        ea = [pos[r[1]] for r in y_rows] + [pos[r[1]] for r in br_rows]
-        eb = [pos[r[2]] for r in y_rows] + [pos[r[2]] for r in br_rows]
+    if analysis == "off" or floating:
+        ea = [pos[r[1]] for r in y_rows] + [pos[r[1]] for r in br_rows] + [pos[r[1]] for r in vcvs]
+        eb = [pos[r[2]] for r in y_rows] + [pos[r[2]] for r in br_rows] + [0 for r in vcvs]
         g = sp.coo_matrix((np.ones(len(ea)), (ea, eb)), shape=(n_all, n_all))
         _, comp = connected_components(g, directed=False)
         comp = np.asarray(comp)
         is_ref = np.zeros(n_all, dtype=bool)
-        is_ref[0] = True  # ground is names[0]
+        is_ref[0] = True  # ground is names[0] (Circuit.nodes puts it first)
         first_of = {}
         for i, c in enumerate(comp):
             first_of.setdefault(c, i)

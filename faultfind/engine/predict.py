@@ -24,7 +24,7 @@ network that are not connected give ``inf`` (the meter shows OL).
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -122,9 +122,9 @@ def _pair(vec, a, b):
 class _Group:
     """One analysis of one circuit: network, factors, solution, stamp derivatives."""
 
-    def __init__(self, circuit, key, pindex):
+    def __init__(self, circuit, key, pindex, overrides=None):
         analysis, f = key
-        self.net = assemble(circuit, analysis, f)
+        self.net = assemble(circuit, analysis, f, overrides)
         self.lu = Factorization(self.net.A)
         self.x = self.lu.solve(self.net.b) if analysis != "off" else None
         self.jy, self.dy, self.src = _dstamps(circuit, self.net, pindex)
@@ -143,7 +143,7 @@ class _Group:
         return g
 
 
-def predict(circuit: Circuit, readings, meters: dict) -> Prediction:
+def predict(circuit: Circuit, readings, meters: dict, overrides: dict | None = None) -> Prediction:
     """Predict the meter displays of ``readings`` on a healthy ``circuit``.
 
     Parameters
@@ -156,6 +156,10 @@ def predict(circuit: Circuit, readings, meters: dict) -> Prediction:
     meters : dict
         Meter profile name to :class:`~faultfind.model.MeterProfile`; must
         hold ``"default"``, used where a reading names no meter.
+    overrides : dict, optional
+        Faults to apply, as for :func:`~faultfind.engine.mna.assemble`
+        (ref to a value, ``"open"``, ``"short"`` or ``"dead"``).  This is the
+        plain re-assemble-and-solve path: the diagnosis engine's oracle.
 
     Returns
     -------
@@ -185,10 +189,10 @@ def predict(circuit: Circuit, readings, meters: dict) -> Prediction:
             raise ValueError(f"reading {i}: meter profile {rd.meter!r} is not defined")
         key = analysis_key(circuit, rd)
         if key[0] == "lifted":
-            value[i], sens[i] = _lifted(circuit, rd, pindex, npar)
+            value[i], sens[i] = _lifted(circuit, rd, pindex, npar, overrides or {})
             continue
         if key not in groups:
-            groups[key] = _Group(circuit, key, pindex)
+            groups[key] = _Group(circuit, key, pindex, overrides)
         grp = groups[key]
         if key[0] == "off":
             value[i], sens[i] = _ohms(circuit, grp, rd, npar)
@@ -290,15 +294,32 @@ def _minus_grad(grp, mu, w, npar):
     return g
 
 
-def _lifted(circuit, rd, pindex, npar):
-    """A part alone (one leg lifted): its own resistance as an ohmmeter sees it."""
+def lifted_value(part, fault=None) -> float:
+    """What an ohmmeter reads across ``part`` alone (one leg lifted), optionally faulted.
+
+    ``fault`` is None, "open", "short" or a drifted value.
+    """
+    if fault == "open":
+        return np.inf
+    if fault == "short":
+        return 0.0
+    p = part
+    if fault is not None and not isinstance(fault, str):
+        p = replace(p, value=float(fault), state="closed")
+    if p.kind in ("resistor", "fuse") or (p.kind == "switch" and p.state == "closed"):
+        return p.value
+    if p.kind == "inductor":
+        return p.resistance or 0.0
+    if p.is_source:
+        return 0.0 if p.off_state == "short" else np.inf
+    return np.inf  # capacitor, open switch
+
+
+def _lifted(circuit, rd, pindex, npar, overrides):
+    """A lifted-part reading and its sensitivity (only to the part's own value)."""
     p = circuit.part(rd.part)
     g = np.zeros(npar)
-    if p.kind in ("resistor", "fuse") or (p.kind == "switch" and p.state == "closed"):
-        g[pindex[p.ref]] = p.value
-        return p.value, g
-    if p.kind == "inductor":
-        return (p.resistance or 0.0), g
-    if p.is_source:
-        return (0.0 if p.off_state == "short" else np.inf), g
-    return np.inf, g  # capacitor, open switch
+    v = lifted_value(p, overrides.get(p.ref))
+    if np.isfinite(v) and v > 0 and p.kind != "inductor" and p.ref in pindex:
+        g[pindex[p.ref]] = v
+    return v, g

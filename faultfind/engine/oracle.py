@@ -1,0 +1,140 @@
+"""The plain path: re-assemble and re-solve the circuit for every reading.
+
+Slow and simple on purpose.  The meter is added to the circuit as a real part
+(its input resistance across the probes; its shunt in series with the part,
+on a node of its own), the faults are applied to the parts, the network is
+assembled and solved from scratch.  The diagnosis engine's fast rank-one path
+is checked against this in the tests, and uses it where a fault changes the
+topology in a way the rank-one path does not cover.
+"""
+
+from __future__ import annotations
+
+from dataclasses import replace
+
+import numpy as np
+
+from ..errors import SolveError
+from ..model import Circuit, Part
+from .factor import Factorization
+from .mna import assemble
+from .predict import analysis_key, lifted_value
+
+__all__ = ["oracle_readings", "apply_faults"]
+
+_METER = "__meter__"
+_NODE = "__meter_node__"
+
+
+def apply_faults(circuit: Circuit, overrides: dict) -> tuple[Circuit, dict]:
+    """Split ``overrides`` into value changes applied to the parts and topology changes.
+
+    Returns the circuit with drifted values written into its parts, and the
+    overrides left for :func:`~faultfind.engine.mna.assemble` ("open", "short",
+    "dead").
+    """
+    parts, rest = [], {}
+    for p in circuit.parts:
+        ov = overrides.get(p.ref)
+        if ov is None or isinstance(ov, str):
+            parts.append(p)
+            if ov is not None:
+                rest[p.ref] = ov
+        else:
+            q = replace(p, value=float(ov))
+            if q.kind == "switch" and q.state == "open":
+                q = replace(q, state="closed")  # a drifted open switch conducts (partly welded)
+            parts.append(q)
+    return replace(circuit, parts=tuple(parts)), rest
+
+
+def _solve_live(circuit, key, overrides):
+    """Assemble and solve; a section the faults left floating gets its own reference.
+
+    A floating section into which a current source drives a net current has
+    no steady state (its voltage runs away): the result is ``nan``.
+    """
+    net = assemble(circuit, key[0], key[1], overrides, floating=True)
+    x = Factorization(net.A).solve(net.b)
+    comp = net.reference
+    ground_comp = comp[0]
+    if np.any(comp != ground_comp) and len(net.inj_i):
+        pos = {name: i for i, name in enumerate(net.node_names)}
+        bal = {}
+        for k, pi in enumerate(net.inj_ref):
+            p = circuit.parts[pi]
+            ca, cb = comp[pos[p.nodes[0]]], comp[pos[p.nodes[1]]]
+            if ca != cb:
+                bal[ca] = bal.get(ca, 0) + net.inj_i[k]
+                bal[cb] = bal.get(cb, 0) - net.inj_i[k]
+        if any(abs(v) > 0 for c, v in bal.items() if c != ground_comp):
+            x = np.full_like(x, np.nan)
+    return net, x
+
+
+def _one(circuit, rd, meters, overrides):
+    key = analysis_key(circuit, rd)
+    if key[0] == "lifted":  # the part alone: no network involved
+        return lifted_value(circuit.part(rd.part), overrides.get(rd.part))
+    meter = meters[rd.meter or "default"]
+    if key[0] == "off":
+        plus, minus = circuit.part(rd.part).nodes[:2] if rd.part else (rd.plus, rd.minus)
+        if plus == minus:
+            return 0.0
+        net = assemble(circuit, "off", None, overrides)
+        if not net.connected(plus, minus):
+            return np.inf
+        u = net.node_vector(plus, minus)
+        return Factorization(net.A).solve(u) @ u
+    parts = list(circuit.parts)
+    if rd.quantity == "voltage":
+        parts.append(Part(_METER, "resistor", (rd.plus, rd.minus), meter.input_resistance))
+        c = replace(circuit, parts=tuple(parts))
+        net, x = _solve_live(c, key, overrides)
+        return net.node_vector(rd.plus, rd.minus) @ x
+    # current: the meter's shunt in series with the part, on a node of its own
+    p = circuit.part(rd.part)
+    i = parts.index(p)
+    parts[i] = replace(p, nodes=(p.nodes[0], _NODE))
+    if meter.current_shunt > 0:
+        parts.append(Part(_METER, "resistor", (_NODE, p.nodes[1]), meter.current_shunt))
+    else:
+        parts.append(Part(_METER, "voltage-source", (_NODE, p.nodes[1]), 0.0))
+    c = replace(circuit, parts=tuple(parts))
+    net, x = _solve_live(c, key, overrides)
+    if meter.current_shunt > 0:
+        # current through the shunt from the meter node to nodes[1]: flows through the part
+        i_meter = (net.node_vector(_NODE, p.nodes[1]) @ x) / meter.current_shunt
+    else:
+        kind, k = net.element[_METER]
+        i_meter = x[net.n + k]  # current into the 0 V source's + terminal = through the part
+    return -i_meter if p.is_source else i_meter
+
+
+def oracle_readings(circuit: Circuit, readings, meters: dict, overrides: dict | None = None):
+    """Readings of ``circuit`` with ``overrides`` applied, by a full re-solve per reading.
+
+    Parameters
+    ----------
+    circuit : Circuit
+    readings : sequence of Reading
+    meters : dict
+        Meter profiles including "default".
+    overrides : dict, optional
+        Part ref to a value, "open", "short" or "dead".
+
+    Returns
+    -------
+    ndarray of complex
+        The complex reading (signed DC, phasor for AC, ohms); ``inf`` where an
+        ohmmeter shows OL, ``nan`` where the faulted network leaves the
+        reading undefined (a floating section).
+    """
+    c, rest = apply_faults(circuit, overrides or {})
+    out = np.empty(len(readings), dtype=complex)
+    for i, rd in enumerate(readings):
+        try:
+            out[i] = _one(c, rd, meters, rest)
+        except SolveError:
+            out[i] = np.nan
+    return out

@@ -1,0 +1,353 @@
+"""Readings of a faulted circuit from the healthy circuit's factorization.
+
+A fault changes one part, which changes the network matrix by a rank-one term
+(an admittance between two nodes) or changes only the right-hand side (a
+source's value).  The meter adds one more rank-one term per reading (its input
+conductance across the probes, or its shunt in series with the part).  With
+``A' = A + U D U^T`` the Woodbury identity gives every reading of the faulted
+circuit from quantities of the healthy one::
+
+    c^T A'^{-1} b' = c^T A^{-1} b' - (c^T A^{-1} U) M (U^T A^{-1} b'),
+    M = (D^{-1} + U^T A^{-1} U)^{-1}
+
+so the engine needs, once: the solution ``x``, one forward and one adjoint
+solve per reading (``W``, ``Mu``), and one forward solve per fault term
+(``A^{-1} u_t``; its self term ``u_t^T A^{-1} u_t`` is the resistance distance
+between the part's nodes).  Opens and shorts are exact limits: an open sets
+``d = -y``; a short sets ``d = inf``, i.e. ``1/d = 0`` in ``M`` -- never a
+large conductance.  Where ``D^{-1} + U^T A^{-1} U`` is singular (a part whose
+removal leaves a section floating, with no probe across it) the reading is the
+one without that term, since such a part carries no current; where a fault
+changes which parts of the power-off network are connected, the evaluation
+falls back to re-assembling that network (the same code as the test oracle).
+
+The current through a term's added admittance is the term's entry of
+``M (U^T A^{-1} b')``; the current reading through a part with admittance
+``y0`` is ``y0 v' + q``, which stays exact when the part is shorted.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .factor import Factorization
+from .mna import ADMITTANCE, BRANCH, INJECTION, assemble
+
+__all__ = ["Group", "Term", "admittance_of"]
+
+_SING = 1e-9
+
+
+def admittance_of(part, value, analysis, omega):
+    """Admittance of a two-terminal passive part at ``value`` in an analysis (0: absent)."""
+    k = part.kind
+    if k in ("resistor", "fuse", "switch"):
+        return 1.0 / value
+    if k == "capacitor":
+        return 1j * omega * value if analysis == "ac" else 0.0
+    if k == "inductor":
+        rw = part.resistance or 0.0
+        if analysis == "ac":
+            return 1.0 / (rw + 1j * omega * value)
+        return 1.0 / rw if rw > 0 else np.inf
+    raise ValueError(f"part {part.ref}: {k} has no admittance")
+
+
+class Term:
+    """A fault on one part, as a change of one analysis' network.
+
+    Attributes
+    ----------
+    kind : str
+        ``"y"`` (admittance between nodes ``a``, ``b``; nominal ``y0``),
+        ``"b"`` (right-hand side change: ``rows``, ``per_unit`` per unit of
+        source value, nominal ``e0``), ``"none"`` (no effect in this analysis)
+        or ``"fallback"`` (exact evaluation needs a re-assembly).
+    """
+
+    __slots__ = ("kind", "ref", "a", "b", "y0", "rows", "per_unit", "e0", "col")
+
+    def __init__(self, kind, ref, a=-1, b=-1, y0=0.0, rows=None, per_unit=None, e0=0.0):
+        self.kind, self.ref, self.a, self.b, self.y0 = kind, ref, a, b, y0
+        self.rows, self.per_unit, self.e0 = rows, per_unit, e0
+        self.col = -1
+
+
+def _at(vec, a, b):
+    """``vec[a] - vec[b]`` with index -1 meaning the reference (zero); vec may be 2-D (rows)."""
+    va = vec[a] if a >= 0 else 0.0
+    vb = vec[b] if b >= 0 else 0.0
+    return va - vb
+
+
+class Group:
+    """Healthy-circuit quantities of one analysis, for the readings taken on it.
+
+    Parameters
+    ----------
+    circuit : Circuit
+    key : tuple
+        ``("dc", None)``, ``("ac", f)`` or ``("off", None)``.
+    readings : list of Reading
+        The readings of this analysis.
+    meters : dict
+        Meter profiles (with "default").
+    """
+
+    def __init__(self, circuit, key, readings, meters):
+        self.circuit = circuit
+        self.key = key
+        self.analysis, f = key
+        self.omega = 2 * np.pi * f if self.analysis == "ac" else 0.0
+        self.net = net = assemble(circuit, self.analysis, f)
+        self.lu = Factorization(net.A)
+        N = net.size
+        dt = net.A.dtype
+        self.x = self.lu.solve(net.b) if self.analysis != "off" else np.zeros(N, dt)
+        r = len(readings)
+        self.readings = readings
+        U = np.zeros((N, r), dtype=dt)
+        self.d_m = np.zeros(r, dtype=complex)      # the reading's own term (meter) coefficient
+        self.scale = np.zeros(r, dtype=complex)    # s in s c^T x'; y0 for admittance currents
+        self.rtype = [""] * r                      # "v", "ya", "br", "ohm", "src", "zero", "ol"
+        self.elem = [None] * r                     # measured part (current readings)
+        self.rs = np.zeros(r)                      # shunt of current readings
+        for i, rd in enumerate(readings):
+            meter = meters[rd.meter or "default"]
+            if self.analysis == "off":
+                plus, minus = (circuit.part(rd.part).nodes[:2] if rd.part is not None
+                               else (rd.plus, rd.minus))
+                if plus == minus:
+                    self.rtype[i] = "zero"
+                elif not net.connected(plus, minus):
+                    self.rtype[i] = "ol"
+                else:
+                    U[:, i] = net.node_vector(plus, minus)
+                    self.rtype[i] = "ohm"
+                    self.scale[i] = 1.0
+                continue
+            if rd.quantity == "voltage":
+                U[:, i] = net.node_vector(rd.plus, rd.minus)
+                self.d_m[i] = 1.0 / meter.input_resistance
+                self.scale[i] = 1.0
+                self.rtype[i] = "v"
+                continue
+            self.rs[i] = meter.current_shunt
+            self.elem[i] = rd.part
+            p = circuit.part(rd.part)
+            el = net.element.get(rd.part)
+            if el is not None and el[0] == INJECTION:
+                self.rtype[i] = "src"
+                self.scale[i] = net.inj_i[el[1]]
+                continue
+            if el is not None and el[0] == BRANCH:
+                U[net.n + el[1], i] = 1.0
+                self.d_m[i] = -meter.current_shunt
+                self.scale[i] = -1.0 if p.kind == "voltage-source" else 1.0
+                self.rtype[i] = "br"
+                continue
+            if p.is_source:  # a source absent from this analysis (e.g. an AC current source at DC)
+                self.rtype[i] = "zero"
+                continue
+            # admittance element, or absent (capacitor at DC, open switch): y0 may be 0
+            a, b = net.node_index[p.nodes[0]], net.node_index[p.nodes[1]]
+            if a >= 0:
+                U[a, i] += 1.0
+            if b >= 0:
+                U[b, i] -= 1.0
+            y0 = net.y_val[el[1]] if el is not None else 0.0
+            y2 = y0 / (1.0 + y0 * meter.current_shunt) if y0 != 0 else 0.0
+            self.d_m[i] = y2 - y0
+            self.scale[i] = y0
+            self.rtype[i] = "ya"
+        self.U = U
+        self.W = self.lu.solve(U) if r else U
+        self.Mu = self.lu.solve_adjoint(U) if r else U
+        self.z = np.einsum("ij,ij->j", U, self.W)
+        # projections of the right-hand side: x for live readings, the test current for ohms
+        self.px = (U.T @ self.x) if self.analysis != "off" else self.z.copy()
+        self._wt = {}
+        yabs = np.abs(net.y_val[net.y_val != 0])
+        self.zscale = 1.0 / np.median(yabs) if yabs.size else 1.0
+
+    # ----------------------------------------------------------------- terms
+    def term(self, part, mode, value=None):
+        """The :class:`Term` of a fault (``mode`` open/short/drift/dead) on ``part``."""
+        net, an = self.net, self.analysis
+        if part.kind == "opamp":
+            return Term("none", part.ref)
+        if part.is_source:
+            if an == "off" or mode not in ("drift", "dead"):
+                return Term("none", part.ref)
+            el = net.element.get(part.ref)
+            active = (part.waveform == "ac") == (an == "ac")
+            if el is None or not active:
+                return Term("none", part.ref)
+            kind, k = el
+            if kind == BRANCH:
+                rows = np.array([net.n + k]); per = np.array([1.0])
+                e0 = net.br_e[k]
+            else:
+                rows = np.array([net.inj_a[k], net.inj_b[k]]); per = np.array([1.0, -1.0])
+                keep = rows >= 0
+                rows, per = rows[keep], per[keep]
+                e0 = net.inj_i[k]
+            return Term("b", part.ref, rows=rows, per_unit=per, e0=e0)
+        el = net.element.get(part.ref)
+        if el is not None and el[0] == BRANCH:
+            # an ideal winding (zero-volt branch): only an open changes it
+            return Term("fallback" if mode == "open" else "none", part.ref)
+        if an != "ac" and part.kind == "capacitor" and mode != "short":
+            return Term("none", part.ref)
+        if an != "ac" and part.kind == "inductor" and mode == "drift":
+            return Term("none", part.ref)
+        a, b = net.node_index[part.nodes[0]], net.node_index[part.nodes[1]]
+        y0 = net.y_val[el[1]] if el is not None else 0.0
+        if el is None and an == "off" and not net.connected(*part.nodes):
+            return Term("fallback", part.ref)  # a short joining separate pieces
+        if a < 0 and b < 0:
+            return Term("none", part.ref)  # both ends on reference nodes
+        return Term("y", part.ref, a, b, y0)
+
+    def new_admittance(self, part, mode, value=None):
+        """Admittance of ``part`` in this analysis under a fault (inf for a short)."""
+        if mode == "open":
+            return 0.0
+        if mode == "short":
+            return np.inf
+        v = part.value if value is None else value
+        if part.kind == "switch" and part.state == "open" and mode != "drift":
+            return 0.0
+        return admittance_of(part, v, self.analysis, self.omega)
+
+    def solve_term(self, t):
+        """``A^{-1} u_t`` and ``A^{-T} u_t`` for an admittance term (cached)."""
+        if t.ref not in self._wt:
+            u = np.zeros(self.net.size, dtype=self.net.A.dtype)
+            if t.a >= 0:
+                u[t.a] += 1
+            if t.b >= 0:
+                u[t.b] -= 1
+            self._wt[t.ref] = (self.lu.solve(u), self.lu.solve_adjoint(u))
+        return self._wt[t.ref]
+
+    # ------------------------------------------------------------ evaluation
+    def nominal(self):
+        """The readings of the healthy circuit (complex; ``inf`` for OL)."""
+        return self.evaluate([], [])
+
+    def evaluate(self, terms, news):
+        """Readings of this group under faults ``terms`` with new admittances / values ``news``.
+
+        Parameters
+        ----------
+        terms : list of Term
+            Kinds "y" and "b" only (one per faulted part).
+        news : list
+            For a "y" term the new admittance (``inf`` short, 0 open); for a
+            "b" term the new source value.
+
+        Returns
+        -------
+        ndarray of complex, shape (n_readings,)
+            ``nan`` where the faulted readings are undefined.
+        """
+        r = len(self.readings)
+        out = np.empty(r, dtype=complex)
+        ys = [(t, v) for t, v in zip(terms, news) if t.kind == "y"]
+        bs = [(t, v) for t, v in zip(terms, news) if t.kind == "b"]
+        # right-hand side change, projected
+        db_rows, db_vals = [], []
+        for t, v in bs:
+            db_rows.append(t.rows); db_vals.append(t.per_unit * (v - t.e0))
+        rows = np.concatenate(db_rows) if db_rows else np.zeros(0, int)
+        vals = np.concatenate(db_vals) if db_vals else np.zeros(0)
+        wt = [self.solve_term(t) for t, _ in ys]
+        for i in range(r):
+            out[i] = self._one(i, ys, bs, wt, rows, vals)
+        return out
+
+    def _one(self, i, ys, bs, wt, rows, vals):
+        kind = self.rtype[i]
+        if kind == "ol":
+            return np.inf
+        if kind == "zero":
+            return 0.0
+        if kind == "src":  # an ideal current source's current is its value
+            for t, v in bs:
+                if t.ref == self.elem[i]:
+                    return v
+            return self.scale[i]
+        Wi, Mi = self.W[:, i], self.Mu[:, i]
+        base_x = self.x if self.analysis != "off" else Wi
+        db_x = Mi[rows] @ vals if len(rows) else 0.0
+        own_d = self.d_m[i]
+        ts, dv, cols = [], [], []
+        for (t, ynew), wcols in zip(ys, wt):
+            if kind == "ya" and self.elem[i] == t.ref:
+                # the measured part itself is faulted: one term with the shunt in series
+                rs = self.rs[i]
+                y2 = (np.inf if rs == 0 else 1.0 / rs) if np.isinf(ynew) else ynew / (1.0 + ynew * rs)
+                if y2 == 0:
+                    return 0.0  # the measured part is open: no current through it
+                own_d = y2 - t.y0
+                continue
+            if ynew - t.y0 != 0:
+                ts.append(t); dv.append(ynew - t.y0); cols.append(wcols)
+        has_own = own_d != 0
+        k = len(ts)
+        m = k + int(has_own)
+        p0 = self.px[i] + db_x
+        if m == 0:
+            v, q = p0, 0.0
+        else:
+            K = np.zeros((m, m), dtype=complex)
+            cx = np.zeros(m, dtype=complex)   # c^T A^{-1} u_t
+            kx = np.zeros(m, dtype=complex)   # u_t^T A^{-1} b'
+            invd = np.zeros(m, dtype=complex)
+            for p, t in enumerate(ts):
+                for q_, t2 in enumerate(ts):
+                    K[p, q_] = _at(cols[q_][0], t.a, t.b)
+                cx[p] = _at(Mi, t.a, t.b)
+                kx[p] = _at(base_x, t.a, t.b) + (cols[p][1][rows] @ vals if len(rows) else 0.0)
+                invd[p] = 0.0 if np.isinf(dv[p]) else 1.0 / dv[p]
+                if has_own:
+                    K[p, k] = _at(Wi, t.a, t.b)
+                    K[k, p] = cx[p]
+            if has_own:
+                K[k, k] = self.z[i]
+                cx[k] = self.z[i]
+                kx[k] = p0
+                invd[k] = 0.0 if np.isinf(own_d) else 1.0 / own_d
+            E = np.diag(invd) + K
+            # a part whose removal leaves a section floating (a bridge): the pivot
+            # 1/d + z cancels exactly.  It carries no current; it matters only to a
+            # reading whose probes straddle it (then the meter closes the path).
+            keep = np.ones(m, dtype=bool)
+            for p, t in enumerate(ts):
+                if invd[p] == 0 and abs(K[p, p]) <= _SING * self.zscale:
+                    # a short across nodes already joined by zero impedance (a source, a wire)
+                    if abs(kx[p]) > _SING * (1.0 + abs(p0)):
+                        return np.nan  # it would short a source: the ideal model has no answer
+                    keep[p] = False
+                    continue
+                if abs(E[p, p]) <= _SING * (abs(invd[p]) + abs(K[p, p])):
+                    straddle = has_own and abs(t.y0 * K[p, k]) > 0.5
+                    if not straddle:
+                        if self.analysis == "off" and abs(t.y0 * cx[p]) > 0.5:
+                            return np.inf  # the test current's only path is cut: OL
+                        if abs(t.y0 * kx[p]) > _SING * (1 + abs(t.y0 * kx[p])) and self.analysis != "off":
+                            return np.nan  # it carried current into a now-floating section
+                        keep[p] = False
+            if not keep.all():
+                E, cx, kx = E[np.ix_(keep, keep)], cx[keep], kx[keep]
+            try:
+                sol = np.linalg.solve(E, kx)
+            except np.linalg.LinAlgError:
+                return np.nan
+            v = p0 - cx @ sol
+            q = sol[-1] if has_own else 0.0
+        if kind == "ya":
+            return self.scale[i] * v + q
+        return self.scale[i] * v
+

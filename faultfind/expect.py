@@ -11,9 +11,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .engine.bands import tolerance_band
 from .engine.meter import overrange as meter_overrange
-from .engine.predict import predict
+from .engine.spread import tolerance_bands
 from .io.meters_file import meters_with_default
 from .model import Circuit, Reading
 
@@ -110,14 +109,10 @@ def expect(circuit: Circuit, readings=None, meters=None) -> list[Expected]:
     readings = survey_readings(circuit) if readings is None else list(readings)
     if not readings:
         return []
-    pred = predict(circuit, readings, meters)
-    tl = np.array([circuit.part(r).tol_low for r in pred.params])
-    th = np.array([circuit.part(r).tol_high for r in pred.params])
-    low, high, sigma = tolerance_band(np.where(np.isfinite(pred.value), pred.value, 0.0),
-                                      pred.sensitivity, tl, th)
+    value, low, high, sigma = tolerance_bands(circuit, readings, meters)
     out = []
     for i, rd in enumerate(readings):
-        v = pred.value[i]
+        v = value[i]
         finite = bool(np.isfinite(v))
         meter = meters[rd.meter or "default"]
         ol = (not finite) or bool(meter_overrange(meter, rd.quantity, v))

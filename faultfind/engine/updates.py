@@ -351,3 +351,120 @@ class Group:
             return self.scale[i] * v + q
         return self.scale[i] * v
 
+
+
+def single(group: Group, t: Term, news) -> np.ndarray:
+    """Readings of ``group`` under one fault term, vectorized over candidate values.
+
+    Parameters
+    ----------
+    group : Group
+    t : Term
+        Kind "y", "b" or "none".
+    news : array_like, shape (k,)
+        New admittances ("y"; ``inf`` short, 0 open) or source values ("b").
+
+    Returns
+    -------
+    ndarray of complex, shape (k, n_readings)
+        Same values as :meth:`Group.evaluate` with one term.
+    """
+    g = group
+    news = np.atleast_1d(np.asarray(news, dtype=complex))
+    nk, r = news.size, len(g.readings)
+    base = g.evaluate([], [])
+    if t.kind == "none" or r == 0:
+        return np.broadcast_to(base, (nk, r)).copy()
+    rt = np.array(g.rtype)
+    live = g.analysis != "off"
+    if t.kind == "b":
+        delta = (news - t.e0)[:, None]                      # (k, 1)
+        dbx = (g.Mu[t.rows, :].T @ t.per_unit)[None, :]    # u_i^T A^{-1} db per unit: (1, r)
+        p0 = g.px[None, :] + delta * dbx
+        d_m = g.d_m[None, :]
+        has = d_m != 0
+        v = np.where(has, p0 / np.where(has, 1.0 + d_m * g.z[None, :], 1.0), p0)
+        q = np.where(has, d_m * v, 0.0)
+        out = np.where(rt == "ya", g.scale * v + q, g.scale * v)
+        src = rt == "src"
+        if src.any():
+            own = np.array([e == t.ref for e in g.elem]) & src
+            out[:, own] = news[:, None]
+            out[:, src & ~own] = g.scale[src & ~own]
+        out[:, rt == "ol"] = np.inf
+        out[:, rt == "zero"] = 0.0
+        return out
+    wt, mt = g.solve_term(t)
+    ktt = _at(wt, t.a, t.b)
+    kti = np.asarray(_at(g.W, t.a, t.b))        # (r,)
+    kit = np.asarray(_at(g.Mu, t.a, t.b))       # (r,)
+    kx0 = np.asarray(_at(g.x, t.a, t.b)) if live else kti
+    kx0 = np.broadcast_to(kx0, (r,))
+    d = news[:, None] - t.y0                    # (k, 1)
+    inf = np.isinf(news)[:, None]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        invd = np.where(inf, 0.0, 1.0 / np.where(d == 0, 1.0, d))
+    e00 = invd + ktt                            # (k, 1)
+    d_m = g.d_m[None, :]
+    has = d_m != 0
+    with np.errstate(divide="ignore", invalid="ignore"):
+        invm = np.where(has, 1.0 / np.where(has, d_m, 1.0), 0.0)
+    e11 = invm + g.z[None, :]
+    p0 = g.px[None, :]
+    det = e00 * e11 - kti * kit
+    with np.errstate(divide="ignore", invalid="ignore"):
+        # two terms (fault + the reading's own)
+        s0 = (e11 * kx0 - kti * p0) / det
+        s1 = (-kit * kx0 + e00 * p0) / det
+        v2 = p0 - kit * s0 - g.z * s1
+        # fault term only
+        s0b = kx0 / e00
+        v1 = p0 - kit * s0b
+        # own term only (the fault term dropped)
+        s1c = p0 / e11
+        v0 = p0 - g.z * s1c
+    v = np.where(has, v2, v1)
+    q = np.where(has, s1, 0.0)
+    # degenerate pivots: a short across zero impedance, a bridge opened
+    zero_short = inf & (np.abs(ktt) <= _SING * g.zscale)
+    bridge = (~inf) & (np.abs(e00) <= _SING * (np.abs(invd) + abs(ktt)))
+    drop = np.zeros((nk, r), dtype=bool)
+    nan = np.zeros((nk, r), dtype=bool)
+    olm = np.zeros((nk, r), dtype=bool)
+    if zero_short.any():
+        bad = np.abs(kx0) > _SING * (1.0 + np.abs(p0))
+        nan |= zero_short & bad
+        drop |= zero_short & ~bad
+    if bridge.any():
+        straddle = has & (np.abs(t.y0 * kti) > 0.5)
+        cut = (not live) & (np.abs(t.y0 * kit) > 0.5)
+        carries = live & (np.abs(t.y0 * kx0) > _SING * (1 + np.abs(t.y0 * kx0)))
+        b = bridge & ~straddle
+        olm |= b & cut
+        nan |= b & ~cut & carries
+        drop |= b & ~cut & ~carries
+    v = np.where(drop, np.where(has, v0, p0), v)
+    q = np.where(drop, np.where(has, s1c, 0.0), q)
+    out = np.where(rt == "ya", g.scale * v + q, g.scale * v)
+    # the measured part itself faulted: one merged term
+    own = (rt == "ya") & np.array([e == t.ref for e in g.elem])
+    if own.any():
+        rs = g.rs[own][None, :]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            y2 = np.where(inf, np.where(rs == 0, np.inf, 1.0 / np.where(rs == 0, 1.0, rs)),
+                          news[:, None] / (1.0 + news[:, None] * rs))
+            od = y2 - t.y0
+            inv_od = np.where(np.isinf(od), 0.0, 1.0 / np.where(od == 0, 1.0, od))
+            sol = np.where(od == 0, 0.0, g.px[own] / (inv_od + g.z[own]))
+            vv = g.px[own] - g.z[own] * sol
+            val = t.y0 * vv + sol
+        out[:, own] = np.where(y2 == 0, 0.0, val)
+        nan[:, own] = False
+        olm[:, own] = False
+    out = np.where(nan, np.nan, out)
+    out = np.where(olm, np.inf, out)
+    src = rt == "src"
+    out[:, src] = g.scale[src]
+    out[:, rt == "zero"] = 0.0
+    out[:, rt == "ol"] = np.inf
+    return out

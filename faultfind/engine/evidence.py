@@ -1,0 +1,214 @@
+"""The readings as evidence: observed displays, their uncertainty, and how well a
+prediction fits them.
+
+Uncertainty of a reading (docs/estimate.md):
+
+* the meter: its specification limit as a rectangular distribution and its
+  display resolution (JCGM 100:2008, 4.3.7 and F.2.2.1; see
+  :func:`faultfind.engine.meter.standard_uncertainty`), taken at the observed
+  display so that every hypothesis is judged against the same yardstick;
+* the healthy parts' tolerances, propagated through the linearized circuit
+  (GUM 5.1.2): covariance ``S P S^T`` with ``P`` the variance of each part's
+  log-value (rectangular within its tolerance: ``half^2 / 3``).  The
+  covariance is full, not diagonal: readings that share a part move together.
+
+Under a fault hypothesis the tolerance spread of each reading is the healthy
+spread rescaled by the ratio of the faulted to the healthy prediction (a
+reading a fault drives to zero loses its spread; one it doubles doubles its
+spread), with the faulted part's own column removed.  The top hypotheses are
+then re-scored with their exact sensitivities (see hypotheses.py).
+
+An ``OL`` display is a bound (censored reading): its likelihood is the
+probability that the reading exceeds the meter's top range.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from scipy.special import log_ndtr
+
+from .bands import log_tolerance
+from .meter import standard_uncertainty
+
+__all__ = ["Evidence", "GROSS"]
+
+#: chi-square charged to a reading the hypothesis says is OL but which shows a
+#: number, or the reverse: a gross disagreement, kept finite so hypotheses
+#: stay comparable.
+GROSS = 2500.0
+
+_LOG2PI = np.log(2 * np.pi)
+
+
+class Evidence:
+    """Observed readings with their uncertainties.
+
+    Parameters
+    ----------
+    readings : list of Reading
+        With values (or ``OL``).
+    meters : dict
+        Meter profiles (with "default").
+    pred0 : ndarray
+        Healthy-circuit predictions (display values).
+    S0 : ndarray, shape (n, m)
+        Healthy sensitivities ``d display / d ln p``.
+    tol_low, tol_high : ndarray, shape (m,)
+        Parameter tolerances.
+    """
+
+    def __init__(self, readings, meters, pred0, S0, tol_low, tol_high):
+        n = len(readings)
+        self.n = n
+        self.y = np.zeros(n)
+        self.ol = np.zeros(n, dtype=bool)
+        self.top = np.full(n, np.inf)       # meter's top range (resistance)
+        self.u = np.zeros(n)
+        for i, rd in enumerate(readings):
+            meter = meters[rd.meter or "default"]
+            if rd.overrange:
+                self.ol[i] = True
+                self.top[i] = meter.max_resistance if rd.quantity == "resistance" else np.inf
+                self.y[i] = np.nan
+                self.u[i] = float(standard_uncertainty(meter, rd.quantity, rd.mode, meter.max_resistance)) \
+                    if rd.quantity == "resistance" else np.inf
+            else:
+                self.y[i] = rd.value
+                self.u[i] = float(standard_uncertainty(meter, rd.quantity, rd.mode, abs(rd.value)))
+            if rd.overrange and rd.overrange < 0:
+                self.top[i] = -np.inf
+        self.pred0 = np.asarray(pred0, dtype=float)
+        self.S0 = np.nan_to_num(np.asarray(S0, dtype=float), nan=0.0, posinf=0.0, neginf=0.0)
+        centre, half = log_tolerance(tol_low, tol_high)
+        self.var_p = half ** 2 / 3.0
+        self.centre = centre
+        # healthy: the mean shift of asymmetric tolerances moves the expected reading
+        self.shift0 = self.S0 @ centre
+        self.T0 = (self.S0 * self.var_p) @ self.S0.T
+        d = np.sqrt(np.clip(np.diag(self.T0), 0, None))
+        with np.errstate(divide="ignore", invalid="ignore"):
+            rel = d / np.abs(self.pred0)
+        ok = np.isfinite(rel) & (np.abs(self.pred0) > 0)
+        #: typical relative tolerance spread, for readings a fault moves off zero
+        self.rel_floor = float(np.median(rel[ok])) if ok.any() else 0.01
+
+    # ------------------------------------------------------------------
+    def _scales(self, pred):
+        p0 = np.abs(self.pred0)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            s = np.abs(pred) / p0
+        s = np.where(np.isfinite(s) & (p0 > 0), np.clip(s, 0.0, 10.0), 0.0)
+        return s
+
+    def tol_cov(self, pred, drop=()):
+        """Tolerance covariance of the readings under a hypothesis predicting ``pred``.
+
+        ``drop`` lists parameter columns fixed by the hypothesis (the faulted parts).
+        """
+        T = self.T0
+        for j in drop:
+            if j >= 0:
+                s = self.S0[:, j]
+                T = T - np.outer(s, s) * self.var_p[j]
+        sc = self._scales(pred)
+        T = T * np.outer(sc, sc)
+        p0 = np.abs(self.pred0)
+        fin = np.isfinite(pred)
+        extra = np.where((p0 == 0) & fin, (self.rel_floor * np.where(fin, pred, 0.0)) ** 2, 0.0)
+        return T + np.diag(extra)
+
+    def diag_chi2(self, P, drop=()):
+        """chi-square of many predictions with the diagonal of the covariance.
+
+        Parameters
+        ----------
+        P : ndarray, shape (k, n)
+            Predicted displays (``inf`` for OL, ``nan`` undefined).
+
+        Returns
+        -------
+        ndarray, shape (k,)
+            ``inf`` where a prediction is undefined.
+        """
+        T = np.diag(self.T0).copy()
+        for j in drop:
+            if j >= 0:
+                T = T - self.S0[:, j] ** 2 * self.var_p[j]
+        T = np.clip(T, 0, None)
+        p0 = np.abs(self.pred0)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            sc = np.abs(P) / p0
+        sc = np.where(np.isfinite(sc) & (p0 > 0), np.clip(sc, 0, 10), 0.0)
+        finP = np.isfinite(P)
+        var = self.u ** 2 + sc ** 2 * T + np.where((p0 == 0) & finP, (self.rel_floor * np.where(finP, P, 0)) ** 2, 0)
+        return self._chi2_terms(P, var).sum(axis=1)
+
+    def _chi2_terms(self, P, var):
+        P = np.atleast_2d(P)
+        k, n = P.shape
+        out = np.zeros((k, n))
+        sd = np.sqrt(var)
+        finP = np.isfinite(P)
+        nanP = np.isnan(P)
+        # numeric readings
+        num = ~self.ol
+        with np.errstate(invalid="ignore", over="ignore"):
+            r = np.where(finP, (self.y - np.where(finP, P, 0.0)) / sd, 0.0)
+        out = np.where(num & finP, r ** 2, out)
+        out = np.where(num & ~finP & ~nanP, GROSS, out)
+        # OL readings: P(display above the top range)
+        if self.ol.any():
+            with np.errstate(invalid="ignore", divide="ignore"):
+                z = np.where(finP, (np.abs(np.where(finP, P, 0.0)) - np.abs(self.top)) / sd, np.inf)
+            cens = -2.0 * log_ndtr(z)
+            cens = np.minimum(cens, GROSS)
+            out = np.where(self.ol, np.where(finP, cens, 0.0), out)
+        out = np.where(nanP, np.inf, out)
+        return out
+
+    def score(self, pred, drop=()):
+        """Full-covariance chi-square and log-likelihood of one prediction.
+
+        Returns
+        -------
+        chi2 : float
+        loglike : float
+            ``-inf`` when the prediction is undefined.
+        """
+        pred = np.asarray(pred, dtype=float)
+        if np.isnan(pred).any():
+            return np.inf, -np.inf
+        T = self.tol_cov(pred, drop)
+        num = (~self.ol) & np.isfinite(pred)
+        chi2 = 0.0
+        loglike = 0.0
+        if num.any():
+            C = T[np.ix_(num, num)] + np.diag(self.u[num] ** 2)
+            r = self.y[num] - pred[num]
+            try:
+                L = np.linalg.cholesky(C)
+                z = np.linalg.solve(L, r)
+                chi2 += float(z @ z)
+                logdet = 2.0 * float(np.log(np.diag(L)).sum())
+            except np.linalg.LinAlgError:
+                var = np.diag(C)
+                chi2 += float((r ** 2 / var).sum())
+                logdet = float(np.log(var).sum())
+            loglike += -0.5 * (chi2 + logdet + num.sum() * _LOG2PI)
+        var = np.diag(T) + self.u ** 2
+        other = self._chi2_terms(pred[None, :], var)[0]
+        rest = ~num
+        extra = float(other[rest].sum())
+        chi2 += extra
+        # gross terms and censored terms enter the likelihood as -chi2/2
+        loglike += -0.5 * extra
+        return chi2, loglike
+
+    def residuals(self, pred, drop=()):
+        """Standardized residual of each reading (diagonal covariance); 0 for OL consistent."""
+        pred = np.asarray(pred, dtype=float)
+        var = np.clip(np.diag(self.tol_cov(pred, drop)), 0, None) + self.u ** 2
+        t = self._chi2_terms(pred[None, :], var)[0]
+        with np.errstate(invalid="ignore"):
+            sign = np.sign(np.where(np.isfinite(pred) & ~self.ol, self.y - pred, 1.0))
+        return sign * np.sqrt(t)

@@ -1,0 +1,125 @@
+"""Tolerance bands that follow the circuit's own non-linearity.
+
+:func:`faultfind.engine.bands.tolerance_band` linearizes every reading in the
+log-values of the parts.  A reading proportional to one part (a lifted
+resistor, the current through a capacitor) is exponential in that log-value,
+so a linear band stops short of the part's own limits; with wide asymmetric
+tolerances (-20 %/+80 % electrolytics) whose effects multiply, it misses a
+tenth of healthy boards.
+
+Here every part that matters to a reading (its linear share of the worst case
+is at least ``significant``) is moved over its own tolerance exactly, one part
+at a time, with the rank-one engine, at Gauss-Legendre nodes and at its two
+limits: that gives the part's exact effect.  The effects are combined as
+independent, on the logarithm of the reading when every part keeps the
+reading's sign (a circuit's readings are mostly products and ratios of part
+values, which add exactly in logs), otherwise on the reading itself (a bridge
+output near zero).  The band is the mean plus or minus 1.96 standard
+deviations, widened where needed to hold every reading one part alone gives
+anywhere in its tolerance (a lifted 100 ohm +/-5 % resistor's band is
+95..105 ohm: a part within tolerance is healthy), and capped by the sum of
+all parts' extremes (the worst case).  Parts below the threshold keep the
+linear treatment.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .bands import COVERAGE_FACTOR, log_tolerance
+from .hypotheses import Board
+from .predict import predict
+
+__all__ = ["tolerance_bands"]
+
+_NODES, _WEIGHTS = np.polynomial.legendre.leggauss(6)
+
+
+def _combine(mean, var, lo_sum, hi_sum, one_lo, one_hi):
+    sd = np.sqrt(np.clip(var, 0, None))
+    low = np.maximum(np.minimum(mean - COVERAGE_FACTOR * sd, one_lo), lo_sum)
+    high = np.minimum(np.maximum(mean + COVERAGE_FACTOR * sd, one_hi), hi_sum)
+    return low, high, sd
+
+
+def tolerance_bands(circuit, readings, meters, significant=0.01):
+    """Expected displays and their ~95 % bands on a healthy circuit.
+
+    Parameters
+    ----------
+    circuit : Circuit
+    readings : list of Reading
+    meters : dict
+        Meter profiles with "default".
+    significant : float, optional
+        Share of a reading's linear worst case above which a part is moved
+        over its tolerance exactly (default 1 %).
+
+    Returns
+    -------
+    value, low, high, sigma : ndarray
+        Nominal display (``inf`` for OL), band limits and standard deviation
+        (``nan`` where the display is OL).
+    """
+    readings = list(readings)
+    pred = predict(circuit, readings, meters)
+    y0 = pred.value
+    n = y0.size
+    finite = np.isfinite(y0)
+    yf = np.where(finite, y0, 0.0)
+    S = np.nan_to_num(pred.sensitivity)
+    tl = np.array([circuit.part(r).tol_low for r in pred.params])
+    th = np.array([circuit.part(r).tol_high for r in pred.params])
+    centre, half = log_tolerance(tl, th)
+    contrib = np.abs(S) * half
+    worst = contrib.sum(axis=1)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        share = np.where(worst[:, None] > 0, contrib / worst[:, None], 0.0)
+    exact = (share >= significant).any(axis=0)
+    lin = ~exact
+    # per-part effects: additive deviations d (linear) and log ratios g (log)
+    acc = {k: np.zeros(n) for k in ("m", "v", "lo", "hi", "olo", "ohi",
+                                     "gm", "gv", "glo", "ghi", "golo", "gohi")}
+    same_sign = np.abs(yf) > 0
+    with np.errstate(divide="ignore", invalid="ignore"):
+        Sl = np.where(same_sign[:, None], S / np.where(same_sign, yf, 1.0)[:, None], 0.0)
+    for key, M in (("", S), ("g", Sl)):
+        ML = M[:, lin]
+        acc[key + "m" if key else "m"] += ML @ centre[lin]
+        acc[key + "v" if key else "v"] += (ML ** 2) @ (half[lin] ** 2 / 3.0)
+        acc[key + "lo" if key else "lo"] += ML @ centre[lin] - np.abs(ML) @ half[lin]
+        acc[key + "hi" if key else "hi"] += ML @ centre[lin] + np.abs(ML) @ half[lin]
+    if exact.any():
+        board = Board(circuit, readings, meters)
+        for j in np.flatnonzero(exact):
+            part = circuit.part(pred.params[j])
+            a, b = centre[j] - half[j], centre[j] + half[j]
+            rho = np.concatenate([centre[j] + half[j] * _NODES, [a, b]])
+            P = board.predict_fault(part, "drift", np.exp(rho))
+            P = np.where(np.isfinite(P), P, yf)
+            d = P - yf
+            same_sign &= np.all(np.sign(P) == np.sign(yf), axis=0)
+            with np.errstate(divide="ignore", invalid="ignore"):
+                g = np.where(same_sign, np.log(np.abs(P) / np.where(same_sign, np.abs(yf), 1.0)), 0.0)
+            for key, D in (("", d), ("g", g)):
+                q = D[: len(_NODES)]
+                m = (_WEIGHTS[:, None] * q).sum(axis=0) / 2.0
+                v = (_WEIGHTS[:, None] * q ** 2).sum(axis=0) / 2.0 - m ** 2
+                acc[key + "m"] += m
+                acc[key + "v"] += np.clip(v, 0, None)
+                acc[key + "lo"] += D.min(axis=0)
+                acc[key + "hi"] += D.max(axis=0)
+                acc[key + "olo"] = np.minimum(acc[key + "olo"], D.min(axis=0))
+                acc[key + "ohi"] = np.maximum(acc[key + "ohi"], D.max(axis=0))
+    low_l, high_l, sd_l = _combine(acc["m"], acc["v"], acc["lo"], acc["hi"], acc["olo"], acc["ohi"])
+    low_g, high_g, sd_g = _combine(acc["gm"], acc["gv"], acc["glo"], acc["ghi"], acc["golo"], acc["gohi"])
+    ay = np.abs(yf)
+    sgn = np.sign(yf)
+    lg = sgn * ay * np.where(sgn >= 0, np.exp(low_g), np.exp(high_g))
+    hg = sgn * ay * np.where(sgn >= 0, np.exp(high_g), np.exp(low_g))
+    use_log = same_sign & finite
+    low = np.where(use_log, lg, yf + low_l)
+    high = np.where(use_log, hg, yf + high_l)
+    sigma = np.where(use_log, ay * sd_g, sd_l)
+    nanv = np.full(n, np.nan)
+    return y0, np.where(finite, low, nanv), np.where(finite, high, nanv), np.where(finite, sigma, nanv)

@@ -1,0 +1,91 @@
+"""Simulated boards and meter readings: for drills, benchmarks and the field cases.
+
+A simulated board is the drawn circuit with every healthy part's value drawn
+inside its tolerance (uniform on the log scale, the model the tolerance bands
+and the diagnosis assume), and the faults applied.  Each requested reading is
+solved on that board with the meter as a real part (its loading), then shown as
+the meter would: an error within its accuracy specification, rounded to the
+display's resolution, ``OL`` over range.
+"""
+
+from __future__ import annotations
+
+from dataclasses import replace
+
+import numpy as np
+
+from .engine.meter import simulate as meter_display
+from .engine.oracle import oracle_readings
+from .model import Circuit, Reading
+from .units import format_value
+
+__all__ = ["draw_board", "simulate_readings", "fault_overrides"]
+
+UNITS = {"voltage": "V", "current": "A", "resistance": "Ω"}
+
+
+def draw_board(circuit: Circuit, rng) -> Circuit:
+    """A healthy board: every valued part drawn uniformly in log value within its tolerance."""
+    rng = np.random.default_rng(rng)
+    parts = []
+    for p in circuit.parts:
+        if p.value is None or p.value == 0:
+            parts.append(p)
+            continue
+        lo, hi = np.log1p(-min(p.tol_low, 0.999)), np.log1p(p.tol_high)
+        parts.append(replace(p, value=float(p.value * np.exp(rng.uniform(lo, hi)))))
+    return replace(circuit, parts=tuple(parts))
+
+
+def fault_overrides(faults) -> dict:
+    """``[(ref, mode, value), ...]`` to the overrides the engine takes."""
+    out = {}
+    for ref, mode, value in faults:
+        out[ref] = float(value) if mode == "drift" else mode
+    return out
+
+
+def simulate_readings(circuit: Circuit, readings, meters: dict, faults=(), rng=None,
+                      board: Circuit | None = None) -> list[Reading]:
+    """Readings as a meter would show them on a (faulted) board.
+
+    Parameters
+    ----------
+    circuit : Circuit
+        The drawn circuit.
+    readings : sequence of Reading
+        What to read (values ignored).
+    meters : dict
+        Meter profiles with "default".
+    faults : sequence of (ref, mode, value)
+        Faults to plant; ``value`` is the drifted value (SI) for a drift.
+    rng : numpy Generator or int, optional
+    board : Circuit, optional
+        A board from :func:`draw_board`; drawn from ``rng`` when omitted.
+
+    Returns
+    -------
+    list of Reading
+        Copies of ``readings`` with ``value``, ``overrange`` and ``raw`` set.
+        A reading the faulted board leaves undefined (a floating section)
+        shows 0.
+    """
+    rng = np.random.default_rng(rng)
+    if board is None:
+        board = draw_board(circuit, rng)
+    true = oracle_readings(board, list(readings), meters, fault_overrides(faults))
+    out = []
+    for rd, t in zip(readings, true):
+        meter = meters[rd.meter or "default"]
+        if np.isnan(t):
+            t = 0.0
+        if rd.quantity == "resistance":
+            x = float(abs(t.real)) if np.isfinite(t) else np.inf
+        elif rd.mode == "ac":
+            x = float(abs(t))
+        else:
+            x = float(t.real)
+        value, ol = meter_display(meter, rd.quantity, rd.mode, x, rng)
+        raw = "OL" if ol else format_value(value, UNITS[rd.quantity], digits=6)
+        out.append(replace(rd, value=value, overrange=ol, raw=raw))
+    return out

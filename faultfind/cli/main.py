@@ -14,11 +14,12 @@ import sys
 from .. import __version__
 from ..errors import FaultfindError, InputError, SolveError
 from . import check as check_cmd
+from . import diagnose as diagnose_cmd
 from . import expect as expect_cmd
 
 __all__ = ["main", "build_parser"]
 
-COMMANDS = (check_cmd, expect_cmd)
+COMMANDS = (check_cmd, expect_cmd, diagnose_cmd)
 
 
 class _Parser(argparse.ArgumentParser):

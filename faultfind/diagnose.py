@@ -1,0 +1,302 @@
+"""Diagnosis: readings compared with the circuit, turned into ranked findings.
+
+The library call behind ``faultfind diagnose`` and the terminal UI's live
+findings.  The numbers come from the engine (:mod:`faultfind.engine`); this
+module adds what a person reads: explanations, what to re-check, replacement
+values from the E-series, and the JSON document of cli.md.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .engine.ambiguity import groups_from_hypotheses, groups_from_sensitivity, merge_groups
+from .engine.estimate import Estimate, limit_value, map_estimate
+from .engine.hypotheses import DRIFT_RANGE, Evaluator, Hypothesis, rank_with
+from .engine.predict import predict
+from .eseries import nearest, series_for_tolerance
+from .io.meters_file import meters_with_default
+from .model import Circuit, Reading
+from .units import format_value
+
+__all__ = ["Diagnosis", "diagnose", "diagnosis_json", "describe_fault"]
+
+UNITS = {"voltage": "V", "current": "A", "resistance": "Ω"}
+
+
+@dataclass
+class Diagnosis:
+    """The outcome of comparing readings with a circuit.
+
+    Attributes
+    ----------
+    verdict : str
+        "fault", "no-fault" or "inconsistent" (cli.md).
+    hypotheses : list of Hypothesis
+        The most probable, best first; ``probability`` renormalized over this
+        list.
+    tail : float
+        Total probability of the hypotheses not listed (before renormalizing).
+    estimates : dict
+        Ref to :class:`~faultfind.engine.estimate.Estimate`.
+    ambiguity_groups : list of list of str
+    unseen : list of str
+        Parts whose value no reading depends on.
+    explanations : list of list of str
+        For each listed hypothesis (up to three), the readings that speak for
+        and against it.
+    recheck : list of str
+        What to re-check when the readings are inconsistent.
+    notes : list of str
+    suggestions : list of dict
+        Next readings (filled by the advisor).
+    """
+
+    circuit: Circuit
+    readings: list
+    verdict: str
+    hypotheses: list
+    tail: float
+    estimates: dict
+    ambiguity_groups: list
+    unseen: list
+    explanations: list
+    recheck: list
+    notes: list
+    suggestions: list = field(default_factory=list)
+    evaluator: Evaluator | None = None
+
+
+def _name(rd: Reading) -> str:
+    return rd.label or rd.where()
+
+
+def _fmt(v, unit):
+    if v is None or not np.isfinite(v):
+        return "OL"
+    if unit != "Ω" and abs(v) < 1e-10:
+        v = 0.0  # numerical zero, far below any meter's resolution
+    return format_value(v, unit, digits=3)
+
+
+def describe_fault(circuit, f) -> str:
+    """``R7 open``, ``R9 drifted to 6.1 kΩ (+30 %)``, ``PS1 dead``."""
+    p = circuit.part(f.ref)
+    if f.mode == "drift" and p.kind in ("fuse", "switch"):
+        return f"{f.ref} high resistance" + (f" ({format_value(f.value, 'Ω')})" if f.value else "")
+    if f.mode == "drift" and f.value is not None:
+        pct = (f.value / p.value - 1.0) * 100.0
+        return f"{f.ref} drifted to {format_value(f.value, p.info.unit)} ({pct:+.0f} %)"
+    if f.mode == "short" and p.kind == "switch":
+        return f"{f.ref} short (welded contacts)"
+    return f"{f.ref} {f.mode}"
+
+
+def _explain(ev: Evaluator, h: Hypothesis, healthy: Hypothesis, limit=4):
+    out = []
+    e = ev.ev
+    drop = ev.drop_cols(h.faults)
+    z0 = e.residuals(healthy.predicted)
+    zh = e.residuals(h.predicted, drop)
+    label = " + ".join(describe_fault(ev.circuit, f) for f in h.faults) or "a healthy circuit"
+    order = np.argsort(-np.abs(z0))
+    n_for = 0
+    for i in order:
+        rd = ev.readings[i]
+        unit = UNITS[rd.quantity]
+        shown = "OL" if rd.overrange else _fmt(rd.value, unit)
+        if abs(z0[i]) > 3 and abs(zh[i]) <= 2 and n_for < limit:
+            out.append(f"for: {_name(rd)} reads {shown} where {_fmt(healthy.predicted[i], unit)} "
+                       f"is expected; {label} explains it (predicts {_fmt(h.predicted[i], unit)})")
+            n_for += 1
+    for i in np.argsort(-np.abs(zh)):
+        rd = ev.readings[i]
+        unit = UNITS[rd.quantity]
+        shown = "OL" if rd.overrange else _fmt(rd.value, unit)
+        if abs(zh[i]) > 3 and len(out) < 2 * limit:
+            out.append(f"against: {_name(rd)} reads {shown} but {label} predicts "
+                       f"{_fmt(h.predicted[i], unit)}")
+    for f in h.faults:
+        p = ev.circuit.part(f.ref)
+        if f.mode == "drift" and f.value:
+            series = series_for_tolerance(max(p.tol_low, p.tol_high, 0.001))
+            if p.kind in ("resistor", "capacitor", "inductor"):
+                out.append(f"value: {f.ref} estimated {format_value(f.value, p.info.unit)} against "
+                           f"{format_value(p.value, p.info.unit)} nominal "
+                           f"({(f.value / p.value - 1) * 100:+.0f} %); it reads like a "
+                           f"{format_value(nearest(f.value, series), p.info.unit)} part ({series}): "
+                           f"check a wrong value was not fitted; replace with "
+                           f"{format_value(p.value, p.info.unit)}")
+    if not out:
+        out.append(f"{label} fits every reading within its uncertainty")
+    return out
+
+
+def _recheck(ev: Evaluator, best: Hypothesis):
+    """What to re-check when no hypothesis explains the readings."""
+    e = ev.ev
+    z = e.residuals(best.predicted, ev.drop_cols(best.faults))
+    out = []
+    healthy_all = None
+    for i in np.argsort(-np.abs(z))[:3]:
+        if abs(z[i]) <= 3:
+            break
+        rd = ev.readings[i]
+        unit = UNITS[rd.quantity]
+        sd = np.sqrt(e.u[i] ** 2 + max(e.T0[i, i], 0))
+        y, p = rd.value, best.predicted[i]
+        hints = []
+        if y is not None and np.isfinite(p):
+            if abs(y + p) <= 3 * sd and abs(p) > 3 * sd:
+                hints.append("the probes reversed")
+            for k in (1e3, 1e-3):
+                if abs(y * k - p) <= 3 * sd * max(1, k):
+                    hints.append("a unit prefix (mV against V, mA against A)")
+                    break
+            if rd.quantity == "voltage":
+                if healthy_all is None:
+                    healthy_all = _node_voltages(ev)
+                for (node, mode), v in healthy_all.items():
+                    if node not in (rd.plus, rd.minus) and mode == rd.mode and abs(v - y) <= 3 * sd:
+                        hints.append(f"the probe on node {node} instead of {rd.plus}")
+                        break
+                if rd.mode == "dc" and abs(y) < 3 * sd and ev.circuit.has_ac:
+                    hints.append("the meter on DC where the signal is AC")
+        hint = ("; possible causes: " + ", ".join(hints)) if hints else \
+            "; re-take it, check the probe points and the meter's mode and range"
+        out.append(f"re-check {_name(rd)}: reads {'OL' if rd.overrange else _fmt(y, unit)} where the best "
+                   f"explanation ({best.label}) expects {_fmt(p, unit)}{hint}")
+    out.append("if the readings stand, more than one part may have failed, or the unit differs "
+               "from its drawing (a modification, a wrong part fitted)")
+    return out
+
+
+def _node_voltages(ev: Evaluator):
+    c = ev.circuit
+    modes = ["dc"] + (["ac"] if c.has_ac else [])
+    rds = [Reading("voltage", m, n, c.ground) for m in modes for n in c.nodes if n != c.ground]
+    vals = predict(c, rds, ev.meters).value
+    return {(r.plus, r.mode): v for r, v in zip(rds, vals)}
+
+
+def diagnose(circuit: Circuit, readings, meters=None, *, top: int = 10, doubles: bool = True) -> Diagnosis:
+    """Compare ``readings`` with ``circuit``; rank fault hypotheses.
+
+    Parameters
+    ----------
+    circuit : Circuit
+        A validated circuit.
+    readings : sequence of Reading
+        Validated readings, each with a value or ``OL``.
+    meters : dict, optional
+        Meter profiles; the built-in default is added.
+    top : int, optional
+        How many hypotheses to list (at least 1).
+    doubles : bool, optional
+        Try pairs of faults when no single fault explains the readings.
+
+    Returns
+    -------
+    Diagnosis
+    """
+    if top < 1:
+        raise ValueError(f"top: must be at least 1, got {top}")
+    meters = meters_with_default(meters)
+    readings = list(readings)
+    for rd in readings:
+        if rd.value is None and not rd.overrange:
+            raise ValueError(f"readings: {rd.where()} has no value")
+    ev = Evaluator(circuit, readings, meters)
+    if not readings:
+        healthy = ev.make([], ev.healthy_prediction())
+        healthy.probability = 1.0
+        return Diagnosis(circuit, readings, "no-fault", [healthy], 0.0, _estimates(ev, healthy), [],
+                         list(ev.params), [["no readings yet: take the suggested readings"]], [],
+                         ["no readings: nothing can be told yet"], [], ev)
+    ranking = rank_with(ev, doubles=doubles)
+    listed = ranking.hypotheses[:top]
+    total = sum(h.probability for h in listed)
+    tail = 1.0 - total
+    shown = []
+    for h in listed:
+        h2 = Hypothesis(h.faults, h.predicted, h.chi2, h.log_like, h.log_prior, h.log_post,
+                        h.probability / total if total > 0 else 1.0 / len(listed), h.drift_sd, h.exact)
+        shown.append(h2)
+    best = ranking.hypotheses[0]
+    sd = np.sqrt(ev.ev.u ** 2 + np.clip(np.diag(ev.ev.T0), 0, None))
+    groups = groups_from_hypotheses(ranking.hypotheses, sd)
+    sgroups, unseen = groups_from_sensitivity(list(ev.params), ev.S0, np.where(sd > 0, sd, 1.0), ev.ev.var_p)
+    all_groups = merge_groups([set(g) for g in groups] + [set(g) for g in sgroups])
+    explanations = [_explain(ev, h, ranking.healthy) for h in ranking.hypotheses[:3]]
+    recheck = _recheck(ev, best) if ranking.verdict == "inconsistent" else []
+    notes = []
+    if ranking.verdict == "no-fault":
+        hidden = [h for h in ranking.hypotheses[1:6] if h.faults and h.probability >= 0.05]
+        if hidden:
+            notes.append("the readings fit a healthy circuit, but they cannot rule out: "
+                         + ", ".join(describe_fault(circuit, f) for h in hidden for f in h.faults)
+                         + "; take the suggested readings to see them")
+        if unseen:
+            notes.append("no reading depends on " + ", ".join(unseen[:12])
+                         + (" and others" if len(unseen) > 12 else "") + ": a fault there would not show")
+    if ranking.doubles_tried:
+        notes.append("no single fault explained the readings, so pairs of faults were tried")
+    return Diagnosis(circuit, readings, ranking.verdict, shown, tail, _estimates(ev, best), all_groups,
+                     unseen, explanations, recheck, notes, [], ev)
+
+
+def _estimates(ev: Evaluator, h: Hypothesis) -> dict:
+    circuit = ev.circuit
+    fixed = {}
+    for f in h.faults:
+        p = circuit.part(f.ref)
+        if f.mode == "drift":
+            sd = h.drift_sd
+            if sd is None:
+                lo, hi = p.value * DRIFT_RANGE[0], p.value * DRIFT_RANGE[1]
+            else:
+                lo, hi = f.value * np.exp(-1.96 * sd), f.value * np.exp(1.96 * sd)
+            fixed[f.ref] = (f.value, float(lo), float(hi), "drift")
+        else:
+            v = limit_value(p, f.mode)
+            fixed[f.ref] = (v, v, v, f.mode)
+    params = list(ev.params)
+    nominal = np.array([circuit.part(r).value for r in params])
+    S = ev.S0
+    if h.faults:
+        overrides = {f.ref: (f.value if f.mode == "drift" else f.mode) for f in h.faults}
+        try:
+            S = np.nan_to_num(predict(circuit, ev.readings, ev.meters, overrides=overrides).sensitivity)
+        except Exception:  # noqa: BLE001 - a faulted network that cannot be re-solved: keep S0
+            S = ev.S0
+    e = ev.ev
+    use = (~e.ol) & np.isfinite(h.predicted)
+    est = map_estimate(params, nominal, e.centre, e.var_p, S, np.nan_to_num(e.y), h.predicted, e.u, use, fixed)
+    return est
+
+
+def _num(x):
+    return None if x is None or not np.isfinite(x) else float(x)
+
+
+def diagnosis_json(d: Diagnosis) -> dict:
+    """The ``diagnose --json`` document of cli.md (plus the documented extra keys)."""
+    return {
+        "verdict": d.verdict,
+        "hypotheses": [
+            {"faults": [{"ref": f.ref, "mode": f.mode, "value": _num(f.value) if f.mode == "drift" else None}
+                        for f in h.faults],
+             "probability": float(h.probability), "chi2": _num(h.chi2), "readings": len(d.readings)}
+            for h in d.hypotheses],
+        "estimates": {ref: {"nominal": e.nominal, "value": _num(e.value), "low": _num(e.low),
+                            "high": _num(e.high)} for ref, e in d.estimates.items()},
+        "ambiguity_groups": d.ambiguity_groups,
+        "suggestions": d.suggestions,
+        "explanations": [{"hypothesis": i, "lines": lines} for i, lines in enumerate(d.explanations)
+                         if i < len(d.hypotheses)],
+        "unseen": d.unseen,
+        "recheck": d.recheck,
+        "notes": d.notes,
+    }

@@ -117,31 +117,53 @@ class Evidence:
         extra = np.where((p0 == 0) & fin, (self.rel_floor * np.where(fin, pred, 0.0)) ** 2, 0.0)
         return T + np.diag(extra)
 
-    def diag_chi2(self, P, drop=()):
+    def diag_chi2(self, P, drop=(), with_logdet=False):
         """chi-square of many predictions with the diagonal of the covariance.
 
         Parameters
         ----------
         P : ndarray, shape (k, n)
             Predicted displays (``inf`` for OL, ``nan`` undefined).
+        drop : sequence of int
+            Parameter columns fixed by the hypothesis (the same for every row).
+        with_logdet : bool
+            Also return ``sum(log(2 pi var))`` over the numeric readings.
 
         Returns
         -------
-        ndarray, shape (k,)
+        chi2 : ndarray, shape (k,)
             ``inf`` where a prediction is undefined.
+        logdet : ndarray, shape (k,)
+            Only with ``with_logdet``.
         """
-        T = np.diag(self.T0).copy()
-        for j in drop:
-            if j >= 0:
-                T = T - self.S0[:, j] ** 2 * self.var_p[j]
-        T = np.clip(T, 0, None)
+        P = np.atleast_2d(P)
+        drops = [list(drop)] * P.shape[0]
+        return self.diag_chi2_rows(P, drops, with_logdet)
+
+    def diag_chi2_rows(self, P, drops, with_logdet=False):
+        """:meth:`diag_chi2` with its own fixed columns for each row (a list per row)."""
+        P = np.atleast_2d(P)
+        k = P.shape[0]
+        Tdiag = np.broadcast_to(np.diag(self.T0), (k, self.n)).copy()
+        for pos in range(max((len(d) for d in drops), default=0)):
+            js = np.array([d[pos] if pos < len(d) else -1 for d in drops])
+            ok = js >= 0
+            if ok.any():
+                cols = self.S0[:, js[ok]].T ** 2 * self.var_p[js[ok]][:, None]
+                Tdiag[ok] -= cols
+        T = np.clip(Tdiag, 0, None)
         p0 = np.abs(self.pred0)
         with np.errstate(divide="ignore", invalid="ignore"):
             sc = np.abs(P) / p0
         sc = np.where(np.isfinite(sc) & (p0 > 0), np.clip(sc, 0, 10), 0.0)
         finP = np.isfinite(P)
         var = self.u ** 2 + sc ** 2 * T + np.where((p0 == 0) & finP, (self.rel_floor * np.where(finP, P, 0)) ** 2, 0)
-        return self._chi2_terms(P, var).sum(axis=1)
+        c2 = self._chi2_terms(P, var).sum(axis=1)
+        if not with_logdet:
+            return c2
+        num = (~self.ol)[None, :] & finP
+        logdet = np.where(num, np.log(2 * np.pi * np.where(num, var, 1.0)), 0.0).sum(axis=1)
+        return c2, logdet
 
     def _chi2_terms(self, P, var):
         P = np.atleast_2d(P)

@@ -35,8 +35,8 @@ from .bands import log_tolerance
 from .evidence import Evidence
 from .oracle import oracle_readings
 from .predict import analysis_key, lifted_value, parameters, predict
-from .priors import log_prior
-from .updates import Group, admittance_of, single
+from .priors import KIND_WEIGHTS, log_prior
+from .updates import Group, admittance_of, batch, single
 
 __all__ = ["Fault", "Hypothesis", "Ranking", "rank", "Board", "Evaluator", "FIT_P", "HEALTHY_P"]
 
@@ -50,10 +50,12 @@ HEALTHY_P = 1e-2
 DRIFT_RANGE = (1e-3, 1e3)
 #: Drift range of sources: a sagging or overshooting supply.
 SOURCE_RANGE = (1e-2, 2.0)
-_GRID = 97
+_GRID = 25
 #: How many of the best single faults are re-scored exactly and paired.
-EXACT_TOP = 6
+EXACT_TOP = 4
 PAIR_TOP = 6
+#: How many hypotheses of the first (diagonal) pass are scored with the full covariance.
+FULL_TOP = 40
 
 
 @dataclass(frozen=True)
@@ -164,36 +166,67 @@ class Board:
         -------
         ndarray, shape (k, n)
         """
-        k = 1 if factors is None else len(factors)
-        out = np.zeros((k, self.n), dtype=complex)
+        return self.predict_many([(part, mode, factors)])[0]
+
+    def predict_many(self, items) -> list:
+        """Displays under many single faults, batched per analysis.
+
+        Parameters
+        ----------
+        items : list of (Part, mode, factors)
+            ``factors`` (drift only) are the candidate values as multiples of
+            nominal; None for the other modes.
+
+        Returns
+        -------
+        list of ndarray, shape (k_i, n)
+        """
+        sizes = [1 if f is None else len(f) for _, _, f in items]
+        offs = np.concatenate([[0], np.cumsum(sizes)]).astype(int)
+        big = np.zeros((int(offs[-1]), self.n), dtype=complex)
+        outs = [big[offs[h]:offs[h + 1]] for h in range(len(items))]   # views into big
         for key, (g, idx) in self.groups.items():
-            t = g.term(part, mode)
-            if t.kind == "fallback":
-                for row in range(k):
-                    ov = mode if factors is None else part.value * factors[row]
-                    out[row, idx] = oracle_readings(self.circuit, g.readings, self.meters, {part.ref: ov})
-                continue
-            if t.kind == "b":
-                news = np.zeros(1) if mode == "dead" else t.e0 * np.asarray(factors)
-            elif t.kind == "y":
-                if mode == "drift":
-                    news = np.array([admittance_of(part, part.value * f, g.analysis, g.omega)
-                                     for f in factors])
+            pending = {}
+            tcache = g.__dict__.setdefault("_terms", {})
+            for h, (part, mode, factors) in enumerate(items):
+                k = sizes[h]
+                t = tcache.get((part.ref, mode))
+                if t is None:
+                    t = tcache[(part.ref, mode)] = g.term(part, mode)
+                if t.kind == "y":
+                    if mode == "drift":
+                        news = np.broadcast_to(admittance_of(part, part.value * np.asarray(factors, float),
+                                                             g.analysis, g.omega), (k,))
+                    else:
+                        news = np.array([g.new_admittance(part, mode)])
+                    pending.setdefault(k, []).append((h, t, news))
+                elif t.kind == "fallback":
+                    for row in range(k):
+                        ov = mode if factors is None else part.value * factors[row]
+                        outs[h][row, idx] = oracle_readings(self.circuit, g.readings, self.meters,
+                                                            {part.ref: ov})
+                elif t.kind == "b":
+                    news = np.zeros(1) if mode == "dead" else t.e0 * np.asarray(factors)
+                    outs[h][:, idx] = single(g, t, news)
                 else:
-                    news = np.array([g.new_admittance(part, mode)])
-            else:
-                news = np.zeros(k)
-            out[:, idx] = single(g, t, news)
+                    outs[h][:, idx] = g.nominal()
+            for k, lst in pending.items():
+                res = batch(g, [t for _, t, _ in lst], np.array([nw for _, _, nw in lst]))
+                rows = np.concatenate([np.arange(offs[h], offs[h] + k) for h, _, _ in lst])
+                big[np.ix_(rows, idx)] = res.reshape(-1, len(idx))
         for i in self.lifted:
             rd = self.readings[i]
-            if rd.part == part.ref:
+            base = lifted_value(self.circuit.part(rd.part))
+            big[:, i] = base
+            for h, (part, mode, factors) in enumerate(items):
+                if rd.part != part.ref:
+                    continue
                 if mode == "drift":
-                    out[:, i] = [lifted_value(part, part.value * f) for f in factors]
+                    outs[h][:, i] = [lifted_value(part, part.value * f) for f in factors]
                 else:
-                    out[:, i] = lifted_value(part, mode if mode in ("open", "short") else None)
-            else:
-                out[:, i] = lifted_value(self.circuit.part(rd.part))
-        return _display(out, self.ac)
+                    outs[h][:, i] = lifted_value(part, mode if mode in ("open", "short") else None)
+        disp = _display(big, self.ac)
+        return [disp[offs[h]:offs[h + 1]] for h in range(len(items))]
 
     def predict_faults(self, faults) -> np.ndarray:
         """Displays under several faults at once (pairs), via the general update."""
@@ -259,7 +292,9 @@ class Evaluator(Board):
 
     def make(self, faults, pred, drift_sd=None, occam=0.0):
         parts = [(self.circuit.part(f.ref), f.mode) for f in faults]
-        lp = log_prior(self.circuit.parts, parts)
+        if not hasattr(self, "_wtotal"):
+            self._wtotal = sum(KIND_WEIGHTS.get(p.kind, 0.0) for p in self.circuit.parts if p.fault_modes)
+        lp = log_prior(self.circuit.parts, parts, self._wtotal)
         chi2, ll = self.ev.score(pred, self.drop_cols(faults))
         return Hypothesis(tuple(faults), pred, chi2, ll + occam, lp, lp + ll + occam, drift_sd=drift_sd)
 
@@ -310,64 +345,129 @@ class Evaluator(Board):
         tl, th = part.tol_low, part.tol_high
         return lo, hi, np.log1p(-min(tl, 0.999)), np.log1p(th)
 
-    def fit_drift(self, part):
-        """Best drifted value of ``part`` and its Laplace evidence.
+    def fit_drifts(self, parts):
+        """Best drifted value of each part and its Laplace evidence (batched).
+
+        A grid over the log of the value outside the part's tolerance band,
+        then a parabola through five points around the grid's best, which
+        gives the minimum and the curvature (the drift's standard deviation).
 
         Returns
         -------
-        Hypothesis or None
-            None when the readings cannot see the part at all.
+        list of (Fault, prediction, sd or None, log Occam factor)
         """
-        lo, hi, band_lo, band_hi = self.drift_range(part)
-        grid = np.linspace(lo, hi, _GRID)
-        grid = grid[(grid < band_lo) | (grid > band_hi)]
-        grid = np.unique(np.concatenate([grid, [band_lo, band_hi]]))
-        grid = grid[(grid >= lo) & (grid <= hi)]
-        drop = [self.pindex.get(part.ref, -1)]
-        P = self.predict_fault(part, "drift", np.exp(grid))
-        c2 = self.ev.diag_chi2(P, drop)
-        if not np.isfinite(c2).any():
-            return None
-        b = int(np.nanargmin(np.where(np.isfinite(c2), c2, np.inf)))
-        step = (hi - lo) / (_GRID - 1)
-        rho = grid[b]
-        curv = None
-        for width in (step, step / 8):
-            pts = np.array([rho - width, rho, rho + width])
-            pts = np.clip(pts, lo, hi)
-            inside = (pts > band_lo) & (pts < band_hi)
-            pts = np.where(inside, np.where(rho >= band_hi, band_hi, band_lo), pts)
-            if np.ptp(pts) == 0:
+        if not parts:
+            return []
+        specs = [self.drift_range(p) for p in parts]
+        grids = []
+        for lo, hi, blo, bhi in specs:
+            g = np.linspace(lo, hi, _GRID)
+            g = np.where((g > blo) & (g < bhi), np.where(g >= (blo + bhi) / 2, bhi, blo), g)
+            grids.append(np.clip(g, lo, hi))
+        P = self.predict_many([(p, "drift", np.exp(g)) for p, g in zip(parts, grids)])
+        stage, flat = [], []
+        allc2 = self._chi2_blocks(parts, P)
+        for p, g, Pp, c2, (lo, hi, blo, bhi) in zip(parts, grids, P, allc2, specs):
+            if not np.isfinite(c2).any():
+                stage.append(None)
+                continue
+            fin = c2[np.isfinite(c2)]
+            if fin.max() - fin.min() < 0.05:
+                stage.append(None)  # the readings do not see this part's value
+                flat.append(p)
+                continue
+            b = int(np.argmin(np.where(np.isfinite(c2), c2, np.inf)))
+            stage.append(np.array([0, 0, g[b], 0, 0], dtype=float))
+        live = [i for i, pts in enumerate(stage) if pts is not None]
+        L = len(live)
+        lo_a, hi_a, blo_a, bhi_a = (np.array([specs[i][k] for i in live]) for k in range(4))
+        rho_a = np.array([stage[i][2] for i in live], dtype=float)
+        step_a = (hi_a - lo_a) / (_GRID - 1)
+        curv_a = np.full(L, np.nan)
+        offs = np.array([-1.0, -0.5, 0.0, 0.5, 1.0])
+        rows = np.arange(L)
+        for shrink in (1.0, 0.15, 0.02, 0.003):
+            if L == 0:
                 break
-            cc = self.ev.diag_chi2(self.predict_fault(part, "drift", np.exp(pts)), drop)
-            if not np.all(np.isfinite(cc)):
-                break
-            x0, x1, x2 = pts
-            if x0 == x1 or x1 == x2:
-                break
-            # parabola through the three points
-            d1 = (cc[1] - cc[0]) / (x1 - x0)
-            d2 = (cc[2] - cc[1]) / (x2 - x1)
-            a = (d2 - d1) / (x2 - x0)
-            if a > 0:
-                curv = 2 * a
-                vx = 0.5 * (x0 + x1) - d1 / (2 * a) + 0.0
-                vx = float(np.clip(vx, x0, x2))
-                if band_lo < vx < band_hi:
-                    vx = band_hi if rho >= band_hi else band_lo
-                rho = vx
+            pts = rho_a[:, None] + (step_a * shrink)[:, None] * offs
+            pts = np.clip(pts, lo_a[:, None], hi_a[:, None])
+            inband = (pts > blo_a[:, None]) & (pts < bhi_a[:, None])
+            edge = np.where(rho_a >= bhi_a, bhi_a, blo_a)[:, None]
+            pts = np.where(inband, edge, pts)
+            P2 = self.predict_many([(parts[i], "drift", np.exp(pts[k])) for k, i in enumerate(live)])
+            cc = np.vstack(self._chi2_blocks([parts[i] for i in live], P2))
+            cc = np.where(np.isfinite(cc), cc, np.inf)
+            best = np.argmin(cc, axis=1)
+            rho_a = pts[rows, best]
+            m = np.clip(best, 1, 3)
+            x0, x1, x2 = pts[rows, m - 1], pts[rows, m], pts[rows, m + 1]
+            y0, y1, y2 = cc[rows, m - 1], cc[rows, m], cc[rows, m + 1]
+            with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+                d1 = (y1 - y0) / (x1 - x0)
+                d2 = (y2 - y1) / (x2 - x1)
+                a = (d2 - d1) / (x2 - x0)
+                vx = 0.5 * (x0 + x1) - d1 / (2 * a)
+            ok = np.isfinite(a) & (a > 0) & np.isfinite(vx) & (x0 < x1) & (x1 < x2)
+            vx = np.clip(np.where(ok, vx, rho_a), np.minimum(x0, x2), np.maximum(x0, x2))
+            vx = np.where((vx > blo_a) & (vx < bhi_a), np.where(rho_a >= bhi_a, bhi_a, blo_a), vx)
+            rho_a = np.where(ok, vx, rho_a)
+            curv_a = np.where(ok, 2 * a, np.where(shrink == 1.0, np.nan, curv_a))
+        rho = {i: float(rho_a[k]) for k, i in enumerate(live)}
+        curv = {i: (float(curv_a[k]) if np.isfinite(curv_a[k]) else None) for k, i in enumerate(live)}
+        finals, info = [], []
+        for i in live:
+            p = parts[i]
+            lo, hi, blo, bhi = specs[i]
+            span = (hi - lo) - max(0.0, min(hi, bhi) - max(lo, blo))
+            if curv[i]:
+                sd = float(np.sqrt(2.0 / curv[i]))
+                occam = float(np.log(min(np.sqrt(2 * np.pi) * sd, span) / span))
             else:
-                rho = float(pts[np.argmin(cc)])
-        width_total = (hi - lo) - max(0.0, min(hi, band_hi) - max(lo, band_lo))
-        if curv and curv > 0:
-            sd = float(np.sqrt(2.0 / curv))
-            occam = float(np.log(min(np.sqrt(2 * np.pi) * sd, width_total) / width_total))
-        else:
-            sd = None
-            occam = 0.0  # flat: the readings do not constrain the value
-        pred = self.predict_fault(part, "drift", np.array([np.exp(rho)]))[0]
-        f = Fault(part.ref, "drift", float(part.value * np.exp(rho)))
+                sd, occam = None, 0.0
+            finals.append((p, "drift", np.array([np.exp(rho[i])])))
+            info.append((Fault(p.ref, "drift", float(p.value * np.exp(rho[i]))), sd, occam))
+        for p in flat:  # unseen: the value stays unknown over the whole range; no Occam factor
+            lo, hi, blo, bhi = self.drift_range(p)
+            rho0 = hi if hi > bhi else lo
+            finals.append((p, "drift", np.array([np.exp(rho0)])))
+            info.append((Fault(p.ref, "drift", float(p.value * np.exp(rho0))), None, 0.0))
+        P3 = self.predict_many(finals)
+        return [(f, Pp[0], sd, occam) for (f, sd, occam), Pp in zip(info, P3)]
+
+    def _chi2_blocks(self, parts, P):
+        """Diagonal chi-square of each part's block of predictions, in one call."""
+        if not P:
+            return []
+        sizes = [len(x) for x in P]
+        drops = [[self.pindex.get(p.ref, -1)] for p, k in zip(parts, sizes) for _ in range(k)]
+        c2 = self.ev.diag_chi2_rows(np.vstack(P), drops)
+        return np.split(c2, np.cumsum(sizes)[:-1])
+
+    def fit_drift(self, part):
+        """One part's drift hypothesis (see :meth:`fit_drifts`); None if unseen."""
+        res = self.fit_drifts([part])
+        if not res:
+            return None
+        f, pred, sd, occam = res[0]
         return self.make([f], pred, drift_sd=sd, occam=occam)
+
+    def prior(self, faults):
+        """Log prior of a list of faults."""
+        if not hasattr(self, "_wtotal"):
+            self._wtotal = sum(KIND_WEIGHTS.get(p.kind, 0.0) for p in self.circuit.parts if p.fault_modes)
+        return log_prior(self.circuit.parts, [(self.circuit.part(f.ref), f.mode) for f in faults],
+                         self._wtotal)
+
+    def approx(self, faults, pred, drift_sd=None, occam=0.0):
+        """A cheap score (diagonal covariance) for the first pass over all hypotheses."""
+        parts = [(self.circuit.part(f.ref), f.mode) for f in faults]
+        if not hasattr(self, "_wtotal"):
+            self._wtotal = sum(KIND_WEIGHTS.get(p.kind, 0.0) for p in self.circuit.parts if p.fault_modes)
+        lp = log_prior(self.circuit.parts, parts, self._wtotal)
+        c2, logdet = self.ev.diag_chi2(pred[None, :], self.drop_cols(faults), with_logdet=True)
+        c2 = float(c2[0])
+        ll = -0.5 * (c2 + float(logdet[0])) + occam
+        return Hypothesis(tuple(faults), pred, c2, ll, lp, lp + ll, drift_sd=drift_sd)
 
 
 def rank(circuit, readings, meters, *, doubles=True) -> Ranking:
@@ -392,19 +492,36 @@ def rank(circuit, readings, meters, *, doubles=True) -> Ranking:
 
 
 def rank_with(ev: Evaluator, *, doubles=True) -> Ranking:
+    """:func:`rank` on an existing :class:`Evaluator`."""
     healthy = ev.make([], ev.healthy_prediction())
-    hyps = [healthy]
+    items, drifting = [], []
     for part in ev.circuit.parts:
         for mode in part.fault_modes:
             if mode == "drift":
-                h = ev.fit_drift(part)
-                if h is not None:
-                    hyps.append(h)
-                continue
-            pred = ev.predict_fault(part, mode)[0]
-            if np.isnan(pred).any():
-                continue  # the ideal model has no answer (a short across a source)
-            hyps.append(ev.make([Fault(part.ref, mode)], pred))
+                drifting.append(part)
+            else:
+                items.append((part, mode, None))
+    cands = []  # (Fault, prediction, drift sd, Occam factor)
+    for (part, mode, _), P in zip(items, ev.predict_many(items)):
+        cands.append((Fault(part.ref, mode), P[0], None, 0.0))
+    cands += ev.fit_drifts(drifting)
+    cands = [c for c in cands if not np.isnan(c[1]).any()]  # no answer: a short across a source
+    first = []
+    if cands:
+        c2, logdet = ev.ev.diag_chi2_rows(np.vstack([c[1] for c in cands]),
+                                          [[ev.pindex.get(c[0].ref, -1)] for c in cands], True)
+        for (f, pred, sd, occam), x2, ld in zip(cands, c2, logdet):
+            lp = ev.prior([f])
+            ll = -0.5 * (float(x2) + float(ld)) + occam
+            first.append((Hypothesis((f,), pred, float(x2), ll, lp, lp + ll, drift_sd=sd), occam))
+    # second pass: the full covariance for the hypotheses that can matter
+    first.sort(key=lambda ho: -ho[0].log_post)
+    hyps = [healthy]
+    for rank_i, (h, occam) in enumerate(first):
+        if rank_i < FULL_TOP:
+            hyps.append(ev.make(list(h.faults), h.predicted, drift_sd=h.drift_sd, occam=occam))
+        else:
+            hyps.append(h)
     hyps = [h for h in hyps if np.isfinite(h.log_post)]
     hyps.sort(key=lambda h: -h.log_post)
     # exact re-scoring of the leaders

@@ -62,7 +62,7 @@ KIND_WEIGHTS = {
 P_HEALTHY = 0.2
 
 
-def log_prior(parts, faults) -> float:
+def log_prior(parts, faults, total=None) -> float:
     """Log prior of a hypothesis (unnormalized across hypotheses).
 
     Parameters
@@ -71,6 +71,8 @@ def log_prior(parts, faults) -> float:
         Every part of the circuit (for the normalization of the kind weights).
     faults : sequence of (Part, mode)
         The faulted parts; empty for the healthy circuit.
+    total : float, optional
+        ``sum`` of the kind weights over ``parts`` (computed when omitted).
 
     Returns
     -------
@@ -82,7 +84,8 @@ def log_prior(parts, faults) -> float:
     """
     if not faults:
         return math.log(P_HEALTHY)
-    total = sum(KIND_WEIGHTS.get(p.kind, 0.0) for p in parts if p.fault_modes)
+    if total is None:
+        total = sum(KIND_WEIGHTS.get(p.kind, 0.0) for p in parts if p.fault_modes)
     lp = 0.0
     for part, mode in faults:
         w = KIND_WEIGHTS.get(part.kind, 0.0)

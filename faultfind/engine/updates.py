@@ -233,8 +233,10 @@ class Group:
 
     # ------------------------------------------------------------ evaluation
     def nominal(self):
-        """The readings of the healthy circuit (complex; ``inf`` for OL)."""
-        return self.evaluate([], [])
+        """The readings of the healthy circuit (complex; ``inf`` for OL), computed once."""
+        if getattr(self, "_nominal", None) is None:
+            self._nominal = self.evaluate([], [])
+        return self._nominal
 
     def evaluate(self, terms, news):
         """Readings of this group under faults ``terms`` with new admittances / values ``news``.
@@ -372,7 +374,7 @@ def single(group: Group, t: Term, news) -> np.ndarray:
     g = group
     news = np.atleast_1d(np.asarray(news, dtype=complex))
     nk, r = news.size, len(g.readings)
-    base = g.evaluate([], [])
+    base = g.nominal()
     if t.kind == "none" or r == 0:
         return np.broadcast_to(base, (nk, r)).copy()
     rt = np.array(g.rtype)
@@ -394,77 +396,130 @@ def single(group: Group, t: Term, news) -> np.ndarray:
         out[:, rt == "ol"] = np.inf
         out[:, rt == "zero"] = 0.0
         return out
-    wt, mt = g.solve_term(t)
-    ktt = _at(wt, t.a, t.b)
-    kti = np.asarray(_at(g.W, t.a, t.b))        # (r,)
-    kit = np.asarray(_at(g.Mu, t.a, t.b))       # (r,)
-    kx0 = np.asarray(_at(g.x, t.a, t.b)) if live else kti
-    kx0 = np.broadcast_to(kx0, (r,))
-    d = news[:, None] - t.y0                    # (k, 1)
-    inf = np.isinf(news)[:, None]
+    return batch(g, [t], news[None, :])[0]
+
+
+def _rows(M, a):
+    """``M[a]`` for an index array with -1 meaning the reference (zero rows)."""
+    a = np.asarray(a)
+    out = M[np.maximum(a, 0)]
+    return np.where((a >= 0).reshape((-1,) + (1,) * (out.ndim - 1)), out, 0.0)
+
+
+def self_terms(g: Group, terms) -> np.ndarray:
+    """``u_t^T A^{-1} u_t`` of each admittance term (resistance distance), cached per ref."""
+    cache = g.__dict__.setdefault("_ktt", {})
+    todo = [t for t in terms if t.ref not in cache]
+    if todo:
+        N = g.net.size
+        U = np.zeros((N, len(todo)), dtype=g.net.A.dtype)
+        for j, t in enumerate(todo):
+            if t.a >= 0:
+                U[t.a, j] += 1
+            if t.b >= 0:
+                U[t.b, j] -= 1
+        W = g.lu.solve(U)
+        for j, t in enumerate(todo):
+            cache[t.ref] = (W[t.a, j] if t.a >= 0 else 0.0) - (W[t.b, j] if t.b >= 0 else 0.0)
+    return np.array([cache[t.ref] for t in terms], dtype=complex)
+
+
+def batch(g: Group, terms, news) -> np.ndarray:
+    """Readings under each of several single admittance faults, for several values each.
+
+    Parameters
+    ----------
+    g : Group
+    terms : list of Term
+        Kind "y" only, T of them.
+    news : array_like, shape (T, K)
+        New admittance of each term's part for each candidate (``inf`` short).
+
+    Returns
+    -------
+    ndarray of complex, shape (T, K, n_readings)
+    """
+    news = np.asarray(news, dtype=complex)
+    T, K = news.shape
+    r = len(g.readings)
+    rt = np.array(g.rtype)
+    live = g.analysis != "off"
+    a = np.array([t.a for t in terms], dtype=np.int64)
+    b = np.array([t.b for t in terms], dtype=np.int64)
+    y0 = np.array([t.y0 for t in terms], dtype=complex)[:, None, None]        # (T,1,1)
+    ktt = self_terms(g, terms)[:, None, None]                                 # (T,1,1)
+    kti = (_rows(g.W, a) - _rows(g.W, b))[:, None, :]                         # (T,1,r)
+    kit = (_rows(g.Mu, a) - _rows(g.Mu, b))[:, None, :]                       # (T,1,r)
+    if live:
+        kx0 = (_rows(g.x[:, None], a) - _rows(g.x[:, None], b))[:, :, None]  # (T,1,1)
+        kx0 = np.broadcast_to(kx0, (T, 1, r))
+    else:
+        kx0 = kti
+    nw = news[:, :, None]                                                      # (T,K,1)
+    d = nw - y0
+    inf = np.isinf(nw)
     with np.errstate(divide="ignore", invalid="ignore"):
         invd = np.where(inf, 0.0, 1.0 / np.where(d == 0, 1.0, d))
-    e00 = invd + ktt                            # (k, 1)
-    d_m = g.d_m[None, :]
+    e00 = invd + ktt                                                           # (T,K,1)
+    d_m = g.d_m[None, None, :]
     has = d_m != 0
     with np.errstate(divide="ignore", invalid="ignore"):
         invm = np.where(has, 1.0 / np.where(has, d_m, 1.0), 0.0)
-    e11 = invm + g.z[None, :]
-    p0 = g.px[None, :]
+    z = g.z[None, None, :]
+    e11 = invm + z
+    p0 = g.px[None, None, :]
     det = e00 * e11 - kti * kit
-    with np.errstate(divide="ignore", invalid="ignore"):
-        # two terms (fault + the reading's own)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         s0 = (e11 * kx0 - kti * p0) / det
         s1 = (-kit * kx0 + e00 * p0) / det
-        v2 = p0 - kit * s0 - g.z * s1
-        # fault term only
-        s0b = kx0 / e00
-        v1 = p0 - kit * s0b
-        # own term only (the fault term dropped)
+        v2 = p0 - kit * s0 - z * s1
+        v1 = p0 - kit * (kx0 / e00)
         s1c = p0 / e11
-        v0 = p0 - g.z * s1c
+        v0 = p0 - z * s1c
     v = np.where(has, v2, v1)
     q = np.where(has, s1, 0.0)
-    # degenerate pivots: a short across zero impedance, a bridge opened
     zero_short = inf & (np.abs(ktt) <= _SING * g.zscale)
-    bridge = (~inf) & (np.abs(e00) <= _SING * (np.abs(invd) + abs(ktt)))
-    drop = np.zeros((nk, r), dtype=bool)
-    nan = np.zeros((nk, r), dtype=bool)
-    olm = np.zeros((nk, r), dtype=bool)
+    bridge = (~inf) & (np.abs(e00) <= _SING * (np.abs(invd) + np.abs(ktt)))
+    shape = (T, K, r)
+    drop = np.zeros(shape, dtype=bool)
+    nan = np.zeros(shape, dtype=bool)
+    olm = np.zeros(shape, dtype=bool)
     if zero_short.any():
         bad = np.abs(kx0) > _SING * (1.0 + np.abs(p0))
         nan |= zero_short & bad
         drop |= zero_short & ~bad
     if bridge.any():
-        straddle = has & (np.abs(t.y0 * kti) > 0.5)
-        cut = (not live) & (np.abs(t.y0 * kit) > 0.5)
-        carries = live & (np.abs(t.y0 * kx0) > _SING * (1 + np.abs(t.y0 * kx0)))
-        b = bridge & ~straddle
-        olm |= b & cut
-        nan |= b & ~cut & carries
-        drop |= b & ~cut & ~carries
+        straddle = has & (np.abs(y0 * kti) > 0.5)
+        cut = (not live) & (np.abs(y0 * kit) > 0.5)
+        carries = live & (np.abs(y0 * kx0) > _SING * (1 + np.abs(y0 * kx0)))
+        bb = bridge & ~straddle
+        olm |= bb & cut
+        nan |= bb & ~cut & carries
+        drop |= bb & ~cut & ~carries
     v = np.where(drop, np.where(has, v0, p0), v)
     q = np.where(drop, np.where(has, s1c, 0.0), q)
-    out = np.where(rt == "ya", g.scale * v + q, g.scale * v)
-    # the measured part itself faulted: one merged term
-    own = (rt == "ya") & np.array([e == t.ref for e in g.elem])
+    ya = (rt == "ya")[None, None, :]
+    out = np.where(ya, g.scale * v + q, g.scale * v)
+    # the measured part itself faulted: one merged term with the shunt in series
+    own = np.array([[g.elem[i] == t.ref and rt[i] == "ya" for i in range(r)] for t in terms],
+                   dtype=bool)[:, None, :]
     if own.any():
-        rs = g.rs[own][None, :]
-        with np.errstate(divide="ignore", invalid="ignore"):
+        rs = g.rs[None, None, :]
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             y2 = np.where(inf, np.where(rs == 0, np.inf, 1.0 / np.where(rs == 0, 1.0, rs)),
-                          news[:, None] / (1.0 + news[:, None] * rs))
-            od = y2 - t.y0
+                          nw / (1.0 + nw * rs))
+            od = y2 - y0
             inv_od = np.where(np.isinf(od), 0.0, 1.0 / np.where(od == 0, 1.0, od))
-            sol = np.where(od == 0, 0.0, g.px[own] / (inv_od + g.z[own]))
-            vv = g.px[own] - g.z[own] * sol
-            val = t.y0 * vv + sol
-        out[:, own] = np.where(y2 == 0, 0.0, val)
-        nan[:, own] = False
-        olm[:, own] = False
+            sol = np.where(od == 0, 0.0, p0 / (inv_od + z))
+            val = y0 * (p0 - z * sol) + sol
+        val = np.where(y2 == 0, 0.0, val)
+        out = np.where(own, val, out)
+        nan &= ~own
+        olm &= ~own
     out = np.where(nan, np.nan, out)
     out = np.where(olm, np.inf, out)
     src = rt == "src"
-    out[:, src] = g.scale[src]
-    out[:, rt == "zero"] = 0.0
-    out[:, rt == "ol"] = np.inf
+    out[:, :, src] = g.scale[src]
+    out[:, :, rt == "zero"] = 0.0
+    out[:, :, rt == "ol"] = np.inf
     return out

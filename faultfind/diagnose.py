@@ -181,7 +181,8 @@ def _node_voltages(ev: Evaluator):
     return {(r.plus, r.mode): v for r, v in zip(rds, vals)}
 
 
-def diagnose(circuit: Circuit, readings, meters=None, *, top: int = 10, doubles: bool = True) -> Diagnosis:
+def diagnose(circuit: Circuit, readings, meters=None, *, top: int = 10, doubles: bool = True,
+             advise: bool = True, costs=None, power=None) -> Diagnosis:
     """Compare ``readings`` with ``circuit``; rank fault hypotheses.
 
     Parameters
@@ -196,6 +197,9 @@ def diagnose(circuit: Circuit, readings, meters=None, *, top: int = 10, doubles:
         How many hypotheses to list (at least 1).
     doubles : bool, optional
         Try pairs of faults when no single fault explains the readings.
+    advise : bool, optional
+        Fill ``suggestions`` with the next readings worth taking
+        (:func:`faultfind.advise.suggest`); ``costs`` and ``power`` go to it.
 
     Returns
     -------
@@ -212,9 +216,13 @@ def diagnose(circuit: Circuit, readings, meters=None, *, top: int = 10, doubles:
     if not readings:
         healthy = ev.make([], ev.healthy_prediction())
         healthy.probability = 1.0
+        suggestions = []
+        if advise:
+            from .advise import suggest, suggestion_json
+            suggestions = [suggestion_json(x) for x in suggest(circuit, [], meters, costs=costs, power=power)]
         return Diagnosis(circuit, readings, "no-fault", [healthy], 0.0, _estimates(ev, healthy), [],
                          list(ev.params), [["no readings yet: take the suggested readings"]], [],
-                         ["no readings: nothing can be told yet"], [], ev)
+                         ["no readings: nothing can be told yet"], suggestions, ev)
     ranking = rank_with(ev, doubles=doubles)
     listed = ranking.hypotheses[:top]
     total = sum(h.probability for h in listed)
@@ -243,8 +251,14 @@ def diagnose(circuit: Circuit, readings, meters=None, *, top: int = 10, doubles:
                          + (" and others" if len(unseen) > 12 else "") + ": a fault there would not show")
     if ranking.doubles_tried:
         notes.append("no single fault explained the readings, so pairs of faults were tried")
+    suggestions = []
+    if advise:
+        from .advise import suggest, suggestion_json
+        sug = suggest(circuit, readings, meters, costs=costs, power=power,
+                      hypotheses=[(h.faults, h.probability) for h in ranking.hypotheses])
+        suggestions = [suggestion_json(x) for x in sug]
     return Diagnosis(circuit, readings, ranking.verdict, shown, tail, _estimates(ev, best), all_groups,
-                     unseen, explanations, recheck, notes, [], ev)
+                     unseen, explanations, recheck, notes, suggestions, ev)
 
 
 def _estimates(ev: Evaluator, h: Hypothesis) -> dict:

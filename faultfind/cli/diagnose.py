@@ -112,7 +112,15 @@ def print_report(d) -> None:
         print()
         print("Next readings worth taking:")
         for s in d.suggestions[:3]:
-            print(f"  - {s.get('text', s)}")
+            state = "power ON" if s["power"] == "on" else "power OFF (isolated)"
+            where = s["part"] if s["quantity"] == "current" or (s["part"] and not s["plus"]) \
+                else f"{s['plus']}-{s['minus']}"
+            extra = " lifted" if s["setup"] == "lifted" else ""
+            freq = f" @ {format_value(s['frequency'], 'Hz')}" if s["frequency"] else ""
+            what = " ".join(x for x in (s["quantity"], s["mode"], where + extra + freq) if x)
+            print(f"  - {what} [{state}]: {s['why']}")
+            if s.get("caution"):
+                print(f"    caution: {s['caution']}")
     print()
     print("faultfind is a decision aid: confirm a finding with the circuit isolated, locked out and "
           "proven dead before replacing parts; follow local codes and licensed practice.")

@@ -16,10 +16,11 @@ from ..errors import FaultfindError, InputError, SolveError
 from . import check as check_cmd
 from . import diagnose as diagnose_cmd
 from . import expect as expect_cmd
+from . import suggest as suggest_cmd
 
 __all__ = ["main", "build_parser"]
 
-COMMANDS = (check_cmd, expect_cmd, diagnose_cmd)
+COMMANDS = (check_cmd, expect_cmd, diagnose_cmd, suggest_cmd)
 
 
 class _Parser(argparse.ArgumentParser):

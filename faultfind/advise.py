@@ -1,0 +1,367 @@
+"""Next-reading advice: which reading settles the diagnosis fastest.
+
+Every candidate reading a technician could take (a node voltage, a voltage
+across a part, a current through a part, an in-circuit resistance, a lifted
+part, an AC reading at another frequency) is scored by its expected
+information gain about the fault hypotheses (:mod:`faultfind.engine.advise`)
+divided by the effort it costs on site (:data:`DEFAULT_COSTS`, changeable with
+a costs file).  Predictions for every candidate under every hypothesis come
+from the rank-one engine with one factorization per analysis.
+"""
+
+from __future__ import annotations
+
+import math
+import tomllib
+from dataclasses import dataclass
+
+import numpy as np
+
+from .engine.advise import expected_information_gain
+from .engine.hypotheses import Board, Fault, rank
+from .engine.meter import standard_uncertainty
+from .engine.predict import predict
+from .engine.priors import KIND_WEIGHTS, MODE_SHARES, P_HEALTHY
+from .errors import InputError
+from .io.meters_file import meters_with_default
+from .model import Circuit, Reading
+from .units import format_value
+
+__all__ = ["Suggestion", "DEFAULT_COSTS", "suggest", "candidate_readings", "load_costs",
+           "ELV_AC", "ELV_DC", "suggestion_json"]
+
+#: Effort of each kind of reading, in "probe placements" (docs/advice.md).
+#: Common practice (no source): a voltage probe is cheap; a current reading
+#: means breaking the circuit (or a clamp); isolating means lock-out, verify
+#: dead and discharge before any resistance reading; lifting a leg means
+#: unsoldering or unplugging.
+DEFAULT_COSTS = {
+    "voltage": 1.0,          # probe a node or across a part, circuit live
+    "current": 4.0,          # break the circuit (power off to do it), meter in series
+    "resistance": 1.0,       # ohmmeter across a part or nodes, circuit already isolated
+    "lifted": 4.0,           # lift one leg of a part (isolated), read it alone
+    "frequency": 1.0,        # extra for re-setting the signal generator to another frequency
+    "isolate": 3.0,          # lock out, tag out, verify dead, discharge stored energy
+    "energize": 2.0,         # remove locks, restore power, stand clear
+}
+
+#: Extra-low-voltage limits: 50 V AC RMS and 120 V ripple-free DC
+#: (IEC 61140 / IEC 60364-4-41 band I; from memory).
+ELV_AC = 50.0
+ELV_DC = 120.0
+
+_MAX_HYP = 40
+_CHUNK = 150
+
+
+@dataclass(frozen=True)
+class Suggestion:
+    """A reading worth taking next.
+
+    Attributes
+    ----------
+    reading : Reading
+        In the readings file's terms (append it as a row).
+    power : str
+        "on" (circuit energized) or "off" (isolated).
+    score : float
+        Expected information gain per unit of effort (bits per effort unit).
+    gain : float
+        Expected information gain in bits.
+    cost : float
+        Effort, from the cost model.
+    why : str
+        Which hypotheses it separates and what each would read.
+    caution : str or None
+        Safety caution for this reading.
+    """
+
+    reading: Reading
+    power: str
+    score: float
+    gain: float
+    cost: float
+    why: str
+    caution: str | None = None
+
+
+def load_costs(path) -> dict:
+    """Read a costs file (TOML, keys of :data:`DEFAULT_COSTS`, positive numbers)."""
+    try:
+        with open(path, "rb") as fh:
+            doc = tomllib.load(fh)
+    except OSError as exc:
+        raise InputError(f"cannot read the costs file: {exc.strerror}", file=path) from None
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(f"not valid TOML: {exc}", file=path) from None
+    costs = dict(DEFAULT_COSTS)
+    for k, v in doc.items():
+        if k not in DEFAULT_COSTS:
+            raise InputError(f"unknown cost; expected one of {', '.join(DEFAULT_COSTS)}", file=path, key=k)
+        if isinstance(v, bool) or not isinstance(v, (int, float)) or not v > 0:
+            raise InputError(f"must be a positive number, got {v!r}", file=path, key=k)
+        costs[k] = float(v)
+    return costs
+
+
+def _power(rd: Reading) -> str:
+    return "off" if rd.quantity == "resistance" else "on"
+
+
+def _key(rd: Reading):
+    return (rd.quantity, rd.mode, rd.plus, rd.minus, rd.part, rd.setup, rd.frequency)
+
+
+def candidate_readings(circuit: Circuit, suspects=(), frequencies=None) -> list[Reading]:
+    """Every reading worth considering on ``circuit``.
+
+    Node voltages to ground and voltages across two-terminal parts (DC; AC at
+    the circuit frequency and at ``frequencies`` when AC sources exist),
+    currents through parts, in-circuit resistances across passive parts, and
+    lifted-part resistances of the ``suspects``.
+    """
+    g = circuit.ground
+    out = []
+    modes = [("dc", None)]
+    if circuit.has_ac:
+        fs = frequencies if frequencies is not None else [circuit.frequency / 10, circuit.frequency * 10]
+        modes += [("ac", None)] + [("ac", float(f)) for f in fs]
+    two = [p for p in circuit.parts if p.kind != "opamp"]
+    for mode, f in modes:
+        for n in circuit.nodes:
+            if n != g:
+                out.append(Reading("voltage", mode, n, g, frequency=f, label=f"node {n}"))
+        if f is None:
+            for p in two:
+                if g not in p.nodes[:2] and p.nodes[0] != p.nodes[1]:
+                    out.append(Reading("voltage", mode, p.nodes[0], p.nodes[1], label=f"across {p.ref}"))
+            for p in two:
+                out.append(Reading("current", mode, part=p.ref, label=f"through {p.ref}"))
+    for p in two:
+        if not p.is_source:
+            out.append(Reading("resistance", None, part=p.ref, setup="in-circuit", label=f"across {p.ref}"))
+    for ref in suspects:
+        p = circuit.part(ref)
+        if p.kind in ("resistor", "fuse", "switch", "inductor", "capacitor"):
+            out.append(Reading("resistance", None, part=ref, setup="lifted", label=f"{ref} alone"))
+    return out
+
+
+def _prior_hypotheses(circuit):
+    """Hypotheses before any reading: healthy and every single fault, with their priors."""
+    total = sum(KIND_WEIGHTS.get(p.kind, 0.0) for p in circuit.parts if p.fault_modes)
+    hyps = [((), P_HEALTHY)]
+    for p in circuit.parts:
+        w = KIND_WEIGHTS.get(p.kind, 0.0)
+        for mode in p.fault_modes:
+            share = MODE_SHARES.get(p.kind, {}).get(mode, 0.0)
+            pr = (1 - P_HEALTHY) * w / total * share if total else 0.0
+            if pr <= 0:
+                continue
+            if mode == "drift":
+                factors = (0.8,) if p.is_source else ((3.0,) if p.kind in ("fuse", "switch") else (0.5, 2.0))
+                for fct in factors:
+                    hyps.append(((Fault(p.ref, "drift", p.value * fct),), pr / len(factors)))
+            else:
+                hyps.append(((Fault(p.ref, mode),), pr))
+    s = sum(pr for _, pr in hyps)
+    return [(f, pr / s) for f, pr in hyps]
+
+
+def _scale(rd, meter, values):
+    """Map displays to the scale the reading's noise is Gaussian on (log for ohms)."""
+    v = np.asarray(values, dtype=float)
+    if rd.quantity == "resistance":
+        top = meter.max_resistance * 2.0
+        r = np.where(np.isfinite(v), np.clip(np.abs(v), 1e-3, top), top)
+        return np.log10(r)
+    return np.where(np.isfinite(v), v, 0.0)
+
+
+def suggest(circuit: Circuit, readings=(), meters=None, *, hypotheses=None, costs=None,
+            power=None, top=5) -> list[Suggestion]:
+    """The next readings worth taking, best first.
+
+    Parameters
+    ----------
+    circuit : Circuit
+    readings : sequence of Reading, optional
+        Readings taken so far (with values).  Without them the advice is for a
+        circuit that has just failed (prior probabilities only).
+    meters : dict, optional
+        Meter profiles; the default is added.
+    hypotheses : list of (tuple of Fault, probability), optional
+        The current posterior; computed from ``readings`` when omitted.
+    costs : dict, optional
+        Effort model, keys of :data:`DEFAULT_COSTS`.
+    power : {"on", "off"}, optional
+        Whether the circuit is energized now; default: the state the last
+        reading needed (energized when there is none).
+    top : int
+        How many suggestions.
+
+    Returns
+    -------
+    list of Suggestion
+    """
+    if power not in (None, "on", "off"):
+        raise ValueError(f"power: expected 'on' or 'off', got {power!r}")
+    meters = meters_with_default(meters)
+    costs = dict(DEFAULT_COSTS, **(costs or {}))
+    readings = list(readings)
+    if power is None:
+        power = _power(readings[-1]) if readings else "on"
+    if hypotheses is None:
+        if readings:
+            rk = rank(circuit, readings, meters)
+            hypotheses = [(h.faults, h.probability) for h in rk.hypotheses]
+        else:
+            hypotheses = _prior_hypotheses(circuit)
+    hypotheses = sorted(hypotheses, key=lambda fp: -fp[1])
+    kept, acc = [], 0.0
+    for f, pr in hypotheses:
+        kept.append((f, pr))
+        acc += pr
+        if acc >= 0.995 or len(kept) >= _MAX_HYP:
+            break
+    probs = np.array([pr for _, pr in kept])
+    probs = probs / probs.sum()
+    suspects = []
+    for f, _ in kept[:6]:
+        for x in f:
+            if x.ref not in suspects:
+                suspects.append(x.ref)
+    taken = {_key(r) for r in readings}
+    cands = [c for c in candidate_readings(circuit, suspects) if _key(c) not in taken]
+    if not cands or len(kept) < 2:
+        return []
+    nominal = predict(circuit, cands, meters)
+    board = Board(circuit, cands, meters)
+    singles = [(i, f[0]) for i, (f, _) in enumerate(kept) if len(f) == 1]
+    items = [(circuit.part(x.ref), x.mode,
+              None if x.mode != "drift" else np.array([x.value / circuit.part(x.ref).value]))
+             for _, x in singles]
+    mu = np.zeros((len(cands), len(kept)))
+    for (i, _), P in zip(singles, board.predict_many(items)):
+        mu[:, i] = P[0]
+    for i, (f, _) in enumerate(kept):
+        if len(f) == 0:
+            mu[:, i] = nominal.value
+        elif len(f) > 1:
+            mu[:, i] = board.predict_faults(list(f))
+    bad = np.isnan(mu).any(axis=0)
+    # tolerance spread of each candidate on the healthy circuit (linear), rescaled per hypothesis
+    tl = np.array([circuit.part(r).tol_low for r in nominal.params])
+    th = np.array([circuit.part(r).tol_high for r in nominal.params])
+    half = (np.log1p(th) - np.log1p(-tl)) / 2
+    sig0 = np.sqrt((np.nan_to_num(nominal.sensitivity) ** 2) @ (half ** 2 / 3))
+    p0 = np.abs(np.where(np.isfinite(nominal.value), nominal.value, 0.0))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        sc = np.where(p0[:, None] > 0, np.clip(np.abs(np.nan_to_num(mu, posinf=0)) / p0[:, None], 0, 10), 0.0)
+    mu_s = np.zeros_like(mu)
+    sd_s = np.zeros_like(mu)
+    for c, rd in enumerate(cands):
+        meter = meters[rd.meter or "default"]
+        col = np.where(np.isfinite(mu[c]), np.abs(mu[c]), 0.0)
+        um = np.asarray(standard_uncertainty(meter, rd.quantity, rd.mode, col), dtype=float)
+        sd = np.sqrt(um ** 2 + (sc[c] * sig0[c]) ** 2 + (0.01 * col * (p0[c] == 0)) ** 2)
+        mu_s[c] = _scale(rd, meter, mu[c])
+        if rd.quantity == "resistance":
+            r = np.where(np.isfinite(mu[c]), np.maximum(np.abs(mu[c]), 1e-3), np.inf)
+            sd_s[c] = np.where(np.isfinite(r), sd / (r * math.log(10)), 0.02)
+            sd_s[c] = np.maximum(sd_s[c], 0.002)
+        else:
+            sd_s[c] = np.maximum(sd, 1e-12)
+    probs_eff = np.where(bad, 0.0, probs)
+    probs_eff = probs_eff / probs_eff.sum()
+    gain = np.concatenate([expected_information_gain(probs_eff, mu_s[a:a + _CHUNK], sd_s[a:a + _CHUNK])
+                           for a in range(0, len(cands), _CHUNK)])
+    cost = np.array([_cost(rd, power, costs, circuit) for rd in cands])
+    score = gain / cost
+    order = np.argsort(-score)
+    caution_on = _live_caution(circuit)
+    out = []
+    for c in order[: max(top, 0)]:
+        if gain[c] <= 1e-6:
+            break
+        rd = cands[c]
+        pw = _power(rd)
+        out.append(Suggestion(rd, pw, float(score[c]), float(gain[c]), float(cost[c]),
+                              _why(circuit, rd, kept, probs_eff, mu[c], mu_s[c], sd_s[c], power),
+                              caution_on if pw == "on" else _off_caution(rd)))
+    return out
+
+
+def _cost(rd, power, costs, circuit):
+    q = rd.quantity
+    if q == "resistance":
+        base = costs["lifted"] if rd.setup == "lifted" else costs["resistance"]
+        return base + (costs["isolate"] if power == "on" else 0.0)
+    base = costs["current"] if q == "current" else costs["voltage"]
+    if rd.mode == "ac" and rd.frequency is not None and rd.frequency != circuit.frequency:
+        base += costs["frequency"]
+    return base + (costs["energize"] if power == "off" else 0.0)
+
+
+def _live_caution(circuit):
+    vac = max([abs(p.value) for p in circuit.parts if p.kind == "voltage-source" and p.waveform == "ac"],
+              default=0.0)
+    vdc = max([abs(p.value) for p in circuit.parts if p.kind == "voltage-source" and p.waveform == "dc"],
+              default=0.0)
+    if vac > ELV_AC or vdc > ELV_DC:
+        return ("live work above extra-low voltage (50 V AC / 120 V DC, IEC 61140): qualified persons "
+                "only, meter and leads rated for the measurement category (IEC 61010-1), PPE, one hand "
+                "away; follow local codes and licensed practice")
+    return "live circuit: meter and leads rated for the measurement category (IEC 61010-1)"
+
+
+def _off_caution(rd):
+    return ("isolate, lock out and tag out, verify dead with a proven tester and discharge "
+            "capacitors before connecting the ohmmeter")
+
+
+def _label(circuit, faults):
+    if not faults:
+        return "healthy"
+    parts = []
+    for f in faults:
+        p = circuit.part(f.ref)
+        if f.mode == "drift":
+            parts.append(f"{f.ref} drifted (about {format_value(f.value, p.info.unit)})")
+        else:
+            parts.append(f"{f.ref} {f.mode}")
+    return " + ".join(parts)
+
+
+def _why(circuit, rd, kept, probs, mu, mu_s, sd_s, power):
+    unit = {"voltage": "V", "current": "A", "resistance": "Ω"}[rd.quantity]
+    idx = [i for i in np.argsort(-probs)[:6] if probs[i] > 0]
+    best, bd = None, 0.0
+    for a in idx:
+        for b in idx:
+            if a < b:
+                d = abs(mu_s[a] - mu_s[b]) / max(sd_s[a], sd_s[b])
+                w = d * math.sqrt(probs[a] * probs[b])
+                if w > bd:
+                    best, bd = (a, b), w
+    if best is None:
+        return "separates the remaining hypotheses"
+
+    def val(i):
+        v = mu[i]
+        return "OL" if not np.isfinite(v) else format_value(0.0 if abs(v) < 1e-10 and unit != "Ω" else v, unit)
+
+    a, b = best
+    text = f"if {_label(circuit, kept[a][0])}, it reads {val(a)}; if {_label(circuit, kept[b][0])}, {val(b)}"
+    if rd.quantity == "resistance" and power == "off":
+        text += " (the circuit is already isolated: take the power-off readings together now)"
+    return text
+
+
+def suggestion_json(s: Suggestion) -> dict:
+    """A suggestion in the readings file's terms, with the keys cli.md fixes plus documented extras."""
+    rd = s.reading
+    return {"quantity": rd.quantity, "mode": rd.mode, "plus": rd.plus, "minus": rd.minus,
+            "part": rd.part, "setup": rd.setup, "frequency": rd.frequency, "power": s.power,
+            "score": round(s.score, 6), "gain_bits": round(s.gain, 6), "cost": s.cost,
+            "label": rd.label, "why": s.why, "caution": s.caution}

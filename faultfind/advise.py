@@ -51,7 +51,7 @@ ELV_AC = 50.0
 ELV_DC = 120.0
 
 _MAX_HYP = 40
-_CHUNK = 150
+_CHUNK = 60
 
 
 @dataclass(frozen=True)

@@ -25,7 +25,7 @@ from scipy.special import logsumexp
 
 __all__ = ["expected_information_gain", "entropy_bits"]
 
-_GH_X, _GH_W = np.polynomial.hermite_e.hermegauss(7)   # probabilists' Hermite
+_GH_X, _GH_W = np.polynomial.hermite_e.hermegauss(15)   # probabilists' Hermite
 _GH_W = _GH_W / _GH_W.sum()
 
 

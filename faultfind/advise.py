@@ -286,9 +286,13 @@ def suggest(circuit: Circuit, readings=(), meters=None, *, hypotheses=None, cost
             break
         rd = cands[c]
         pw = _power(rd)
+        caution = caution_on if pw == "on" else _off_caution(rd)
+        if rd.quantity == "current":
+            caution += ("; the meter goes in series: break the circuit with power off first "
+                        "(or use a clamp meter), then restore power")
         out.append(Suggestion(rd, pw, float(score[c]), float(gain[c]), float(cost[c]),
                               _why(circuit, rd, kept, probs_eff, mu[c], mu_s[c], sd_s[c], power),
-                              caution_on if pw == "on" else _off_caution(rd)))
+                              caution))
     return out
 
 
@@ -326,7 +330,9 @@ def _label(circuit, faults):
     parts = []
     for f in faults:
         p = circuit.part(f.ref)
-        if f.mode == "drift":
+        if f.mode == "drift" and not f.seen:
+            parts.append(f"{f.ref} off its value")
+        elif f.mode == "drift":
             parts.append(f"{f.ref} drifted (about {format_value(f.value, p.info.unit)})")
         else:
             parts.append(f"{f.ref} {f.mode}")

@@ -84,6 +84,8 @@ def _fmt(v, unit):
 def describe_fault(circuit, f) -> str:
     """``R7 open``, ``R9 drifted to 6.1 kΩ (+30 %)``, ``PS1 dead``."""
     p = circuit.part(f.ref)
+    if f.mode == "drift" and not getattr(f, "seen", True):
+        return f"{f.ref} off its value (no reading sees it)"
     if f.mode == "drift" and p.kind in ("fuse", "switch"):
         return f"{f.ref} high resistance" + (f" ({format_value(f.value, 'Ω')})" if f.value else "")
     if f.mode == "drift" and f.value is not None:
@@ -120,7 +122,7 @@ def _explain(ev: Evaluator, h: Hypothesis, healthy: Hypothesis, limit=4):
                        f"{_fmt(h.predicted[i], unit)}")
     for f in h.faults:
         p = ev.circuit.part(f.ref)
-        if f.mode == "drift" and f.value:
+        if f.mode == "drift" and f.value and getattr(f, "seen", True):
             series = series_for_tolerance(max(p.tol_low, p.tol_high, 0.001))
             if p.kind in ("resistor", "capacitor", "inductor"):
                 out.append(f"value: {f.ref} estimated {format_value(f.value, p.info.unit)} against "
@@ -268,6 +270,9 @@ def _estimates(ev: Evaluator, h: Hypothesis) -> dict:
         p = circuit.part(f.ref)
         if f.mode == "drift":
             sd = h.drift_sd
+            if not f.seen:
+                fixed[f.ref] = (p.value, p.value * DRIFT_RANGE[0], p.value * DRIFT_RANGE[1], "drift")
+                continue
             if sd is None:
                 lo, hi = p.value * DRIFT_RANGE[0], p.value * DRIFT_RANGE[1]
             else:
@@ -300,7 +305,7 @@ def diagnosis_json(d: Diagnosis) -> dict:
     return {
         "verdict": d.verdict,
         "hypotheses": [
-            {"faults": [{"ref": f.ref, "mode": f.mode, "value": _num(f.value) if f.mode == "drift" else None}
+            {"faults": [{"ref": f.ref, "mode": f.mode, "value": _num(f.value) if f.mode == "drift" and f.seen else None}
                         for f in h.faults],
              "probability": float(h.probability), "chi2": _num(h.chi2), "readings": len(d.readings)}
             for h in d.hypotheses],

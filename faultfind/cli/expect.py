@@ -30,7 +30,11 @@ def add_parser(sub):
 
 
 def _value(x, unit, digits=4):
-    return "—" if x is None else format_value(x, unit, digits=digits)
+    if x is None:
+        return "—"
+    if unit != "Ω" and abs(x) < 1e-12:
+        x = 0.0  # numerical zero, far below any meter's resolution
+    return format_value(x, unit, digits=digits)
 
 
 def run(args) -> int:

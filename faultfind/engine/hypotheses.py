@@ -66,6 +66,7 @@ class Fault:
     ref: str
     mode: str
     value: float | None = None
+    seen: bool = True  # False: a drift the readings do not see (its value is unknown)
 
 
 @dataclass
@@ -430,7 +431,7 @@ class Evaluator(Board):
             lo, hi, blo, bhi = self.drift_range(p)
             rho0 = hi if hi > bhi else lo
             finals.append((p, "drift", np.array([np.exp(rho0)])))
-            info.append((Fault(p.ref, "drift", float(p.value * np.exp(rho0))), None, 0.0))
+            info.append((Fault(p.ref, "drift", float(p.value * np.exp(rho0)), seen=False), None, 0.0))
         P3 = self.predict_many(finals)
         return [(f, Pp[0], sd, occam) for (f, sd, occam), Pp in zip(info, P3)]
 

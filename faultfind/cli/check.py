@@ -9,6 +9,9 @@ from ..model import KINDS
 from ..units import format_tolerance, format_value
 from .output import emit_json, table
 
+#: Above this many parts the table of parts is left out unless --all is given.
+MAX_LISTED = 200
+
 
 def add_parser(sub):
     p = sub.add_parser("check", help="validate a circuit file and print a summary",
@@ -16,6 +19,8 @@ def add_parser(sub):
                                    "(nodes, parts, sources, warnings).")
     p.add_argument("circuit", metavar="CIRCUIT", help="circuit file (TOML)")
     p.add_argument("--json", action="store_true", help="print one JSON document")
+    p.add_argument("--all", action="store_true",
+                   help=f"list every part even when there are more than {MAX_LISTED}")
     p.set_defaults(run=run)
 
 
@@ -45,18 +50,24 @@ def run(args) -> int:
     print(f"{circuit.title or '(untitled)'}  [{args.circuit}]")
     print(f"ground: {circuit.ground}" + (f"   AC frequency: {format_value(circuit.frequency, 'Hz')}"
                                          if circuit.frequency else ""))
-    print(f"nodes ({len(doc['nodes'])}): {', '.join(doc['nodes'])}")
+    nodes = doc["nodes"]
+    shown = nodes if len(nodes) <= MAX_LISTED or args.all else nodes[:20] + ["..."]
+    print(f"nodes ({len(nodes)}): {', '.join(shown)}")
     print(f"parts ({doc['parts']}): " + ", ".join(f"{n} {k}" for k, n in doc["kinds"].items()))
     print()
     rows = []
-    for p in circuit.parts:
+    listed = circuit.parts if len(circuit.parts) <= MAX_LISTED or args.all else ()
+    if not listed:
+        print(f"({len(circuit.parts)} parts: the table is left out; --all lists them)")
+    for p in listed:
         unit = KINDS[p.kind].unit or ""
         val = format_value(p.value, unit) if p.value is not None else "—"
         if p.is_source and p.waveform == "ac":
             val += " rms"
         tol = format_tolerance(p.tol_low, p.tol_high) if p.value is not None else ""
         rows.append([p.ref, p.kind, "-".join(p.nodes), val, tol, p.label])
-    table(["ref", "kind", "nodes", "value", "tolerance", "label"], rows)
+    if rows:
+        table(["ref", "kind", "nodes", "value", "tolerance", "label"], rows)
     print()
     if doc["warnings"]:
         print(f"{len(doc['warnings'])} warning(s):")

@@ -149,9 +149,10 @@ def _recheck(ev: Evaluator, best: Hypothesis):
         unit = UNITS[rd.quantity]
         sd = np.sqrt(e.u[i] ** 2 + max(e.T0[i, i], 0))
         y, p = rd.value, best.predicted[i]
+        p_ok = ev.pred0[i] if i < len(ev.pred0) else np.nan
         hints = []
         if y is not None and np.isfinite(p):
-            if abs(y + p) <= 3 * sd and abs(p) > 3 * sd:
+            if any(np.isfinite(q) and abs(y + q) <= 3 * sd and abs(q) > 3 * sd for q in (p, p_ok)):
                 hints.append("the probes reversed")
             for k in (1e3, 1e-3):
                 if abs(y * k - p) <= 3 * sd * max(1, k):
@@ -166,6 +167,8 @@ def _recheck(ev: Evaluator, best: Hypothesis):
                         break
                 if rd.mode == "dc" and abs(y) < 3 * sd and ev.circuit.has_ac:
                     hints.append("the meter on DC where the signal is AC")
+        if rd.overrange:
+            hints.append("the meter's function or range (it shows OL)")
         hint = ("; possible causes: " + ", ".join(hints)) if hints else \
             "; re-take it, check the probe points and the meter's mode and range"
         out.append(f"re-check {_name(rd)}: reads {'OL' if rd.overrange else _fmt(y, unit)} where the best "

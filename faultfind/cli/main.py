@@ -16,11 +16,13 @@ from ..errors import FaultfindError, InputError, SolveError
 from . import check as check_cmd
 from . import diagnose as diagnose_cmd
 from . import expect as expect_cmd
+from . import log as log_cmd
 from . import suggest as suggest_cmd
+from . import ui as ui_cmd
 
 __all__ = ["main", "build_parser"]
 
-COMMANDS = (check_cmd, expect_cmd, diagnose_cmd, suggest_cmd)
+COMMANDS = (check_cmd, expect_cmd, diagnose_cmd, suggest_cmd, log_cmd, ui_cmd)
 
 
 class _Parser(argparse.ArgumentParser):
@@ -45,8 +47,10 @@ def main(argv=None) -> int:
     parser = build_parser()
     args = parser.parse_args(argv)
     if args.command is None:
-        parser.print_help()
-        return 0
+        if ui_cmd.needs_terminal():  # not at a terminal: the UI cannot open (cli.md: `faultfind`)
+            parser.print_help()
+            return 0
+        args = parser.parse_args(["ui"])
     try:
         return args.run(args) or 0
     except InputError as exc:

@@ -39,6 +39,11 @@ GROSS = 2500.0
 
 _LOG2PI = np.log(2 * np.pi)
 
+#: Top range assumed for an OL display of a voltage or a current, which a meter
+#: profile does not state: 1000 V and 10 A, the usual top ranges of a handheld
+#: meter (from memory).  An OL on a low-voltage board then says "re-check".
+TOP_RANGE = {"voltage": 1000.0, "current": 10.0}
+
 
 class Evidence:
     """Observed readings with their uncertainties.
@@ -68,10 +73,10 @@ class Evidence:
             meter = meters[rd.meter or "default"]
             if rd.overrange:
                 self.ol[i] = True
-                self.top[i] = meter.max_resistance if rd.quantity == "resistance" else np.inf
+                top = meter.max_resistance if rd.quantity == "resistance" else TOP_RANGE[rd.quantity]
+                self.top[i] = top
                 self.y[i] = np.nan
-                self.u[i] = float(standard_uncertainty(meter, rd.quantity, rd.mode, meter.max_resistance)) \
-                    if rd.quantity == "resistance" else np.inf
+                self.u[i] = float(standard_uncertainty(meter, rd.quantity, rd.mode, top))
             else:
                 self.y[i] = rd.value
                 self.u[i] = float(standard_uncertainty(meter, rd.quantity, rd.mode, abs(rd.value)))

@@ -55,7 +55,7 @@ class Factorization:
         except RuntimeError as exc:  # "Factor is exactly singular"
             raise SolveError(f"the network equations are singular ({exc})") from None
         d = np.abs(self._lu.U.diagonal())
-        if d.size and (not np.all(np.isfinite(d)) or d.min() <= 1e-13 * d.max()):
+        if d.size and (not np.all(np.isfinite(d)) or d.min() <= 1e-15 * d.max()):
             raise SolveError("the network equations are singular or nearly so "
                              "(check for floating parts of the circuit or a resonance)")
 

@@ -524,6 +524,9 @@ def rank_with(ev: Evaluator, *, doubles=True) -> Ranking:
         else:
             hyps.append(h)
     hyps = [h for h in hyps if np.isfinite(h.log_post)]
+    if not hyps:  # nothing can be scored (readings no model can produce)
+        healthy.probability = 1.0
+        return Ranking([healthy], healthy, "inconsistent", ev.n, {id(healthy): 0.0}, False)
     hyps.sort(key=lambda h: -h.log_post)
     # exact re-scoring of the leaders
     for i in range(min(EXACT_TOP, len(hyps))):

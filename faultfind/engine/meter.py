@@ -308,7 +308,7 @@ def standard_uncertainty(profile, quantity, mode, value):
     a = _spec_limit_array(profile, quantity, mode, arr)
     r = _resolution_array(profile, quantity, np.abs(arr))
     with np.errstate(invalid="ignore"):
-        u = np.sqrt(a * a / 3.0 + r * r / 12.0)
+        u = np.hypot(a / np.sqrt(3.0), r / np.sqrt(12.0))  # hypot: no overflow on huge displays
     return _out(u, arr)
 
 

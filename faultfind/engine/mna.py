@@ -86,6 +86,9 @@ class Network:
     element : dict
         Part ref to ``(stamp kind, element number)``; absent parts (open in
         this analysis) are missing.
+    indeterminate : set
+        Parts in a loop of zero-volt branches whose current the equations do
+        not determine (only with ``floating=True`` or ``"off"``).
     """
 
     analysis: str
@@ -226,6 +229,40 @@ def assemble(circuit: Circuit, analysis: str, frequency: float | None = None,
         else:  # pragma: no cover - the loader rejects unknown kinds
             raise ValueError(f"part {p.ref}: unknown kind {kind!r}")
 
+    indeterminate = set()
+    if (analysis == "off" or floating) and br_rows:
+        # zero-volt branches (wires, 0 V sources) that close a loop of such
+        # branches carry an undetermined current and change no node voltage:
+        # keep a spanning forest of them, and remember which parts' currents
+        # are undetermined.  Parts named "__..." (a meter) are kept first.
+        parent = {}
+
+        def find(v):
+            while parent.get(v, v) != v:
+                parent[v] = parent.get(parent[v], parent[v])
+                v = parent[v]
+            return v
+
+        order = sorted(range(len(br_rows)),
+                       key=lambda i: not circuit.parts[br_rows[i][0]].ref.startswith("__"))
+        kept, dropped, wires = [], [], []
+        for i in order:
+            row = br_rows[i]
+            if row[3] != 0:
+                kept.append(row)
+                continue
+            wires.append(row)
+            ra, rb = find(row[1]), find(row[2])
+            if ra != rb:
+                parent[ra] = rb
+                kept.append(row)
+            else:
+                dropped.append(row)
+        if dropped:
+            bad_roots = {find(r[1]) for r in dropped}
+            indeterminate = {circuit.parts[r[0]].ref for r in wires if find(r[1]) in bad_roots}
+        br_rows = sorted(kept, key=lambda r: r[0])
+
     # node numbering: reference(s) get -1
     pos = {name: i for i, name in enumerate(names)}
     n_all = len(names)
@@ -314,6 +351,8 @@ def assemble(circuit: Circuit, analysis: str, frequency: float | None = None,
     for j, pi in enumerate(inj_ref):
         element[parts[pi].ref] = (INJECTION, j)
 
-    return Network(analysis, frequency if analysis == "ac" else None, A, rhs, n, node_index,
-                   comp, names, y_ref, y_a, y_b, y_val, br_ref, br_a, br_b, br_e,
-                   inj_ref, inj_a, inj_b, inj_i, element)
+    net = Network(analysis, frequency if analysis == "ac" else None, A, rhs, n, node_index,
+                  comp, names, y_ref, y_a, y_b, y_val, br_ref, br_a, br_b, br_e,
+                  inj_ref, inj_a, inj_b, inj_i, element)
+    net.indeterminate = indeterminate
+    return net

@@ -51,6 +51,10 @@ def apply_faults(circuit: Circuit, overrides: dict) -> tuple[Circuit, dict]:
 def _solve_live(circuit, key, overrides):
     """Assemble and solve; a section the faults left floating gets its own reference.
 
+    Convention: a floating section sits at the reference potential (0 V), as
+    input leakage would pull a high-impedance node; an op-amp input left
+    floating therefore reads 0 V and its stage responds to that.
+
     A floating section into which a current source drives a net current has
     no steady state (its voltage runs away): the result is ``nan``.
     """
@@ -102,6 +106,8 @@ def _one(circuit, rd, meters, overrides):
         parts.append(Part(_METER, "voltage-source", (_NODE, p.nodes[1]), 0.0))
     c = replace(circuit, parts=tuple(parts))
     net, x = _solve_live(c, key, overrides)
+    if rd.part in net.indeterminate or _METER in net.indeterminate:
+        return np.nan  # in a loop of ideal wires: the current is not determined
     if meter.current_shunt > 0:
         # current through the shunt from the meter node to nodes[1]: flows through the part
         i_meter = (net.node_vector(_NODE, p.nodes[1]) @ x) / meter.current_shunt

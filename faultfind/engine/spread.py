@@ -115,8 +115,9 @@ def tolerance_bands(circuit, readings, meters, significant=0.01):
     low_g, high_g, sd_g = _combine(acc["gm"], acc["gv"], acc["glo"], acc["ghi"], acc["golo"], acc["gohi"])
     ay = np.abs(yf)
     sgn = np.sign(yf)
-    lg = sgn * ay * np.where(sgn >= 0, np.exp(low_g), np.exp(high_g))
-    hg = sgn * ay * np.where(sgn >= 0, np.exp(high_g), np.exp(low_g))
+    with np.errstate(over="ignore", invalid="ignore"):  # log branch unused where it overflows
+        lg = sgn * ay * np.where(sgn >= 0, np.exp(low_g), np.exp(high_g))
+        hg = sgn * ay * np.where(sgn >= 0, np.exp(high_g), np.exp(low_g))
     use_log = same_sign & finite
     low = np.where(use_log, lg, yf + low_l)
     high = np.where(use_log, hg, yf + high_l)

@@ -29,6 +29,8 @@ The current through a term's added admittance is the term's entry of
 from __future__ import annotations
 
 import numpy as np
+import scipy.sparse as sp
+from scipy.sparse.csgraph import connected_components
 
 from .factor import Factorization
 from .mna import ADMITTANCE, BRANCH, INJECTION, assemble
@@ -167,8 +169,39 @@ class Group:
         # projections of the right-hand side: x for live readings, the test current for ohms
         self.px = (U.T @ self.x) if self.analysis != "off" else self.z.copy()
         self._wt = {}
+        self._has_opamp = any(p.kind == "opamp" for p in circuit.parts)
         yabs = np.abs(net.y_val[net.y_val != 0])
         self.zscale = 1.0 / np.median(yabs) if yabs.size else 1.0
+
+    def bridge_senses_control(self, t) -> bool:
+        """True when opening ``t`` leaves floating a section holding an op-amp input.
+
+        Such an input's voltage is undefined, and so is the op-amp's output.
+        Only asked for parts whose removal splits the network (bridges).
+        """
+        cache = self.__dict__.setdefault("_senses", {})
+        if t.ref in cache:
+            return cache[t.ref]
+        ctl = [self.net.node_index[n] for p in self.circuit.parts if p.kind == "opamp"
+               for n in p.nodes[:2]]
+        ctl = [c for c in ctl if c >= 0]
+        if not ctl or self.analysis == "off":
+            cache[t.ref] = False
+            return False
+        net = self.net
+        n = net.n
+        el = net.element.get(t.ref)
+        keep = np.ones(len(net.y_a), dtype=bool)
+        if el is not None and el[0] == ADMITTANCE:
+            keep[el[1]] = False
+        ea = np.concatenate([net.y_a[keep], net.br_a])
+        eb = np.concatenate([net.y_b[keep], net.br_b])
+        ea = np.where(ea < 0, n, ea)
+        eb = np.where(eb < 0, n, eb)
+        g = sp.coo_matrix((np.ones(ea.size), (ea, eb)), shape=(n + 1, n + 1))
+        _, comp = connected_components(g, directed=False)
+        cache[t.ref] = bool(np.any(comp[np.array(ctl)] != comp[n]))
+        return cache[t.ref]
 
     # ----------------------------------------------------------------- terms
     def term(self, part, mode, value=None):
@@ -207,7 +240,15 @@ class Group:
             return Term("fallback", part.ref)  # a short joining separate pieces
         if a < 0 and b < 0:
             return Term("none", part.ref)  # both ends on reference nodes
-        return Term("y", part.ref, a, b, y0)
+        t = Term("y", part.ref, a, b, y0)
+        if mode == "open" and an != "off" and y0 != 0 and self._has_opamp:
+            # an open that leaves an op-amp input floating: the floating input sits
+            # at 0 V (the oracle's convention), which the rank-one update cannot
+            # express; such parts are few (bridges), so re-solve them
+            ktt = self_terms(self, [t])[0]
+            if abs(1.0 - y0 * ktt) <= 1e-9 and self.bridge_senses_control(t):
+                return Term("fallback", part.ref)
+        return t
 
     def new_admittance(self, part, mode, value=None):
         """Admittance of ``part`` in this analysis under a fault (inf for a short)."""
@@ -327,13 +368,14 @@ class Group:
             # reading whose probes straddle it (then the meter closes the path).
             keep = np.ones(m, dtype=bool)
             for p, t in enumerate(ts):
-                if invd[p] == 0 and abs(K[p, p]) <= _SING * self.zscale:
+                coupled = has_own and abs(K[p, k] * K[k, p]) > _SING * abs(E[k, k]) * self.zscale
+                if invd[p] == 0 and abs(K[p, p]) <= _SING * self.zscale and not coupled:
                     # a short across nodes already joined by zero impedance (a source, a wire)
                     if abs(kx[p]) > _SING * (1.0 + abs(p0)):
                         return np.nan  # it would short a source: the ideal model has no answer
                     keep[p] = False
                     continue
-                if abs(E[p, p]) <= _SING * (abs(invd[p]) + abs(K[p, p])):
+                if invd[p] != 0 and abs(E[p, p]) <= _SING * (abs(invd[p]) + abs(K[p, p])):
                     straddle = has_own and abs(t.y0 * K[p, k]) > 0.5
                     if not straddle:
                         if self.analysis == "off" and abs(t.y0 * cx[p]) > 0.5:
@@ -485,9 +527,12 @@ def batch(g: Group, terms, news) -> np.ndarray:
     nan = np.zeros(shape, dtype=bool)
     olm = np.zeros(shape, dtype=bool)
     if zero_short.any():
+        # the reading's own term (a meter shunt in series) can make it determinate
+        coupled = has & (np.abs(kti * kit) > _SING * np.abs(e11) * g.zscale)
+        zs = zero_short & ~coupled
         bad = np.abs(kx0) > _SING * (1.0 + np.abs(p0))
-        nan |= zero_short & bad
-        drop |= zero_short & ~bad
+        nan |= zs & bad
+        drop |= zs & ~bad
     if bridge.any():
         straddle = has & (np.abs(y0 * kti) > 0.5)
         cut = (not live) & (np.abs(y0 * kit) > 0.5)

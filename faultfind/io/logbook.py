@@ -477,7 +477,8 @@ class Logbook:
         Create the file (and its folder, private to the user) when missing;
         False: a missing file is a LogbookError.
     timeout : float, optional
-        Seconds to wait for another writer's lock (default 10).
+        Seconds to wait for another writer's lock (default
+        :data:`DEFAULT_TIMEOUT`, 10 s).
 
     Attributes
     ----------
@@ -509,8 +510,9 @@ class Logbook:
     several processes at once.
     """
 
-    def __init__(self, path=None, *, create=True, timeout=DEFAULT_TIMEOUT):
+    def __init__(self, path=None, *, create=True, timeout=None):
         self.path = resolve_logbook_path(path)
+        timeout = DEFAULT_TIMEOUT if timeout is None else timeout
         if isinstance(timeout, bool) or not isinstance(timeout, (int, float)) \
                 or not math.isfinite(timeout) or timeout < 0:
             raise LogbookError(f"timeout must be a number of seconds >= 0, got {timeout!r}",
@@ -626,7 +628,7 @@ class Logbook:
         if "readonly" in low or "read-only" in low:
             return LogbookError("the logbook is read-only: check the file's and its folder's "
                                 "permissions (nothing was written)", file=self.path)
-        if "unable to open" in low or "disk i/o" in low or "full" in low:
+        if "unable to open" in low or "disk i/o" in low or "disk is full" in low:
             return LogbookError(f"the logbook cannot be written ({text}): check the disk has "
                                 "space and the folder may be written (nothing was written)",
                                 file=self.path)

@@ -17,7 +17,6 @@ is escaped.
 from __future__ import annotations
 
 import html
-import math
 import os
 import re
 from dataclasses import dataclass
@@ -30,7 +29,7 @@ from faultfind.io.logbook import SAFETY_CAUTION, LoggedReading, Session, format_
 from faultfind.units import format_tolerance, format_value
 
 __all__ = ["Assessed", "STATUS", "assess", "assess_session", "markdown_report", "html_report",
-           "chart_svg", "write_report", "report_format", "FORMATS"]
+           "chart_svg", "write_report", "report_format", "describe_reading", "FORMATS"]
 
 #: status -> (symbol, words, colour).  Colours are chosen to differ in
 #: lightness too, so they survive grey-scale printing.
@@ -168,7 +167,7 @@ def assess_session(session) -> list[Assessed]:
 # -- words shared by both formats ----------------------------------------------------------
 
 
-def _describe(rd) -> str:
+def describe_reading(rd) -> str:
     """``V dc TP1 to 0V``, ``I ac R3 @ 1 kHz``, ``R F1``, ``R K1 lifted``."""
     if rd.quantity == "resistance":
         where = rd.part if rd.part is not None else f"{rd.plus} to {rd.minus}"
@@ -343,7 +342,7 @@ def markdown_report(session, *, generated_at=None) -> str:
             status = f"{a.symbol} {a.words}"
             if lr.struck:
                 status += f": {_md(lr.struck_reason)}"
-            out.append(f"| {lr.seq} | {format_time(lr.taken_at)} | {_md(_describe(lr.reading))} "
+            out.append(f"| {lr.seq} | {format_time(lr.taken_at)} | {_md(describe_reading(lr.reading))} "
                        f"| {_md(lr.reading.label)} | {_md(a.shown())} | {a.expected_text()} | "
                        f"{a.band_text()} | {status} | {_code(_gauge(a))} |")
     else:
@@ -471,7 +470,7 @@ def chart_svg(rows) -> str:
         y = _TOP + _ROW * k + 14
         lr, rd = a.logged, a.logged.reading
         sym, words, colour = STATUS[a.status]
-        name = f"{lr.seq}. {_describe(rd)}" + (f" {rd.label}" if rd.label else "")
+        name = f"{lr.seq}. {describe_reading(rd)}" + (f" {rd.label}" if rd.label else "")
         tip = (f"{name}: reads {a.shown()}, expected {a.expected_text()}, band "
                f"{a.band_text()}: {words}")
         out.append(f'<g><title>{e(tip)}</title>')
@@ -538,6 +537,7 @@ th, td { border: 1px solid #c8c8c8; padding: .25em .5em; text-align: left;
          vertical-align: top; }
 th { background: #eef1f4; }
 td.num { text-align: right; font-variant-numeric: tabular-nums; }
+td.nowrap { white-space: nowrap; }
 .meta th { width: 14em; }
 .warn { background: #fff4e0; border-left: 4px solid #9a5b00; padding: .4em .7em; }
 .struck td.what { text-decoration: line-through; }
@@ -615,10 +615,11 @@ def html_report(session, *, generated_at=None) -> str:
             status = f"{a.symbol} {a.words}" + (f": {lr.struck_reason}" if lr.struck else "")
             cls = ' class="struck"' if lr.struck else ""
             out.append(f'<tr{cls}><td class="num">{lr.seq}</td>'
-                       f'<td>{e(format_time(lr.taken_at))}</td>'
-                       f'<td class="what">{e(_describe(lr.reading))}</td>'
+                       f'<td class="nowrap">{e(format_time(lr.taken_at))}</td>'
+                       f'<td class="what">{e(describe_reading(lr.reading))}</td>'
                        f'<td>{e(lr.reading.label)}</td><td class="num">{e(a.shown())}</td>'
-                       f'<td class="num">{e(a.expected_text())}</td><td>{e(a.band_text())}</td>'
+                       f'<td class="num">{e(a.expected_text())}</td>'
+                       f'<td class="nowrap">{e(a.band_text())}</td>'
                        f'<td class="st-{a.status}">{e(status)}</td></tr>')
         out.append('</table>')
     out.append('<h2>Findings</h2>')

@@ -1,0 +1,145 @@
+"""The faultfind terminal UI: the App, its themes and the order of its screens.
+
+The screens follow the work at the panel:
+
+1. :class:`~faultfind.tui.screens.caution.CautionScreen`, always first;
+   nothing else is reachable until it is acknowledged, and quitting from it
+   opens no file.
+2. :class:`~faultfind.tui.screens.opening.OpeningScreen`: pick a circuit
+   file or a bundled field case, start a logbook session or resume one.
+3. :class:`~faultfind.tui.screens.bench.BenchScreen`: the workspace where
+   readings are entered, committed to the logbook and diagnosed at once.
+4. Close-out, history, export, help and power-state dialogs over it.
+
+The heavy modules (pandas through the logbook, the engine) are imported in a
+thread while the caution is read, so that the caution shows at once.
+"""
+
+from __future__ import annotations
+
+import os
+from pathlib import Path
+
+from textual.app import App
+from textual.binding import Binding
+from textual.theme import Theme
+
+from .screens.caution import CautionScreen
+
+__all__ = ["FaultfindApp", "THEMES"]
+
+#: faultfind's own two themes: "bench" for a dim plant room, "daylight" for
+#: a laptop in the sun.  Every state is also written in words and a symbol.
+THEMES = (
+    Theme(name="faultfind-bench", dark=True, primary="#4f9fb0", secondary="#b89a4a",
+          accent="#d58a3a", warning="#e3a532", error="#ec5f48", success="#62b872",
+          foreground="#e6e8e6", background="#121619", surface="#1b2126", panel="#263039"),
+    Theme(name="faultfind-daylight", dark=False, primary="#1d5d6b", secondary="#6b5518",
+          accent="#9a4d0c", warning="#8a5a00", error="#a3231a", success="#1f6a33",
+          foreground="#141414", background="#f5f3ee", surface="#ebe7de", panel="#d9d3c6"),
+)
+
+
+class FaultfindApp(App[int]):
+    """The terminal UI.
+
+    Parameters
+    ----------
+    circuit : str or os.PathLike, optional
+        Circuit file to offer first (``faultfind ui CIRCUIT``); without it
+        the opening screen offers the bundled field cases.
+    logbook : str or os.PathLike, optional
+        Logbook file (``--logbook``); default ``$FAULTFIND_LOGBOOK``, else
+        the user's data folder.  It is opened only after the caution is
+        acknowledged, and created only when a session is started.
+    meters : str or os.PathLike, optional
+        Meter profile file stored with new sessions.
+    cases : str or os.PathLike, optional
+        Folder of field cases (default: ``field_cases`` in the working
+        folder, else the one beside the installed package).
+    export_dir : str or os.PathLike, optional
+        Folder the work-order report is offered in (default: the working
+        folder).
+    """
+
+    CSS_PATH = "app.tcss"
+    TITLE = "faultfind"
+    ENABLE_COMMAND_PALETTE = False
+    HORIZONTAL_BREAKPOINTS = [(0, "-narrow"), (112, "-wide")]
+    BINDINGS = [
+        Binding("ctrl+q", "quit", "quit", priority=True),
+        Binding("ctrl+c", "quit", "quit", show=False, priority=True),
+        Binding("f2", "toggle_daylight", "daylight", show=False),
+    ]
+
+    def __init__(self, circuit=None, *, logbook=None, meters=None, cases=None, export_dir=None):
+        super().__init__()
+        for name, value in (("circuit", circuit), ("logbook", logbook), ("meters", meters),
+                            ("cases", cases), ("export_dir", export_dir)):
+            if value is not None and not isinstance(value, (str, os.PathLike)):
+                raise TypeError(f"{name}: expected a file name, got {type(value).__name__}")
+        self.circuit_path = None if circuit is None else os.fspath(circuit)
+        self.logbook_arg = None if logbook is None else os.fspath(logbook)
+        self.meters_path = None if meters is None else os.fspath(meters)
+        self.cases_dir = None if cases is None else Path(cases)
+        self.export_dir = Path(export_dir) if export_dir is not None else None
+        self.acknowledged_at: str | None = None
+        self.book = None  # faultfind.io.logbook.Logbook once opened
+
+    # -- start-up ------------------------------------------------------------------------
+
+    def on_mount(self) -> None:
+        for theme in THEMES:
+            self.register_theme(theme)
+        self.theme = THEMES[0].name
+        self.push_screen(CautionScreen(), self._caution_acknowledged)
+        self.run_worker(_warm_up, thread=True, group="warm-up", exit_on_error=False)
+
+    def _caution_acknowledged(self, when: str | None) -> None:
+        from .screens.opening import OpeningScreen
+
+        self.acknowledged_at = when
+        self.push_screen(OpeningScreen())
+
+    # -- the logbook ---------------------------------------------------------------------
+
+    @property
+    def logbook_path(self) -> Path:
+        """The logbook file this app uses (it may not exist yet)."""
+        from faultfind.io.logbook import resolve_logbook_path
+
+        return resolve_logbook_path(self.logbook_arg)
+
+    def open_logbook(self, *, create: bool):
+        """The open :class:`~faultfind.io.logbook.Logbook`, or None when there is
+        none yet and ``create`` is False.  Raises LogbookError."""
+        if self.book is not None:
+            return self.book
+        from faultfind.io.logbook import Logbook
+
+        path = self.logbook_path
+        if not create and not path.exists():
+            return None
+        self.book = Logbook(path, create=create)
+        return self.book
+
+    def on_unmount(self) -> None:
+        if self.book is not None:
+            self.book.close()
+
+    # -- actions -------------------------------------------------------------------------
+
+    def action_toggle_daylight(self) -> None:
+        self.theme = THEMES[1].name if self.theme == THEMES[0].name else THEMES[0].name
+
+    async def action_quit(self) -> None:
+        self.exit(return_code=0)
+
+
+def _warm_up() -> None:
+    """Import the heavy modules while the caution is read (no file is opened)."""
+    import faultfind.advise  # noqa: F401
+    import faultfind.diagnose  # noqa: F401
+    import faultfind.expect  # noqa: F401
+    import faultfind.io.logbook  # noqa: F401
+    import faultfind.io.report  # noqa: F401

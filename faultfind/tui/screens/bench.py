@@ -1,0 +1,420 @@
+"""The bench workspace: the next reading, the findings, the readings, the parts, the entry.
+
+Designed for a person with a meter in one hand: single keys, the next
+reading always on screen with its power state in words and a symbol, and
+Enter to store a reading.  A reading is committed to the logbook (in a
+worker thread) before it is shown as taken; the diagnosis and the advice then
+run again in a worker, with progress in the status line, so the screen never
+freezes.  At 80x24 the findings, readings, parts and checks are tabs (keys
+1-4); from 112 columns the findings stay beside them.
+"""
+
+from __future__ import annotations
+
+import threading
+
+from textual import on, work
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Horizontal, Vertical
+from textual.markup import escape
+from textual.screen import Screen
+from textual.widgets import Footer, Static, TabbedContent, TabPane
+
+from ..widgets.checks import ChecksView
+from ..widgets.entry import ReadingEntry
+from ..widgets.findings import FindingsView
+from ..widgets.next_reading import NextReading
+from ..widgets.status import StatusLine
+from ..widgets.tables import PartsTable, ReadingsTable
+from ..widgets.text import BAND_WORDS, hypothesis_label, tag
+
+__all__ = ["BenchScreen", "WIDE"]
+
+#: Terminal width from which the findings stay beside the tabs.
+WIDE = 112
+
+
+class BenchScreen(Screen):
+    """The workspace of one session.
+
+    Parameters
+    ----------
+    bench : faultfind.tui.bench.Bench
+    """
+
+    CSS_PATH = "bench.tcss"
+    BINDINGS = [
+        Binding("n,slash", "new_reading", "reading"),
+        Binding("t,space", "take_next", "take next"),
+        Binding("o,ctrl+o", "power", "power on/off"),
+        Binding("c", "close_out", "close out"),
+        Binding("x", "export", "report"),
+        Binding("h", "history", "history"),
+        Binding("f1,question_mark", "help", "help"),
+        Binding("k", "strike", "strike out the selected reading (tab 2)", show=False),
+        Binding("1", "view('findings')", "findings tab", show=False),
+        Binding("2", "view('readings')", "readings tab", show=False),
+        Binding("3", "view('parts')", "parts tab", show=False),
+        Binding("4", "view('checks')", "checks tab", show=False),
+        Binding("escape", "leave_entry", "leave the reading entry", show=False),
+        Binding("f5", "rediagnose", "diagnose again", show=False),
+        Binding("ctrl+n", "new_session", "start another session", show=False),
+    ]
+    #: Keys of the reading entry, for help.
+    HELP_EXTRA = (("Tab", "in the entry: complete a kind, node or part name"),
+                  ("Enter", "in the entry: store the reading (logbook first)"))
+
+    def __init__(self, bench) -> None:
+        super().__init__(id="bench")
+        self.bench = bench
+        self._gen = 0
+        self._lock = threading.Lock()
+        self._committing = False
+        self.working = False
+
+    # -- layout --------------------------------------------------------------------------
+
+    def compose(self) -> ComposeResult:
+        yield StatusLine(id="status")
+        with Horizontal(id="work"):
+            with Vertical(id="main"):
+                yield NextReading(id="next")
+                yield Static(id="alert")
+                with TabbedContent(id="views", initial="findings"):
+                    with TabPane("1 Findings", id="findings"):
+                        yield FindingsView(id="findings-view")
+                    with TabPane("2 Readings", id="readings"):
+                        yield ReadingsTable(id="readings-table")
+                    with TabPane("3 Parts", id="parts"):
+                        yield PartsTable(id="parts-table")
+                    with TabPane("4 Checks", id="checks"):
+                        yield ChecksView(id="checks-view")
+            with Vertical(id="side"):
+                yield Static("FINDINGS", id="side-title")
+                yield FindingsView(id="side-findings")
+        yield ReadingEntry(self.bench, id="entry")
+        yield Footer()
+
+    def on_mount(self) -> None:
+        self.show_all()
+        self._arrange(self.app.size.width)
+        self.analyse(diagnose=self._needs_diagnosis())
+
+    def on_resize(self, event) -> None:
+        self._arrange(event.size.width)
+
+    def _arrange(self, width: int) -> None:
+        wide = width >= WIDE
+        self.set_class(wide, "wide")
+        tabs = self.query_one("#views", TabbedContent)
+        if wide:
+            if tabs.active == "findings":
+                tabs.active = "readings"
+            tabs.hide_tab("findings")
+        else:
+            tabs.show_tab("findings")
+
+    # -- showing the state ---------------------------------------------------------------
+
+    def _doc(self):
+        b = self.bench
+        return None if b.stored is None or not b.readings() else b.stored.document
+
+    def show_all(self) -> None:
+        """Redraw every panel from the bench's state."""
+        self.show_status()
+        self.show_readings()
+        self.show_findings()
+        self.show_next()
+
+    def show_status(self) -> None:
+        b = self.bench
+        status = self.query_one(StatusLine)
+        status.show_power(b.power)
+        doc = self._doc()
+        if doc and doc.get("hypotheses"):
+            h = doc["hypotheses"][0]
+            status.show_session(b, doc["verdict"], hypothesis_label(b.circuit, h["faults"]),
+                                h["probability"])
+        else:
+            status.show_session(b, doc["verdict"] if doc else None)
+
+    def show_readings(self) -> None:
+        self.query_one("#readings-table", ReadingsTable).show(self.bench.assessed())
+
+    def show_findings(self) -> None:
+        b = self.bench
+        doc = self._doc()
+        n = len(b.readings())
+        for view in self.query(FindingsView):
+            view.show(doc, b.circuit, n)
+        self.query_one("#parts-table", PartsTable).show(b.circuit, doc)
+        self.query_one("#checks-view", ChecksView).show(doc)
+        alert = self.query_one("#alert", Static)
+        if doc and doc.get("verdict") == "inconsistent":
+            first = (doc.get("recheck") or ["check the readings"])[0]
+            alert.update(tag("warn", "⚠ INCONSISTENT READINGS") + " · no explanation fits · "
+                         + escape(first) + tag("muted", " · more: 4"))
+            alert.display = True
+        else:
+            alert.display = False
+        self.show_status()
+
+    def show_next(self) -> None:
+        b = self.bench
+        doc = self._doc()
+        best = None
+        if doc and doc.get("hypotheses"):
+            best = hypothesis_label(b.circuit, doc["hypotheses"][0]["faults"])
+        sugg = b.suggested if b.suggested_power == b.power else []
+        self.query_one("#next", NextReading).show(
+            sugg, b.power, verdict=doc.get("verdict") if doc else None, best=best,
+            is_open=b.is_open, working=self.working)
+
+    # -- diagnosis and advice in a worker ------------------------------------------------
+
+    def _needs_diagnosis(self) -> bool:
+        b = self.bench
+        live = b.readings()
+        if not live:
+            return False
+        s = b.stored
+        last = max(lr.seq for lr in b.session.readings)
+        return s is None or s.last_seq < last or s.reading_count != len(live)
+
+    def analyse(self, *, diagnose: bool = True) -> None:
+        """Run the diagnosis (when ``diagnose``) and the advice again, in a worker."""
+        self._gen += 1
+        self.working = True
+        b = self.bench
+        if not diagnose and b.stored is not None and b.readings():
+            b.suggested = list(b.stored.document.get("suggestions", []))
+            b.suggested_power = b.implied_power()
+        self._analysis(self._gen, diagnose)
+
+    @work(thread=True, group="analysis")
+    def _analysis(self, gen: int, diagnose: bool) -> None:
+        app = self.app
+        b = self.bench
+        with self._lock:
+            if gen != self._gen or not b.is_open:
+                app.call_from_thread(self._analysis_done, gen)
+                return
+            try:
+                if diagnose and b.readings():
+                    app.call_from_thread(self._busy, gen, 1, "ranking fault hypotheses")
+                    b.diagnose()
+                    app.call_from_thread(self._diagnosed, gen)
+                if gen == self._gen:
+                    app.call_from_thread(self._busy, gen, 2, "choosing the next reading")
+                    b.suggestions()
+            except Exception as exc:  # noqa: BLE001 - shown in the findings, not raised
+                app.call_from_thread(self._analysis_failed, gen, exc)
+            app.call_from_thread(self._analysis_done, gen)
+
+    def _busy(self, gen: int, step: int, text: str) -> None:
+        if gen == self._gen:
+            self.query_one(StatusLine).busy(step, text)
+
+    def _diagnosed(self, gen: int) -> None:
+        if gen == self._gen:
+            self.show_findings()
+
+    def _analysis_failed(self, gen: int, exc: Exception) -> None:
+        if gen != self._gen or not self.bench.is_open:
+            return
+        text = tag("bad", f"✗ the diagnosis failed: {exc}")
+        for view in self.query(FindingsView):
+            view.query_one("#findings-body", Static).update(text)
+
+    def _analysis_done(self, gen: int) -> None:
+        if gen != self._gen:
+            return
+        self.working = False
+        self.query_one(StatusLine).idle()
+        self.show_status()
+        self.show_next()
+
+    # -- entering readings ---------------------------------------------------------------
+
+    @property
+    def entry(self) -> ReadingEntry:
+        return self.query_one("#entry", ReadingEntry)
+
+    def action_new_reading(self) -> None:
+        if self._closed_say():
+            return
+        self.entry.open("")
+
+    def action_take_next(self) -> None:
+        from faultfind.model import Reading
+
+        from ..entry import entry_text
+
+        if self._closed_say():
+            return
+        b = self.bench
+        sugg = b.suggested if b.suggested_power == b.power else []
+        if not sugg:
+            self.entry.open("")
+            self.entry.say(tag("muted", "No suggestion now: type any reading."))
+            return
+        s = sugg[0]
+        rd = Reading(s["quantity"], s["mode"], s["plus"], s["minus"], part=s["part"],
+                     setup=s["setup"], frequency=s["frequency"], label=s.get("label") or "")
+        text, cursor = entry_text(rd, b.circuit.ground)
+        self.entry.open(text, cursor)
+
+    def action_leave_entry(self) -> None:
+        self.entry.leave()
+
+    @on(ReadingEntry.Commit)
+    def _commit(self, message: ReadingEntry.Commit) -> None:
+        if self._committing or self._closed_say():
+            return
+        self._committing = True
+        self.entry.say(tag("muted", "… storing in the logbook"))
+        self._commit_worker(message.text)
+
+    @work(thread=True, group="commit")
+    def _commit_worker(self, text: str) -> None:
+        try:
+            logged = self.bench.add(text)
+        except Exception as exc:  # noqa: BLE001 - bad input or a logbook problem: shown
+            self.app.call_from_thread(self._commit_failed, exc)
+            return
+        self.app.call_from_thread(self._committed, logged)
+
+    def _commit_failed(self, exc: Exception) -> None:
+        self._committing = False
+        msg = getattr(exc, "message", None) or str(exc)
+        key = getattr(exc, "key", None)
+        if key == "power":
+            self.entry.say(tag("bad", f"⊘ {msg}") + tag("muted", " · nothing was stored"))
+        else:
+            prefix = f"{key}: " if key and key != "entry" and not msg.startswith(key) else ""
+            self.entry.say(tag("bad", f"✗ {prefix}{msg}") + tag("muted", " · nothing stored"))
+        self.entry.input.focus()
+
+    def _committed(self, logged) -> None:
+        self._committing = False
+        a = next((x for x in self.bench.assessed() if x.logged.seq == logged.seq), None)
+        self.show_readings()
+        self.entry.input.value = ""
+        self.entry.leave()
+        from faultfind.io.report import describe_reading
+
+        said = f"✓ stored #{logged.seq}: {describe_reading(logged.reading)} = {logged.reading.raw}"
+        status = ""
+        if a is not None:
+            sym, words, kind = BAND_WORDS[a.status]
+            status = " · " + tag(kind, f"{sym} {words}")
+        self.entry.say(tag("ok", said) + status + tag("muted", " · in the logbook"))
+        self.analyse(diagnose=True)
+
+    # -- power state ---------------------------------------------------------------------
+
+    def action_power(self) -> None:
+        from .power import PowerScreen
+
+        if self._closed_say():
+            return
+        self.app.push_screen(PowerScreen(self.bench.power), self._power_set)
+
+    def _power_set(self, state: str | None) -> None:
+        if state is None or state == self.bench.power:
+            return
+        self.bench.set_power(state)
+        self.show_status()
+        self.show_next()
+        text = self.entry.input.value
+        if text.strip():
+            self.entry.update_preview(text)
+        self.analyse(diagnose=False)
+
+    # -- close-out, export, history, strike ----------------------------------------------
+
+    def _closed_say(self) -> bool:
+        if self.bench.is_open:
+            return False
+        self.notify("This session is closed: ctrl+n starts another.", severity="warning")
+        return True
+
+    def action_close_out(self) -> None:
+        from .closeout import CloseoutScreen
+
+        if self._closed_say():
+            return
+        doc = self._doc()
+        self.app.push_screen(CloseoutScreen(self.bench, doc), self._closed)
+
+    def _closed(self, done) -> None:
+        if not done:
+            return
+        self._gen += 1  # any analysis still running is for an open session: drop it
+        self.working = False
+        self.query_one(StatusLine).idle()
+        self.entry.input.value = ""
+        self.entry.input.disabled = True
+        self.entry.leave()
+        self.show_all()
+        self.action_export()
+
+    def action_export(self) -> None:
+        from .export import ExportScreen
+
+        self.app.push_screen(ExportScreen(self.bench, self.app.export_dir), self._exported)
+
+    def _exported(self, result) -> None:
+        if result:
+            self.entry.say(tag("ok", f"✓ {result}"))
+
+    def action_history(self) -> None:
+        from .history import HistoryScreen
+
+        self.app.push_screen(HistoryScreen(self.bench))
+
+    def action_strike(self) -> None:
+        from .strike import StrikeScreen
+
+        if self._closed_say():
+            return
+        tabs = self.query_one("#views", TabbedContent)
+        table = self.query_one("#readings-table", ReadingsTable)
+        seq = table.selected_seq()
+        if tabs.active != "readings" or seq is None:
+            self.notify("Open the readings (2), select a reading, then press k.")
+            return
+        lr = next(r for r in self.bench.session.readings if r.seq == seq)
+        if lr.struck:
+            self.notify(f"Reading {seq} is struck out already.")
+            return
+        self.app.push_screen(StrikeScreen(self.bench, lr), self._struck)
+
+    def _struck(self, done) -> None:
+        if done:
+            self.show_readings()
+            self.analyse(diagnose=True)
+
+    # -- small things --------------------------------------------------------------------
+
+    def action_view(self, name: str) -> None:
+        tabs = self.query_one("#views", TabbedContent)
+        if name == "findings" and self.has_class("wide"):
+            return
+        tabs.active = name
+
+    def action_rediagnose(self) -> None:
+        if not self._closed_say():
+            self.analyse(diagnose=True)
+
+    def action_help(self) -> None:
+        from .help import HelpScreen
+
+        self.app.push_screen(HelpScreen(self))
+
+    def action_new_session(self) -> None:
+        from .opening import OpeningScreen
+
+        self.app.switch_screen(OpeningScreen())

@@ -1,0 +1,1 @@
+"""The bench workspace's panels."""

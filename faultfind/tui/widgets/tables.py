@@ -1,0 +1,109 @@
+"""The readings taken (each against its healthy band) and the parts (nominal, tolerance,
+live estimate), as tables."""
+
+from __future__ import annotations
+
+import math
+
+from textual.content import Content
+from textual.widgets import DataTable
+
+from .text import band_status, tag
+
+__all__ = ["ReadingsTable", "PartsTable", "estimate_note"]
+
+
+class ReadingsTable(DataTable):
+    """One row a logged reading: number, what, display, healthy band, status, label."""
+
+    def on_mount(self) -> None:
+        self.cursor_type = "row"
+        self.zebra_stripes = True
+        self.add_column("#", key="seq")
+        self.add_column("reading", key="reading")
+        self.add_column("shows", key="shows")
+        self.add_column("healthy band", key="band")
+        self.add_column("status", key="status")
+        self.add_column("label", key="label")
+
+    def show(self, assessed) -> None:
+        """Rows from :func:`faultfind.io.report.assess` results, newest last."""
+        from faultfind.io.report import describe_reading
+
+        self.clear()
+        for a in assessed:
+            lr = a.logged
+            status = band_status(a.status)
+            if lr.struck:
+                status = Content.from_markup(tag("muted", f"✗ struck: {lr.struck_reason}"))
+            band = "OL (no path)" if a.expected is None else a.band_text()
+            self.add_row(str(lr.seq), describe_reading(lr.reading), a.shown(), band, status,
+                         lr.reading.label, key=str(lr.seq))
+        if self.row_count:
+            self.move_cursor(row=self.row_count - 1)
+
+    def selected_seq(self) -> int | None:
+        """The reading number of the row under the cursor (None: no rows)."""
+        if not self.row_count:
+            return None
+        key = self.coordinate_to_cell_key((self.cursor_row, 0)).row_key
+        return int(key.value)
+
+
+def estimate_note(part, est, fault_mode=None) -> Content:
+    """``✓ in tol``, ``▲ +31 %``, ``▼ -40 %``, ``✗ OPEN``, ``✗ SHORT`` against the tolerance."""
+    if fault_mode in ("open", "short", "dead"):
+        return Content.from_markup(tag("bad", f"✗ {fault_mode.upper()}"))
+    if est is None or part.value in (None, 0):
+        return Content("—")
+    v = est.get("value")
+    if v is None:
+        return Content.from_markup(tag("bad", "✗ OPEN (∞)"))
+    rel = v / part.value - 1.0
+    if -part.tol_low - 1e-9 <= rel <= part.tol_high + 1e-9:
+        return Content.from_markup(tag("ok", "✓ in tol"))
+    if rel > 0:
+        return Content.from_markup(tag("bad", f"▲ {rel * 100:+.0f} %"))
+    return Content.from_markup(tag("bad", f"▼ {rel * 100:+.0f} %"))
+
+
+class PartsTable(DataTable):
+    """One row a part: ref, kind, nominal, tolerance, live estimate, ~95 % range, note."""
+
+    def on_mount(self) -> None:
+        self.cursor_type = "row"
+        self.zebra_stripes = True
+        for name in ("ref", "kind", "nominal", "tol", "estimate", "~95 % range", "note",
+                     "label"):
+            self.add_column(name, key=name)
+
+    def show(self, circuit, doc) -> None:
+        """Rows for every part; estimates from a ``diagnose --json`` document."""
+        from faultfind.units import format_tolerance, format_value
+
+        estimates = (doc or {}).get("estimates", {})
+        best = (doc or {}).get("hypotheses", [{}])[0].get("faults", []) if doc else []
+        modes = {f["ref"]: f["mode"] for f in best}
+        self.clear()
+        for p in circuit.parts:
+            unit = p.info.unit or ""
+            nominal = "—" if p.value is None else format_value(p.value, unit)
+            tol = "—" if p.value is None else format_tolerance(p.tol_low, p.tol_high)
+            est = estimates.get(p.ref)
+            if est is None or p.value is None:
+                value, rng = "—", "—"
+            else:
+                value = _v(est.get("value"), unit)
+                rng = f"{_v(est.get('low'), unit)} .. {_v(est.get('high'), unit)}"
+            note = estimate_note(p, est, modes.get(p.ref)) if doc else Content("—")
+            self.add_row(p.ref, p.kind, nominal, tol, value, rng, note, p.label, key=p.ref)
+
+
+def _v(x, unit) -> str:
+    from faultfind.units import format_value
+
+    if x is None:
+        return "∞"
+    if isinstance(x, float) and not math.isfinite(x):
+        return "∞"
+    return format_value(x, unit)

@@ -19,7 +19,7 @@ from ..io.logbook import (ENV_VAR, PURPOSES, SAFETY_CAUTION, Logbook, default_lo
 from ..io.report import assess, assess_session, describe_reading, report_format, write_report
 from .output import emit_json, table
 
-__all__ = ["add_parser", "parse_compact", "COMPACT_KINDS"]
+__all__ = ["add_parser", "parse_compact", "compact_of", "COMPACT_KINDS"]
 
 #: Compact reading kinds: word -> (quantity, mode or setup).
 COMPACT_KINDS = {
@@ -81,6 +81,34 @@ def parse_compact(tokens, circuit) -> dict:
     else:
         fields.update(setup=extra, plus=plus, minus=minus if sep else "")
     return fields
+
+
+def compact_of(row) -> str:
+    """``KIND WHERE`` of the compact form for a reading given as readings-file fields.
+
+    Parameters
+    ----------
+    row : mapping
+        ``quantity, mode, plus, minus, part, setup`` (e.g. a suggestion of
+        ``faultfind diagnose --json``).
+
+    Returns
+    -------
+    str
+        e.g. ``"V 24V-F,GUARD"``, ``"Iac H1"``, ``"Rlifted K1"``.
+    """
+    q = row.get("quantity")
+    if q == "resistance":
+        kind = "Rlifted" if row.get("setup") == "lifted" else "R"
+    else:
+        kind = ("V" if q == "voltage" else "I") + ("ac" if row.get("mode") == "ac" else "")
+    if row.get("part"):
+        where = row["part"]
+    else:
+        where = row.get("plus") or ""
+        if row.get("minus"):
+            where += "," + row["minus"]
+    return f"{kind} {where}"
 
 
 # -- plumbing ------------------------------------------------------------------------------
@@ -288,6 +316,15 @@ def run_diagnose(args) -> int:
     table(["#", "hypothesis", "probability"], rows, aligns=[">", "<", ">"])
     for note in d.document.get("notes", []) + d.document.get("recheck", []):
         print(f"Note: {note}")
+    suggestions = d.document.get("suggestions") or []
+    if suggestions:
+        print("Next readings worth taking (log each with the command shown, VALUE as displayed):")
+        for g in suggestions[:3]:
+            what = g.get("label") or g.get("why") or ""
+            print(f"  - {what} (power {g.get('power', 'on')}): faultfind log add {sid} "
+                  f"{compact_of(g)} VALUE")
+            if g.get("why"):
+                print(f"      {g['why']}")
     print(f"Details: faultfind log show {sid}; report: faultfind log report {sid} -o report.html")
     return 0
 

@@ -235,6 +235,22 @@ def _diagnosis_parts(session, circuit):
     return SimpleNamespace(stored=d, doc=doc, stale=stale, hypotheses=hyps)
 
 
+def _next_readings(session, doc) -> list[str]:
+    """The stored diagnosis' suggestions in words (only while the session is open)."""
+    if not session.is_open:
+        return []
+    out = []
+    for g in (doc.get("suggestions") or [])[:3]:
+        rd = SimpleNamespace(**{k: g.get(k) for k in ("quantity", "mode", "plus", "minus",
+                                                       "part", "setup", "frequency")})
+        text = describe_reading(rd) + (f" ({g['label']})" if g.get("label") else "")
+        text += f", power {g.get('power') or 'on'}"
+        if g.get("why"):
+            text += f": {g['why']}"
+        out.append(text)
+    return out
+
+
 def _generated(generated_at) -> str:
     t = generated_at or datetime.now(timezone.utc).isoformat(timespec="seconds")
     return format_time(t)
@@ -368,7 +384,8 @@ def markdown_report(session, *, generated_at=None) -> str:
         for title, items in (("Parts these readings cannot tell apart",
                               [" / ".join(g) for g in dp.doc.get("ambiguity_groups", [])]),
                              ("Re-check", dp.doc.get("recheck", [])),
-                             ("Notes", dp.doc.get("notes", []))):
+                             ("Notes", dp.doc.get("notes", [])),
+                             ("Next readings worth taking", _next_readings(session, dp.doc))):
             if items:
                 out += ["", f"{title}:", ""] + [f"- {_md(x)}" for x in items]
     out += ["", "## Outcome", "", "| | |", "|---|---|"]
@@ -647,7 +664,8 @@ def html_report(session, *, generated_at=None) -> str:
         for head, items in (("Parts these readings cannot tell apart",
                              [" / ".join(g) for g in dp.doc.get("ambiguity_groups", [])]),
                             ("Re-check", dp.doc.get("recheck", [])),
-                            ("Notes", dp.doc.get("notes", []))):
+                            ("Notes", dp.doc.get("notes", [])),
+                            ("Next readings worth taking", _next_readings(session, dp.doc))):
             if items:
                 out.append(f'<p>{e(head)}:</p><ul>'
                            + "".join(f"<li>{e(x)}</li>" for x in items) + '</ul>')

@@ -231,6 +231,30 @@ class Evidence:
         loglike += -0.5 * extra
         return chi2, loglike
 
+    def chi2_near(self, P, centre, drop=()):
+        """Full-covariance chi-square of predictions ``P`` (k, n) that lie close to
+        ``centre``, with the covariance taken once at ``centre`` (for a local
+        search: a drift refined within a few standard deviations)."""
+        P = np.atleast_2d(np.asarray(P, dtype=float))
+        centre = np.asarray(centre, dtype=float)
+        num = (~self.ol) & np.isfinite(centre) & np.all(np.isfinite(P), axis=0)
+        out = np.zeros(P.shape[0])
+        if num.any():
+            T = self.tol_cov(centre, drop)
+            C = T[np.ix_(num, num)] + np.diag(self.u[num] ** 2)
+            R = (self.y[num][None, :] - P[:, num]).T
+            try:
+                L = np.linalg.cholesky(C)
+                Z = np.linalg.solve(L, R)
+                out += (Z * Z).sum(axis=0)
+            except np.linalg.LinAlgError:
+                out += ((R ** 2) / np.diag(C)[:, None]).sum(axis=0)
+        rest = ~num
+        if rest.any():
+            var = np.diag(self.tol_cov(centre, drop)) + self.u ** 2
+            out += self._chi2_terms(P, var)[:, rest].sum(axis=1)
+        return np.where(np.any(np.isnan(P), axis=1), np.inf, out)
+
     def residuals(self, pred, drop=()):
         """Standardized residual of each reading (diagonal covariance); 0 for OL consistent."""
         pred = np.asarray(pred, dtype=float)

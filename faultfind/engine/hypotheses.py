@@ -54,6 +54,8 @@ _GRID = 25
 #: How many of the best single faults are re-scored exactly and paired.
 EXACT_TOP = 4
 PAIR_TOP = 6
+#: Drifts whose log posterior is within this of the leader are refitted on the full score.
+REFIT_WINDOW = 20.0
 #: How many hypotheses of the first (diagonal) pass are scored with the full covariance.
 FULL_TOP = 40
 
@@ -98,6 +100,7 @@ class Hypothesis:
     probability: float = 0.0
     drift_sd: float | None = None
     exact: bool = False
+    occam: float = 0.0
 
     @property
     def label(self) -> str:
@@ -297,7 +300,8 @@ class Evaluator(Board):
             self._wtotal = sum(KIND_WEIGHTS.get(p.kind, 0.0) for p in self.circuit.parts if p.fault_modes)
         lp = log_prior(self.circuit.parts, parts, self._wtotal)
         chi2, ll = self.ev.score(pred, self.drop_cols(faults))
-        return Hypothesis(tuple(faults), pred, chi2, ll + occam, lp, lp + ll + occam, drift_sd=drift_sd)
+        return Hypothesis(tuple(faults), pred, chi2, ll + occam, lp, lp + ll + occam, drift_sd=drift_sd,
+                          occam=occam)
 
     def exact(self, h: Hypothesis) -> Hypothesis:
         """Re-score ``h`` with the faulted circuit's own sensitivities (one re-solve)."""
@@ -334,9 +338,9 @@ class Evaluator(Board):
         rest = ev._chi2_terms(pred[None, :], var)[0][~num].sum()
         chi2 += float(rest)
         ll += -0.5 * float(rest)
-        occam = h.log_like - self.ev.score(pred, self.drop_cols(h.faults))[1]  # keep the drift's Occam factor
+        occam = h.occam  # the drift's Occam factor, as fitted
         return Hypothesis(h.faults, pred, chi2, ll + occam, h.log_prior, h.log_prior + ll + occam,
-                          drift_sd=h.drift_sd, exact=True)
+                          drift_sd=h.drift_sd, exact=True, occam=occam)
 
     # ------------------------------------------------------------- drift fit
     def drift_range(self, part):
@@ -452,6 +456,57 @@ class Evaluator(Board):
         f, pred, sd, occam = res[0]
         return self.make([f], pred, drift_sd=sd, occam=occam)
 
+    def refit_drift(self, h):
+        """Refine a single drift's value on the full-covariance score.
+
+        Three rounds of five points around the current value (spaced by the
+        drift's standard deviation, then a third and a ninth of it), each
+        closing with a parabola through the best three.
+        """
+        f = h.faults[0]
+        part = self.circuit.part(f.ref)
+        lo, hi, blo, bhi = self.drift_range(part)
+        rho = float(np.log(f.value / part.value))
+        w = h.drift_sd if h.drift_sd else 0.05
+        w = float(np.clip(w, 1e-4, 0.5))
+        drop = self.drop_cols(h.faults)
+        best_rho, best = rho, None
+        for shrink in (2.0, 0.6, 0.2):
+            pts = rho + w * shrink * np.array([-1.0, -0.5, 0.0, 0.5, 1.0])
+            pts = np.clip(pts, lo, hi)
+            pts = np.where((pts > blo) & (pts < bhi), np.where(rho >= bhi, bhi, blo), pts)
+            P = self.predict_fault(part, "drift", np.exp(pts))
+            c = self.ev.chi2_near(P, P[2], drop)
+            c = np.where(np.isfinite(c), c, np.inf)
+            k = int(np.argmin(c))
+            rho = float(pts[k])
+            m = int(np.clip(k, 1, 3))
+            x, y = pts[m - 1:m + 2], c[m - 1:m + 2]
+            if np.all(np.isfinite(y)) and x[0] < x[1] < x[2]:
+                d1 = (y[1] - y[0]) / (x[1] - x[0])
+                d2 = (y[2] - y[1]) / (x[2] - x[1])
+                a = (d2 - d1) / (x[2] - x[0])
+                if a > 0:
+                    vx = float(np.clip(0.5 * (x[0] + x[1]) - d1 / (2 * a), x[0], x[2]))
+                    if not (blo < vx < bhi):
+                        rho = vx
+                    w = float(np.clip(np.sqrt(2.0 / (2 * a)), 1e-5, 0.5))
+        pred = self.predict_fault(part, "drift", np.array([np.exp(rho)]))[0]
+        fnew = Fault(f.ref, "drift", float(part.value * np.exp(rho)))
+        span = (hi - lo) - max(0.0, min(hi, bhi) - max(lo, blo))
+        occam = float(np.log(min(np.sqrt(2 * np.pi) * w, span) / span))
+        out = self.make([fnew], pred, drift_sd=w, occam=occam)
+        return out if out.log_post >= h.log_post or not np.isfinite(h.log_post) else h
+
+    def occam_of(self, h) -> float:
+        """Log Occam factor of a single drift hypothesis (0 for the other modes)."""
+        f = h.faults[0]
+        if f.mode != "drift" or h.drift_sd is None:
+            return 0.0
+        lo, hi, blo, bhi = self.drift_range(self.circuit.part(f.ref))
+        span = (hi - lo) - max(0.0, min(hi, bhi) - max(lo, blo))
+        return float(np.log(min(np.sqrt(2 * np.pi) * h.drift_sd, span) / span))
+
     def prior(self, faults):
         """Log prior of a list of faults."""
         if not hasattr(self, "_wtotal"):
@@ -514,7 +569,7 @@ def rank_with(ev: Evaluator, *, doubles=True) -> Ranking:
         for (f, pred, sd, occam), x2, ld in zip(cands, c2, logdet):
             lp = ev.prior([f])
             ll = -0.5 * (float(x2) + float(ld)) + occam
-            first.append((Hypothesis((f,), pred, float(x2), ll, lp, lp + ll, drift_sd=sd), occam))
+            first.append((Hypothesis((f,), pred, float(x2), ll, lp, lp + ll, drift_sd=sd, occam=occam), occam))
     # second pass: the full covariance for the hypotheses that can matter
     first.sort(key=lambda ho: -ho[0].log_post)
     hyps = [healthy]
@@ -528,13 +583,29 @@ def rank_with(ev: Evaluator, *, doubles=True) -> Ranking:
         healthy.probability = 1.0
         return Ranking([healthy], healthy, "inconsistent", ev.n, {id(healthy): 0.0}, False)
     hyps.sort(key=lambda h: -h.log_post)
-    # exact re-scoring of the leaders
+    # the drift search used the diagonal of the covariance; refit the leading
+    # drifts on the full score (correlated readings move the optimum)
+    lead = hyps[0].log_post
+    for i in range(min(2 * EXACT_TOP, len(hyps))):
+        h = hyps[i]
+        if (len(h.faults) == 1 and h.faults[0].mode == "drift" and h.faults[0].seen
+                and h.log_post > lead - REFIT_WINDOW):
+            hyps[i] = ev.refit_drift(h)
+    hyps.sort(key=lambda h: -h.log_post)
+    # exact re-scoring of the leaders (those that can still matter)
+    lead = hyps[0].log_post
     for i in range(min(EXACT_TOP, len(hyps))):
-        hyps[i] = ev.exact(hyps[i])
+        if i == 0 or hyps[i].log_post > lead - REFIT_WINDOW:
+            hyps[i] = ev.exact(hyps[i])
     n = ev.n
     fits = lambda h: chi2_dist.sf(h.chi2, max(n - (1 if any(f.mode == "drift" for f in h.faults) else 0), 1))
     hyps.sort(key=lambda h: -h.log_post)
     tried = False
+    if doubles and n >= 2 and fits(healthy) < HEALTHY_P and all(fits(h) < FIT_P for h in hyps[:EXACT_TOP]):
+        # before reaching for two faults, give more single faults their exact score
+        for i in range(EXACT_TOP, min(2 * EXACT_TOP + 4, len(hyps))):
+            hyps[i] = ev.exact(hyps[i])
+        hyps.sort(key=lambda h: -h.log_post)
     if doubles and n >= 2 and fits(healthy) < HEALTHY_P and all(fits(h) < FIT_P for h in hyps[:EXACT_TOP]):
         tried = True
         hyps += _pairs(ev, hyps)
@@ -561,9 +632,11 @@ def _pairs(ev: Evaluator, hyps):
     """Pairs of the likeliest single faults on distinct parts."""
     singles = [h for h in hyps if len(h.faults) == 1]
     best = {}
+    occ = {}
     for h in singles:
         f = h.faults[0]
         best.setdefault(f.ref, []).append(f)
+        occ[(f.ref, f.mode)] = ev.occam_of(h)
     refs = [h.faults[0].ref for h in singles]
     seen, lead = set(), []
     for r in refs:
@@ -580,7 +653,8 @@ def _pairs(ev: Evaluator, hyps):
                     pred = ev.predict_faults([fa, fb])
                     if np.isnan(pred).any():
                         continue
-                    occam = 0.0
+                    # each drifted value is a free parameter: pay its Occam factor
+                    occam = occ.get((fa.ref, fa.mode), 0.0) + occ.get((fb.ref, fb.mode), 0.0)
                     h = ev.make([fa, fb], pred, occam=occam)
                     if np.isfinite(h.log_post):
                         out.append(h)

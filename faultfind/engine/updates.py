@@ -563,6 +563,9 @@ def batch(g: Group, terms, news) -> np.ndarray:
         olm &= ~own
     out = np.where(nan, np.nan, out)
     out = np.where(olm, np.inf, out)
+    same = (d == 0) & ~inf                     # no change at all: the healthy readings
+    if same.any():
+        out = np.where(same, g.nominal()[None, None, :], out)
     src = rt == "src"
     out[:, :, src] = g.scale[src]
     out[:, :, rt == "zero"] = 0.0

@@ -10,7 +10,9 @@ priors), two technicians start from zero readings:
   frequency for an AC circuit) in a random order.
 
 Each stops when the top hypothesis reaches 95 % or when it runs out of
-readings (advice: 25 readings at most).  Reported: mean and 90th percentile
+readings: random probing when every node has been read, the advice when no
+candidate's expected information gain reaches 0.02 bit (the hypotheses left
+cannot be told apart) or after 25 readings.  Reported: mean and 90th percentile
 of the readings taken, the effort spent (cost model of faultfind.advise) and
 how often the final top hypothesis names the planted fault (counting a part in
 the same ambiguity group as the top one as right).
@@ -42,6 +44,9 @@ from faultfind.simulate import draw_board, simulate_readings  # noqa: E402
 
 STOP = 0.95
 MAX_ADVICE = 25
+#: Below this expected gain (bits) no candidate is worth taking: the remaining
+#: hypotheses cannot be told apart by any reading (an ambiguity group).
+MIN_GAIN = 0.02
 
 
 def draw_fault(circuit, rng):
@@ -94,8 +99,8 @@ def run_path(circuit, board, fault, meters, rng, order=None):
     for step in range(MAX_ADVICE if order is None else len(order)):
         if order is None:
             sug = suggest(circuit, readings, meters, hypotheses=hyps, top=1)
-            if not sug:
-                break
+            if not sug or sug[0].gain < MIN_GAIN:
+                break  # candidates run out: no reading left that tells the hypotheses apart
             rd = sug[0].reading
         else:
             rd = order[step]

@@ -15,6 +15,7 @@ import tomllib
 
 from faultfind.engine.topology import dangling_nodes, floating_nodes, voltage_loops
 from faultfind.errors import CircuitError, UnitError
+from faultfind.io.textfile import read_text
 from faultfind.model import KINDS, Circuit, Part
 from faultfind import units
 
@@ -76,24 +77,8 @@ def load_circuit(path) -> Circuit:
     TypeError
         ``path`` is not a str or path-like object.
     """
-    if not isinstance(path, (str, os.PathLike)):
-        raise TypeError(f"path must be a str or os.PathLike, not {type(path).__name__}")
+    text = read_text(path, CircuitError, "circuit file")
     name = os.fspath(path)
-    try:
-        with open(name, "rb") as fh:
-            data = fh.read()
-    except FileNotFoundError:
-        raise CircuitError("no such file", file=name) from None
-    except IsADirectoryError:
-        raise CircuitError("is a directory, not a circuit file", file=name) from None
-    except OSError as err:
-        raise CircuitError(f"cannot read the file ({err.strerror or err})", file=name) from None
-    try:
-        text = data.decode("utf-8-sig")
-    except UnicodeDecodeError as err:
-        line = data.count(b"\n", 0, err.start) + 1
-        raise CircuitError("the file is not UTF-8 text (save it as UTF-8)",
-                           file=name, line=line) from None
     return parse_circuit(text, source=name)
 
 

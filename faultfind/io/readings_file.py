@@ -28,6 +28,7 @@ import numpy as np
 import pandas as pd
 
 from faultfind.errors import ReadingsError, UnitError
+from faultfind.io.textfile import read_text
 from faultfind.model import KINDS, MODES, QUANTITIES, SETUPS, Circuit, MeterProfile, Reading
 from faultfind.units import parse_frequency, parse_value
 
@@ -74,25 +75,8 @@ def load_readings(path, circuit=None, meters=None, *, require_values=True) -> li
     TypeError
         ``path`` is not a str or path-like object.
     """
-    if not isinstance(path, (str, os.PathLike)):
-        raise TypeError(f"path must be a str or os.PathLike, not {type(path).__name__}")
+    text = read_text(path, ReadingsError, "readings file", hint="save the file as 'CSV UTF-8'")
     name = os.fspath(path)
-    try:
-        with open(path, "rb") as f:
-            data = f.read()
-    except FileNotFoundError:
-        raise ReadingsError("no such readings file", file=name) from None
-    except IsADirectoryError:
-        raise ReadingsError("is a directory, not a readings file", file=name) from None
-    except OSError as exc:
-        raise ReadingsError(f"cannot read the readings file: {exc.strerror or exc}",
-                            file=name) from None
-    try:
-        text = data.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        line = data[:exc.start].count(b"\n") + 1
-        raise ReadingsError(f"not UTF-8 text (byte 0x{data[exc.start]:02x}): save the file "
-                            "as 'CSV UTF-8'", file=name, line=line) from None
     return parse_readings(text, name, circuit, meters, require_values=require_values)
 
 

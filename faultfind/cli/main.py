@@ -15,6 +15,7 @@ from .. import __version__
 from ..errors import FaultfindError, InputError, SolveError
 from . import check as check_cmd
 from . import diagnose as diagnose_cmd
+from . import drill as drill_cmd
 from . import expect as expect_cmd
 from . import log as log_cmd
 from . import suggest as suggest_cmd
@@ -22,7 +23,7 @@ from . import ui as ui_cmd
 
 __all__ = ["main", "build_parser"]
 
-COMMANDS = (check_cmd, expect_cmd, diagnose_cmd, suggest_cmd, log_cmd, ui_cmd)
+COMMANDS = (check_cmd, expect_cmd, diagnose_cmd, suggest_cmd, log_cmd, drill_cmd, ui_cmd)
 
 
 class _Parser(argparse.ArgumentParser):

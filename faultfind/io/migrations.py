@@ -139,12 +139,46 @@ _STRIKE_OUT = (
         END""",
 )
 
+_DRILLS = (
+    # One row per finished drill (faultfind/drill.py): who, on which board, the hidden fault,
+    # the verdict and its score.  ``document`` is the drill's whole JSON result (transcript,
+    # score breakdown, explanation).
+    """CREATE TABLE drills (
+        id              INTEGER PRIMARY KEY AUTOINCREMENT,
+        apprentice      TEXT NOT NULL CHECK (length(trim(apprentice)) > 0),
+        started_at      TEXT NOT NULL,
+        finished_at     TEXT NOT NULL,
+        circuit_name    TEXT NOT NULL,
+        circuit_title   TEXT NOT NULL DEFAULT '',
+        seed            INTEGER NOT NULL,
+        fault_ref       TEXT,
+        fault_mode      TEXT,
+        fault_value     REAL,
+        verdict_ref     TEXT,
+        verdict_mode    TEXT,
+        verdict_value   REAL,
+        correct         INTEGER NOT NULL CHECK (correct IN (0, 1)),
+        readings        INTEGER NOT NULL CHECK (readings >= 0),
+        effort          REAL NOT NULL CHECK (effort >= 0),
+        advice_readings INTEGER NOT NULL CHECK (advice_readings >= 0),
+        advice_effort   REAL NOT NULL CHECK (advice_effort >= 0),
+        safety_errors   INTEGER NOT NULL CHECK (safety_errors >= 0),
+        hints           INTEGER NOT NULL CHECK (hints >= 0),
+        score           INTEGER NOT NULL CHECK (score BETWEEN 0 AND 100),
+        version         TEXT NOT NULL,
+        document        TEXT NOT NULL
+    )""",
+    "CREATE INDEX drills_by_apprentice ON drills (apprentice COLLATE NOCASE, finished_at)",
+)
+
 #: Every migration, oldest first; ``MIGRATIONS[i].version == i + 1``.
 MIGRATIONS: tuple[Migration, ...] = (
     Migration(1, "0001_initial", _INITIAL,
               "sessions, readings, diagnosis snapshots and outcomes"),
     Migration(2, "0002_strike_out_readings", _STRIKE_OUT,
               "readings can be struck out with a reason, never changed or removed"),
+    Migration(3, "0003_drills", _DRILLS,
+              "drill results per apprentice: hidden fault, verdict, score and transcript"),
 )
 
 #: The schema version this faultfind writes.

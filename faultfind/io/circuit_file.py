@@ -15,6 +15,7 @@ import tomllib
 
 from faultfind.engine.topology import dangling_nodes, floating_nodes, voltage_loops
 from faultfind.errors import CircuitError, UnitError
+from faultfind.io.fast_toml import loads_subset
 from faultfind.io.textfile import read_text
 from faultfind.model import KINDS, Circuit, Part
 from faultfind import units
@@ -166,7 +167,9 @@ class _Reader:
     # -- the file -----------------------------------------------------------
     def read(self) -> Circuit:
         try:
-            doc = tomllib.loads(self.text)
+            doc = loads_subset(self.text)  # fast path for plain files; None: use tomllib
+            if doc is None:
+                doc = tomllib.loads(self.text)
         except tomllib.TOMLDecodeError as err:
             self.syntax_error(str(err))
         for key in doc:

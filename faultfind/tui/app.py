@@ -65,11 +65,12 @@ class FaultfindApp(App[int]):
     CSS_PATH = "app.tcss"
     TITLE = "faultfind"
     ENABLE_COMMAND_PALETTE = False
-    HORIZONTAL_BREAKPOINTS = [(0, "-narrow"), (112, "-wide")]
     BINDINGS = [
-        Binding("ctrl+q", "quit", "quit", priority=True),
+        Binding("ctrl+q", "quit", "quit", priority=True,
+                tooltip="quit (every reading is in the logbook already)"),
         Binding("ctrl+c", "quit", "quit", show=False, priority=True),
-        Binding("f2", "toggle_daylight", "daylight", show=False),
+        Binding("f2", "toggle_daylight", "daylight", show=False,
+                tooltip="daylight colours, for a screen in the sun (again: back)"),
     ]
 
     def __init__(self, circuit=None, *, logbook=None, meters=None, cases=None, export_dir=None):
@@ -84,7 +85,8 @@ class FaultfindApp(App[int]):
         self.cases_dir = None if cases is None else Path(cases)
         self.export_dir = Path(export_dir) if export_dir is not None else None
         self.acknowledged_at: str | None = None
-        self.book = None  # faultfind.io.logbook.Logbook once opened
+        self.book = None
+        self._quitting = False  # faultfind.io.logbook.Logbook once opened
 
     # -- start-up ------------------------------------------------------------------------
 
@@ -132,7 +134,22 @@ class FaultfindApp(App[int]):
     def action_toggle_daylight(self) -> None:
         self.theme = THEMES[1].name if self.theme == THEMES[0].name else THEMES[0].name
 
-    async def action_quit(self) -> None:
+    def action_quit(self) -> None:
+        """Quit; a reading whose Enter was just pressed is committed first."""
+        if not self._quitting:
+            self._quitting = True
+            self.run_worker(self._quit_after_commits(), group="quit", exclusive=True)
+
+    async def _quit_after_commits(self) -> None:
+        import asyncio
+
+        for _ in range(10):  # let keys typed just before reach the entry and its commit
+            await asyncio.sleep(0.02)
+            busy = [w for w in self.workers if w.group == "commit" and not w.is_finished]
+            if busy:
+                for w in busy:
+                    await w.wait()
+                break
         self.exit(return_code=0)
 
 

@@ -202,13 +202,13 @@ class Bench:
             return None
         if need == "off":
             return ("refused: the circuit is marked LIVE. A resistance reading needs it "
-                    "isolated, locked out, verified dead and discharged (the ohmmeter's own "
-                    "current would give a wrong reading and can damage the meter). Press o "
-                    "when it is isolated.")
+                    "isolated, locked out, verified dead and discharged (on a live circuit the "
+                    "ohmmeter reads wrong and can be damaged). When it is, mark it isolated: "
+                    "ctrl+o (o outside the entry).")
         return ("refused: the circuit is marked ISOLATED. Voltage and current readings are "
-                "compared with the energized circuit; a 0 V reading on an isolated circuit "
-                "is your verify-dead check, not a diagnosis reading. Press o when power is "
-                "back on.")
+                "compared with the energized circuit (a 0 V reading now is your verify-dead "
+                "check, not a diagnosis reading). When power is back on, mark it live: "
+                "ctrl+o (o outside the entry).")
 
     def interpret(self, text: str, *, require_value=True) -> Reading:
         """The reading a typed line means, checked as a readings-file row.
@@ -304,7 +304,7 @@ class Bench:
         worked out again for the declared state (isolating or re-energizing
         is part of a reading's effort).
         """
-        if self.stored is not None and self.suggested_power == self.power:
+        if self.suggested_power == self.power:
             return self.suggested
         from faultfind.advise import suggest, suggestion_json
 

@@ -17,9 +17,8 @@ from textual import on, work
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Horizontal, Vertical
-from textual.markup import escape
 from textual.screen import Screen
-from textual.widgets import Footer, Static, TabbedContent, TabPane
+from textual.widgets import Footer, Input, Static, TabbedContent, TabPane
 
 from ..widgets.checks import ChecksView
 from ..widgets.entry import ReadingEntry
@@ -27,7 +26,7 @@ from ..widgets.findings import FindingsView
 from ..widgets.next_reading import NextReading
 from ..widgets.status import StatusLine
 from ..widgets.tables import PartsTable, ReadingsTable
-from ..widgets.text import BAND_WORDS, hypothesis_label, tag
+from ..widgets.text import BAND_WORDS, hypothesis_label, short_label, tag
 
 __all__ = ["BenchScreen", "WIDE"]
 
@@ -45,21 +44,34 @@ class BenchScreen(Screen):
 
     CSS_PATH = "bench.tcss"
     BINDINGS = [
-        Binding("n,slash", "new_reading", "reading"),
-        Binding("t,space", "take_next", "take next"),
-        Binding("o,ctrl+o", "power", "power on/off"),
-        Binding("c", "close_out", "close out"),
-        Binding("x", "export", "report"),
-        Binding("h", "history", "history"),
-        Binding("f1,question_mark", "help", "help"),
-        Binding("k", "strike", "strike out the selected reading (tab 2)", show=False),
-        Binding("1", "view('findings')", "findings tab", show=False),
-        Binding("2", "view('readings')", "readings tab", show=False),
-        Binding("3", "view('parts')", "parts tab", show=False),
-        Binding("4", "view('checks')", "checks tab", show=False),
-        Binding("escape", "leave_entry", "leave the reading entry", show=False),
-        Binding("f5", "rediagnose", "diagnose again", show=False),
-        Binding("ctrl+n", "new_session", "start another session", show=False),
+        Binding("n,slash", "new_reading", "reading", tooltip="type a reading in the entry"),
+        Binding("t,space", "take_next", "next",
+                tooltip="take the NEXT READING: the entry opens with its probe points "
+                        "filled in; type the display, Enter"),
+        Binding("o,ctrl+o", "power", "power",
+                tooltip="say the circuit is isolated, or live again (resistance readings "
+                        "need it isolated; voltage and current readings need it live)"),
+        Binding("c", "close_out", "close",
+                tooltip="close out: what was found, how it was confirmed, what was done"),
+        Binding("x", "export", "report",
+                tooltip="export the work-order report (HTML with a chart, or Markdown)"),
+        Binding("h", "history", "history", tooltip="earlier sessions of this unit"),
+        Binding("f1,question_mark", "help", "help", tooltip="this help"),
+        Binding("k", "strike", "strike out", show=False,
+                tooltip="strike out the reading selected in tab 2 (it is kept, with a "
+                        "reason, and no longer counts)"),
+        Binding("1", "view('findings')", "findings", show=False,
+                tooltip="findings: ranked faults with probabilities, and why"),
+        Binding("2", "view('readings')", "readings", show=False,
+                tooltip="readings taken, each against its healthy band"),
+        Binding("3", "view('parts')", "parts", show=False,
+                tooltip="parts: nominal, tolerance, live estimate"),
+        Binding("4", "view('checks')", "checks", show=False,
+                tooltip="checks: parts the readings cannot tell apart, what to re-check"),
+        Binding("escape", "leave_entry", "leave", show=False, tooltip="leave the entry"),
+        Binding("f5", "rediagnose", "diagnose", show=False, tooltip="diagnose again"),
+        Binding("ctrl+n", "new_session", "new session", show=False,
+                tooltip="start another session (back to the opening screen)"),
     ]
     #: Keys of the reading entry, for help.
     HELP_EXTRA = (("Tab", "in the entry: complete a kind, node or part name"),
@@ -68,8 +80,9 @@ class BenchScreen(Screen):
     def __init__(self, bench) -> None:
         super().__init__(id="bench")
         self.bench = bench
-        self._gen = 0
-        self._lock = threading.Lock()
+        self._analysis_gen = 0
+        self._pending_diagnosis = False
+        self._analysis_lock = threading.Lock()
         self._committing = False
         self.working = False
 
@@ -99,6 +112,10 @@ class BenchScreen(Screen):
     def on_mount(self) -> None:
         self.show_all()
         self._arrange(self.app.size.width)
+        b = self.bench
+        if b.stored is not None and b.readings() and not self._needs_diagnosis():
+            b.suggested = list(b.stored.document.get("suggestions", []))
+            b.suggested_power = b.implied_power()
         self.analyse(diagnose=self._needs_diagnosis())
 
     def on_resize(self, event) -> None:
@@ -135,13 +152,16 @@ class BenchScreen(Screen):
         doc = self._doc()
         if doc and doc.get("hypotheses"):
             h = doc["hypotheses"][0]
-            status.show_session(b, doc["verdict"], hypothesis_label(b.circuit, h["faults"]),
+            status.show_session(b, doc["verdict"], short_label(b.circuit, h["faults"]),
                                 h["probability"])
         else:
             status.show_session(b, doc["verdict"] if doc else None)
 
-    def show_readings(self) -> None:
-        self.query_one("#readings-table", ReadingsTable).show(self.bench.assessed())
+    def show_readings(self, assessed=None) -> None:
+        """Redraw the readings table (``assessed``: worked out already, in a worker)."""
+        if assessed is None:
+            assessed = self.bench.assessed()
+        self.query_one("#readings-table", ReadingsTable).show(assessed)
 
     def show_findings(self) -> None:
         b = self.bench
@@ -153,9 +173,8 @@ class BenchScreen(Screen):
         self.query_one("#checks-view", ChecksView).show(doc)
         alert = self.query_one("#alert", Static)
         if doc and doc.get("verdict") == "inconsistent":
-            first = (doc.get("recheck") or ["check the readings"])[0]
-            alert.update(tag("warn", "⚠ INCONSISTENT READINGS") + " · no explanation fits · "
-                         + escape(first) + tag("muted", " · more: 4"))
+            alert.update(tag("warn", "⚠ INCONSISTENT READINGS") + ": no explanation fits. "
+                         "What to re-check: tab 4.")
             alert.display = True
         else:
             alert.display = False
@@ -184,29 +203,36 @@ class BenchScreen(Screen):
         return s is None or s.last_seq < last or s.reading_count != len(live)
 
     def analyse(self, *, diagnose: bool = True) -> None:
-        """Run the diagnosis (when ``diagnose``) and the advice again, in a worker."""
-        self._gen += 1
+        """Run the diagnosis (when ``diagnose``) and the advice again, in a worker.
+
+        Analyses run one at a time; one that a newer request overtakes before it
+        starts leaves the work to the newer one, and a diagnosis asked for is never
+        dropped (``_pending_diagnosis``)."""
+        self._analysis_gen += 1
         self.working = True
         b = self.bench
-        if not diagnose and b.stored is not None and b.readings():
-            b.suggested = list(b.stored.document.get("suggestions", []))
-            b.suggested_power = b.implied_power()
-        self._analysis(self._gen, diagnose)
+        if diagnose:
+            self._pending_diagnosis = True
+        self._analysis(self._analysis_gen)
 
     @work(thread=True, group="analysis")
-    def _analysis(self, gen: int, diagnose: bool) -> None:
+    def _analysis(self, gen: int) -> None:
         app = self.app
         b = self.bench
-        with self._lock:
-            if gen != self._gen or not b.is_open:
+        with self._analysis_lock:
+            if gen != self._analysis_gen or not b.is_open:
                 app.call_from_thread(self._analysis_done, gen)
                 return
             try:
-                if diagnose and b.readings():
-                    app.call_from_thread(self._busy, gen, 1, "ranking fault hypotheses")
-                    b.diagnose()
-                    app.call_from_thread(self._diagnosed, gen)
-                if gen == self._gen:
+                if self._pending_diagnosis:
+                    self._pending_diagnosis = False
+                    if b.readings():
+                        app.call_from_thread(self._busy, gen, 1, "ranking fault hypotheses")
+                        b.diagnose()
+                    else:  # every reading struck out: back to the advice before readings
+                        b.suggested_power = None
+                    app.call_from_thread(self._diagnosed)
+                if gen == self._analysis_gen:
                     app.call_from_thread(self._busy, gen, 2, "choosing the next reading")
                     b.suggestions()
             except Exception as exc:  # noqa: BLE001 - shown in the findings, not raised
@@ -214,22 +240,21 @@ class BenchScreen(Screen):
             app.call_from_thread(self._analysis_done, gen)
 
     def _busy(self, gen: int, step: int, text: str) -> None:
-        if gen == self._gen:
+        if gen == self._analysis_gen:
             self.query_one(StatusLine).busy(step, text)
 
-    def _diagnosed(self, gen: int) -> None:
-        if gen == self._gen:
-            self.show_findings()
+    def _diagnosed(self) -> None:
+        self.show_findings()  # bench.stored is always the newest diagnosis
 
     def _analysis_failed(self, gen: int, exc: Exception) -> None:
-        if gen != self._gen or not self.bench.is_open:
+        if gen != self._analysis_gen or not self.bench.is_open:
             return
         text = tag("bad", f"✗ the diagnosis failed: {exc}")
         for view in self.query(FindingsView):
-            view.query_one("#findings-body", Static).update(text)
+            view.fail(text)
 
     def _analysis_done(self, gen: int) -> None:
-        if gen != self._gen:
+        if gen != self._analysis_gen:
             return
         self.working = False
         self.query_one(StatusLine).idle()
@@ -269,6 +294,38 @@ class BenchScreen(Screen):
     def action_leave_entry(self) -> None:
         self.entry.leave()
 
+    def on_key(self, event) -> None:
+        """Open the entry at once on n or t, and put keys typed before it had the focus
+        into it.  A key event goes to the widget focused when it arrives and reaches the
+        screen before the app runs the bindings, so keys typed quickly after n would
+        otherwise be lost or taken as commands.  A printable key that reaches the screen
+        was not taken by the entry (the entry stops those it takes)."""
+        entry = self.entry
+        inp = entry.input
+        if inp.disabled:
+            return
+        if not entry.has_class("open"):
+            if isinstance(self.app.focused, Input):
+                return
+            if event.key in ("n", "slash"):
+                self.action_new_reading()
+            elif event.key in ("t", "space"):
+                self.action_take_next()
+            else:
+                return
+        elif event.is_printable and event.character:
+            inp.insert_text_at_cursor(event.character)
+        elif inp.has_focus:
+            return
+        elif event.key == "backspace":
+            inp.action_delete_left()
+        elif event.key == "enter":
+            self.post_message(ReadingEntry.Commit(inp.value))
+        else:
+            return
+        event.stop()
+        event.prevent_default()
+
     @on(ReadingEntry.Commit)
     def _commit(self, message: ReadingEntry.Commit) -> None:
         if self._committing or self._closed_say():
@@ -284,10 +341,15 @@ class BenchScreen(Screen):
         except Exception as exc:  # noqa: BLE001 - bad input or a logbook problem: shown
             self.app.call_from_thread(self._commit_failed, exc)
             return
-        self.app.call_from_thread(self._committed, logged)
+        try:
+            assessed = self.bench.assessed()
+        except Exception:  # noqa: BLE001 - the reading is stored; the table catches up
+            assessed = None
+        self.app.call_from_thread(self._committed, logged, assessed)
 
     def _commit_failed(self, exc: Exception) -> None:
         self._committing = False
+        self.entry.sticky = self.entry.input.value
         msg = getattr(exc, "message", None) or str(exc)
         key = getattr(exc, "key", None)
         if key == "power":
@@ -297,10 +359,10 @@ class BenchScreen(Screen):
             self.entry.say(tag("bad", f"✗ {prefix}{msg}") + tag("muted", " · nothing stored"))
         self.entry.input.focus()
 
-    def _committed(self, logged) -> None:
+    def _committed(self, logged, assessed) -> None:
         self._committing = False
-        a = next((x for x in self.bench.assessed() if x.logged.seq == logged.seq), None)
-        self.show_readings()
+        a = next((x for x in assessed or () if x.logged.seq == logged.seq), None)
+        self.show_readings(assessed)
         self.entry.input.value = ""
         self.entry.leave()
         from faultfind.io.report import describe_reading
@@ -330,7 +392,7 @@ class BenchScreen(Screen):
         self.show_next()
         text = self.entry.input.value
         if text.strip():
-            self.entry.update_preview(text)
+            self.entry.update_preview(text, force=True)
         self.analyse(diagnose=False)
 
     # -- close-out, export, history, strike ----------------------------------------------
@@ -347,18 +409,19 @@ class BenchScreen(Screen):
         if self._closed_say():
             return
         doc = self._doc()
-        self.app.push_screen(CloseoutScreen(self.bench, doc), self._closed)
+        self.app.push_screen(CloseoutScreen(self.bench, doc), self._after_closeout)
 
-    def _closed(self, done) -> None:
+    def _after_closeout(self, done) -> None:
         if not done:
             return
-        self._gen += 1  # any analysis still running is for an open session: drop it
+        self._analysis_gen += 1  # any analysis still running is for an open session: drop it
         self.working = False
         self.query_one(StatusLine).idle()
         self.entry.input.value = ""
         self.entry.input.disabled = True
         self.entry.leave()
         self.show_all()
+        self.refresh_bindings()
         self.action_export()
 
     def action_export(self) -> None:
@@ -398,6 +461,14 @@ class BenchScreen(Screen):
             self.analyse(diagnose=True)
 
     # -- small things --------------------------------------------------------------------
+
+    _OPEN_ONLY = ("new_reading", "take_next", "power", "close_out", "strike", "rediagnose")
+
+    def check_action(self, action: str, parameters) -> bool | None:
+        """A closed session's keys for readings and close-out leave the footer."""
+        if action in self._OPEN_ONLY and not self.bench.is_open:
+            return False
+        return True
 
     def action_view(self, name: str) -> None:
         tabs = self.query_one("#views", TabbedContent)

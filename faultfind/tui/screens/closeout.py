@@ -58,6 +58,7 @@ class CloseoutScreen(ModalScreen[bool]):
             with Grid(id="closeout-form"):
                 yield Static("found", classes="form-label")
                 yield Input(prefill_found(self.doc), id="found", compact=True,
+                            select_on_focus=False,
                             placeholder="REF:MODE, e.g. F1:open; none: no fault found")
                 yield Static("confirmed by", classes="form-label")
                 yield Input(id="confirmed", compact=True,
@@ -72,13 +73,13 @@ class CloseoutScreen(ModalScreen[bool]):
 
     def on_mount(self) -> None:
         self.query_one("#found", Input).focus()
-        self._check(self.query_one("#found", Input).value)
+        self._check_found(self.query_one("#found", Input).value)
 
     @on(Input.Changed, "#found")
     def _found_changed(self, event: Input.Changed) -> None:
-        self._check(event.value)
+        self._check_found(event.value)
 
-    def _check(self, text: str) -> None:
+    def _check_found(self, text: str) -> None:
         from ..bench import parse_found
 
         out = self.query_one("#closeout-check", Static)

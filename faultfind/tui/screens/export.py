@@ -52,10 +52,10 @@ class ExportScreen(ModalScreen[str | None]):
     @on(Input.Submitted)
     def _submit(self, event: Input.Submitted) -> None:
         self.query_one("#export-message", Static).update("… writing")
-        self._write(event.value)
+        self._write_report(event.value)
 
     @work(thread=True, exclusive=True)
-    def _write(self, path: str) -> None:
+    def _write_report(self, path: str) -> None:
         try:
             fmt, written = self.bench.export(path)
         except Exception as exc:  # noqa: BLE001 - InputError: shown, nothing written

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from textual.app import ComposeResult
 from textual.binding import Binding
-from textual.containers import Vertical, VerticalScroll
+from textual.containers import Grid, Vertical, VerticalScroll
 from textual.screen import ModalScreen, Screen
 from textual.widgets import Static
 
@@ -47,7 +47,8 @@ def key_names(keys: str) -> str:
 
 
 def bindings_of(*classes) -> list[tuple[str, str]]:
-    """(keys, description) of every binding of these classes, in order, once each."""
+    """(keys, text) of every binding of these classes, in order, once each (the
+    binding's tooltip, else its description)."""
     seen, out = set(), []
     for cls in classes:
         for b in getattr(cls, "BINDINGS", []):
@@ -56,7 +57,7 @@ def bindings_of(*classes) -> list[tuple[str, str]]:
             if b.action in seen or not b.description:
                 continue
             seen.add(b.action)
-            out.append((key_names(b.key), b.description))
+            out.append((key_names(b.key), b.tooltip or b.description))
     return out
 
 
@@ -81,16 +82,19 @@ class HelpScreen(ModalScreen[None]):
 
     def compose(self) -> ComposeResult:
         rows = bindings_of(type(self.for_screen)) + self.extra + bindings_of(type(self.app))
-        width = max((len(k) for k, _ in rows), default=4) + 2
-        keys = "\n".join(f"{k:<{width}}{d}" for k, d in rows)
-        steps = "\n".join(f"{i}. {s}" for i, s in enumerate(FIRST_USE, 1))
         with Vertical(id="help-box"):
             yield Static("HELP · Esc closes", id="help-title")
             with VerticalScroll(id="help-body"):
-                yield Static("Keys", classes="help-head")
-                yield Static(keys, id="help-keys", markup=False)
                 yield Static("First use", classes="help-head")
-                yield Static(steps, id="help-steps", markup=False)
+                with Grid(id="help-steps", classes="help-grid"):
+                    for i, step in enumerate(FIRST_USE, 1):
+                        yield Static(f"{i}.", classes="help-key")
+                        yield Static(step, markup=False)
+                yield Static("Keys", classes="help-head")
+                with Grid(id="help-keys", classes="help-grid"):
+                    for keys, text in rows:
+                        yield Static(keys, classes="help-key", markup=False)
+                        yield Static(text, markup=False)
                 yield Static("Full guide: docs/ui.md · safety: docs/safety.md",
                              classes="muted")
 

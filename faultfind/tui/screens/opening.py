@@ -29,10 +29,13 @@ class OpeningScreen(Screen):
     """Choose the circuit and the session."""
 
     CSS_PATH = "opening.tcss"
+    AUTO_FOCUS = None
     BINDINGS = [
-        Binding("f1,question_mark", "help", "help"),
-        Binding("ctrl+s", "start", "start session"),
-        Binding("ctrl+l", "focus_list", "list", show=False),
+        Binding("f1,question_mark", "help", "help", tooltip="this help"),
+        Binding("ctrl+s", "start", "start session",
+                tooltip="start the session (Enter in any field does too)"),
+        Binding("ctrl+l", "focus_list", "list", show=False,
+                tooltip="back to the list of sessions and field cases"),
     ]
 
     def __init__(self) -> None:
@@ -83,18 +86,35 @@ class OpeningScreen(Screen):
         if self.sessions:
             ol.add_option(Option("OPEN SESSIONS · Enter resumes", disabled=True))
             for sid, s in self.sessions.items():
-                ol.add_option(Option(f"▸ #{sid} {s.unit} · {s.reading_count} reading(s)",
+                ol.add_option(Option(_one_line(f"▸ #{sid} {s.unit} · {s.reading_count} "
+                                               f"reading(s) · {s.circuit_title}"),
                                      id=f"session:{sid}"))
         if self.cases:
             ol.add_option(Option("FIELD CASES · Enter picks", disabled=True))
             for name, case in self.cases.items():
-                ol.add_option(Option(f"◇ {case.title}", id=f"case:{name}"))
+                ol.add_option(Option(_one_line(f"◇ {case.title}"), id=f"case:{name}"))
         if ol.option_count:
-            first = next(i for i in range(ol.option_count) if not ol.get_option_at_index(i).disabled)
-            ol.highlighted = first
+            ol.highlighted = self._initial_highlight(ol)
         else:
             self.query_one("#about", Static).update(
                 "No field cases found here. Type the path of a circuit file below.")
+
+    def _initial_highlight(self, ol) -> int:
+        """The case of the circuit named on the command line, else the first choice."""
+        from pathlib import Path
+
+        named = self.app.circuit_path
+        usable = [i for i in range(ol.option_count) if not ol.get_option_at_index(i).disabled]
+        if named:
+            try:
+                target = Path(named).resolve()
+            except OSError:
+                target = None
+            for i in usable:
+                oid = ol.get_option_at_index(i).id or ""
+                if oid.startswith("case:") and self.cases[oid[5:]].circuit.resolve() == target:
+                    return i
+        return usable[0]
 
     @work(thread=True, exclusive=True, group="sessions")
     def _load_sessions(self) -> None:
@@ -117,9 +137,7 @@ class OpeningScreen(Screen):
         about = self.query_one("#about", Static)
         if oid.startswith("case:"):
             case = self.cases[oid[5:]]
-            about.update(f"{case.title}\n\n{case.description}")
-            if self.query_one("#choices", OptionList).has_focus:
-                self.query_one("#circuit", Input).value = _shown_path(case.circuit)
+            about.update(f"{case.title}\n\n{case.description}\n\nEnter picks it.")
         elif oid.startswith("session:"):
             s = self.sessions[int(oid[8:])]
             about.update(f"Session {s.id} · unit {s.unit} · {s.purpose}\n"
@@ -129,7 +147,7 @@ class OpeningScreen(Screen):
                          f"{s.latest_verdict or '—'}\n\nEnter resumes it.")
 
     @on(OptionList.OptionSelected, "#choices")
-    def _selected(self, event: OptionList.OptionSelected) -> None:
+    def _option_selected(self, event: OptionList.OptionSelected) -> None:
         oid = event.option.id or ""
         if oid.startswith("session:"):
             self._resume(int(oid[8:]))
@@ -164,10 +182,10 @@ class OpeningScreen(Screen):
                       location=self.query_one("#location", Input).value.strip(),
                       purpose=self.query_one("#purpose", Select).value)
         self._say("… starting the session", "muted")
-        self._start(circuit, fields)
+        self._start_worker(circuit, fields)
 
     @work(thread=True, exclusive=True, group="start")
-    def _start(self, circuit: str, fields: dict) -> None:
+    def _start_worker(self, circuit: str, fields: dict) -> None:
         from ..bench import Bench
 
         app = self.app
@@ -216,6 +234,11 @@ class OpeningScreen(Screen):
 
     def action_focus_list(self) -> None:
         self.query_one("#choices", OptionList).focus()
+
+
+def _one_line(text: str) -> str:
+    """An option prompt (opening.tcss keeps it to one line, cut with an ellipsis)."""
+    return text
 
 
 def _shown_path(path) -> str:

@@ -61,11 +61,12 @@ class ReadingEntry(Vertical):
     def __init__(self, bench, **kwargs) -> None:
         super().__init__(**kwargs)
         self.bench = bench
+        self.sticky: str | None = None  # a line whose commit failed: keep that message
 
     def compose(self) -> ComposeResult:
         yield EntryInput(placeholder="n: type a reading · t: take the NEXT READING",
                          suggester=EntrySuggester(self.bench.circuit), id="entry-input",
-                         compact=True)
+                         compact=True, select_on_focus=False)
         yield Static(id="entry-check")
         yield Static(id="entry-hint")
 
@@ -110,18 +111,25 @@ class ReadingEntry(Vertical):
         event.stop()
         self.update_preview(event.value)
 
-    def update_preview(self, text: str) -> None:
-        comp = complete(text, self.bench.circuit)
+    def update_preview(self, text: str, *, force: bool = False) -> None:
+        """Redraw the hint and check lines for ``text`` (``force``: also after a failed
+        commit of the same line)."""
+        if force:
+            self.sticky = None
+        inp = self.input
+        head = text[:inp.cursor_position] if inp.value == text else text
+        comp = complete(head, self.bench.circuit)
         self._show_hint(comp)
         if not text.strip():
-            self.say(tag("muted", f"e.g. {EXAMPLES}"))
+            if inp.has_focus:
+                self.say(tag("muted", f"e.g. {EXAMPLES}"))
             return
         self._preview(text)
 
     def _show_hint(self, comp) -> None:
         if comp.what == "value":
-            self.hint(tag("muted", "the display as shown: 23.91 · 23.91 V · 4k61 · 2.45 mA · "
-                                   "OL · then optionally @ FREQ and # label"))
+            self.hint(tag("muted", "display: 23.91 · 23.91 V · 4k61 · 2.45 mA · OL "
+                                   "(then @ FREQ, # label)"))
             return
         if comp.what in ("label", "frequency", "row"):
             self.hint("")
@@ -144,8 +152,11 @@ class ReadingEntry(Vertical):
         self.app.call_from_thread(self._preview_done, text, msg)
 
     def _preview_done(self, text: str, msg: str) -> None:
-        if self.input.value == text:
+        if self.input.value == text and self.sticky != text:
             self.say(msg)
+
+    def on_input_blurred(self, event: Input.Blurred) -> None:
+        self.remove_class("open")
 
     def on_input_submitted(self, event: Input.Submitted) -> None:
         event.stop()
@@ -164,5 +175,5 @@ def _preview_markup(pv) -> str:
     if not pv.ok:
         return f"{escape(pv.text)} · {tag('muted', band)}"
     sym, words, kind = BAND_WORDS[pv.status]
-    return (f"{tag('ok', '✓')} {escape(pv.text)} · {escape(band)} · "
+    return (f"{tag('ok', '↵')} {escape(pv.text)} · {escape(band)} · "
             f"{tag(kind, f'{sym} {words}')} · {tag('muted', 'Enter stores it')}")

@@ -24,7 +24,7 @@ def describe_suggestion(s: dict) -> str:
         from faultfind.units import format_value
         text += f" @ {format_value(s['frequency'], 'Hz')}"
     label = s.get("label") or ""
-    if label and not label.startswith("node "):
+    if label and not label.startswith(("node ", "through ")):
         text += f" ({label})"
     return text
 
@@ -47,6 +47,10 @@ class NextReading(Static):
             self.border_subtitle = ""
             if working:
                 self.update(tag("muted", "working out the best next reading …"))
+            elif verdict == "inconsistent":
+                self.update(tag("warn", "⚠ Re-check first:") + " the readings that do not fit "
+                            "are listed in tab 4 (press 4). A reading typed wrong is struck out "
+                            "in tab 2 with k.")
             elif verdict == "fault" and best:
                 self.update(f"No reading would change the findings now.\n"
                             f"Confirm {tag('head', best)} with the circuit isolated, then press "

@@ -23,7 +23,7 @@ class ReadingsTable(DataTable):
         self.add_column("reading", key="reading")
         self.add_column("shows", key="shows")
         self.add_column("healthy band", key="band")
-        self.add_column("status", key="status")
+        self.add_column("status", key="status", width=9)  # styled cells: fixed width
         self.add_column("label", key="label")
 
     def show(self, assessed) -> None:
@@ -34,11 +34,13 @@ class ReadingsTable(DataTable):
         for a in assessed:
             lr = a.logged
             status = band_status(a.status)
+            label = lr.reading.label
             if lr.struck:
-                status = Content.from_markup(tag("muted", f"✗ struck: {lr.struck_reason}"))
+                status = Content.from_markup(tag("muted", "✗ struck"))
+                label = f"struck: {lr.struck_reason}" + (f" · {label}" if label else "")
             band = "OL (no path)" if a.expected is None else a.band_text()
             self.add_row(str(lr.seq), describe_reading(lr.reading), a.shown(), band, status,
-                         lr.reading.label, key=str(lr.seq))
+                         label, key=str(lr.seq))
         if self.row_count:
             self.move_cursor(row=self.row_count - 1)
 
@@ -68,14 +70,16 @@ def estimate_note(part, est, fault_mode=None) -> Content:
 
 
 class PartsTable(DataTable):
-    """One row a part: ref, kind, nominal, tolerance, live estimate, ~95 % range, note."""
+    """One row a part: ref, nominal, tolerance, live estimate, note, ~95 % range, kind,
+    label."""
 
     def on_mount(self) -> None:
         self.cursor_type = "row"
         self.zebra_stripes = True
-        for name in ("ref", "kind", "nominal", "tol", "estimate", "~95 % range", "note",
+        for name in ("ref", "nominal", "tol", "estimate", "note", "~95 % range", "kind",
                      "label"):
-            self.add_column(name, key=name)
+            # styled cells get a fixed width (their width is not measured)
+            self.add_column(name, key=name, width=10 if name == "note" else None)
 
     def show(self, circuit, doc) -> None:
         """Rows for every part; estimates from a ``diagnose --json`` document."""
@@ -96,7 +100,7 @@ class PartsTable(DataTable):
                 value = _v(est.get("value"), unit)
                 rng = f"{_v(est.get('low'), unit)} .. {_v(est.get('high'), unit)}"
             note = estimate_note(p, est, modes.get(p.ref)) if doc else Content("—")
-            self.add_row(p.ref, p.kind, nominal, tol, value, rng, note, p.label, key=p.ref)
+            self.add_row(p.ref, nominal, tol, value, note, rng, p.kind, p.label, key=p.ref)
 
 
 def _v(x, unit) -> str:

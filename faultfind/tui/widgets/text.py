@@ -11,7 +11,7 @@ from textual.content import Content
 from textual.markup import escape
 
 __all__ = ["BAND_WORDS", "VERDICT_WORDS", "MARKUP", "tag", "prob_bar", "hypothesis_label",
-           "band_status", "power_text"]
+           "short_label", "band_status", "power_text"]
 
 #: Band status (keys of faultfind.io.report.STATUS) -> (symbol, words, style).
 BAND_WORDS = {
@@ -65,6 +65,33 @@ def hypothesis_label(circuit, faults) -> str:
             out.append(describe_fault(circuit, ns))
         except (KeyError, TypeError, ZeroDivisionError):
             out.append(f"{f['ref']} {f['mode']}")
+    return " + ".join(out)
+
+
+def short_label(circuit, faults) -> str:
+    """A compact label for the ranked list: ``F1 open``, ``R9 → 6.1 kΩ``, ``F1 high R``,
+    ``PS1 → 28.5 V + K1 open``."""
+    from faultfind.units import format_value
+
+    if not faults:
+        return "healthy (no fault)"
+    out = []
+    for f in faults:
+        ref, mode, value = f["ref"], f["mode"], f.get("value")
+        if mode != "drift":
+            out.append(f"{ref} {mode}")
+            continue
+        try:
+            p = circuit.part(ref)
+        except KeyError:
+            out.append(f"{ref} drift")
+            continue
+        if p.kind in ("fuse", "switch"):
+            out.append(f"{ref} high R")
+        elif value is None:
+            out.append(f"{ref} off value")
+        else:
+            out.append(f"{ref} → {format_value(value, p.info.unit or '')}")
     return " + ".join(out)
 
 

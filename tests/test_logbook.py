@@ -516,3 +516,23 @@ def test_ac_case_end_to_end(book):
     best = d.document["hypotheses"][0]["faults"]
     assert [(f["ref"], f["mode"]) for f in best] == [("C1", "drift")]
     assert best[0]["value"] == pytest.approx(22e-9, rel=0.25)
+
+
+def test_power_steps_are_logged_and_reported(tmp_path):
+    """Isolating and re-energizing are steps of the session: logged with their
+    time and shown in the work-order report (issue: every step is logged)."""
+    from faultfind.io import report as rep
+    from faultfind.io.logbook import Logbook
+    from faultfind.io.circuit_file import load_circuit
+    from faultfind.errors import LogbookError
+    case = Path(__file__).resolve().parents[1] / "field_cases" / "booster_pump_panel" / "circuit.toml"
+    with Logbook(tmp_path / "lb.sqlite") as book:
+        s = book.start_session(load_circuit(case), unit="BP-2", circuit_text=case.read_text())
+        book.add_event(s.id, "isolated", "locked out at Q1")
+        book.add_event(s.id, "energized")
+        with pytest.raises(LogbookError, match="event kind"):
+            book.add_event(s.id, "exploded")
+        kinds = [e["kind"] for e in book.events(s.id)]
+        assert kinds == ["isolated", "energized"]
+        md = rep.markdown_report(book.get_session(s.id))
+        assert "Circuit isolated" in md and "Circuit energized" in md

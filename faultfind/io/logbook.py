@@ -376,6 +376,7 @@ class Session(SessionSummary):
     readings: tuple
     diagnoses: tuple
     logbook: str
+    events: tuple = ()
 
     def circuit(self) -> Circuit:
         """The session's circuit, parsed from the stored text."""
@@ -939,6 +940,53 @@ class Logbook:
             c.execute("UPDATE sessions SET caution_acknowledged_at = ? WHERE id = ?", (when, sid))
         return when
 
+    # events
+
+    EVENT_KINDS = ("isolated", "energized", "note")
+
+    @_locked
+    def add_event(self, session_id, kind, text="", *, at=None) -> str:
+        """Record a step of an open session that is not a reading.
+
+        Parameters
+        ----------
+        session_id : int
+        kind : {"isolated", "energized", "note"}
+            The circuit declared isolated (locked out, verified dead,
+            discharged) or energized again, or a free note.
+        text : str
+        at : str or datetime, optional
+            Default now.
+
+        Returns
+        -------
+        str
+            The recorded time.
+
+        Raises
+        ------
+        LogbookError
+            No such session, it is closed, or ``kind`` is unknown.
+        """
+        if kind not in self.EVENT_KINDS:
+            raise LogbookError(f"event kind must be one of {', '.join(self.EVENT_KINDS)}, got {kind!r}",
+                               file=str(self.path), key="kind")
+        sid = self._session_id(session_id)
+        when = _now() if at is None else parse_time(at, "at")
+        with self._write() as c:
+            self._session_row(sid, open_only=True)
+            c.execute("INSERT INTO events (session_id, at, kind, text) VALUES (?, ?, ?, ?)",
+                      (sid, when, kind, str(text)))
+        return when
+
+    @_locked
+    def events(self, session_id) -> list[dict]:
+        """The session's events, oldest first, as dicts (at, kind, text)."""
+        sid = self._session_id(session_id)
+        rows = self._conn.execute(
+            "SELECT at, kind, text FROM events WHERE session_id = ? ORDER BY at, id", (sid,)).fetchall()
+        return [{"at": r[0], "kind": r[1], "text": r[2]} for r in rows]
+
     # readings
 
     def _cells(self, reading, fields) -> dict:
@@ -1307,7 +1355,10 @@ class Logbook:
         return Session(**fields, circuit_text=row["circuit_text"],
                        meters_name=row["meters_name"], meters_text=row["meters_text"],
                        readings=tuple(self._readings(sid)), diagnoses=diagnoses,
-                       logbook=str(self.path))
+                       logbook=str(self.path),
+                       events=tuple(dict(at=r[0], kind=r[1], text=r[2]) for r in self._conn.execute(
+                           "SELECT at, kind, text FROM events WHERE session_id = ? ORDER BY at, id",
+                           (sid,))))
 
     @_locked
     def list_sessions(self, *, unit=None, technician=None, since=None, until=None,

@@ -171,6 +171,19 @@ _DRILLS = (
     "CREATE INDEX drills_by_apprentice ON drills (apprentice COLLATE NOCASE, finished_at)",
 )
 
+_EVENTS = (
+    # Steps of a session that are not readings: the circuit declared isolated or live
+    # again (the UI's power state), and free notes.
+    """CREATE TABLE events (
+        id          INTEGER PRIMARY KEY AUTOINCREMENT,
+        session_id  INTEGER NOT NULL REFERENCES sessions (id) ON DELETE CASCADE,
+        at          TEXT NOT NULL,
+        kind        TEXT NOT NULL CHECK (kind IN ('isolated', 'energized', 'note')),
+        text        TEXT NOT NULL DEFAULT ''
+    )""",
+    "CREATE INDEX events_by_session ON events (session_id, at)",
+)
+
 #: Every migration, oldest first; ``MIGRATIONS[i].version == i + 1``.
 MIGRATIONS: tuple[Migration, ...] = (
     Migration(1, "0001_initial", _INITIAL,
@@ -179,6 +192,8 @@ MIGRATIONS: tuple[Migration, ...] = (
               "readings can be struck out with a reason, never changed or removed"),
     Migration(3, "0003_drills", _DRILLS,
               "drill results per apprentice: hidden fault, verdict, score and transcript"),
+    Migration(4, "0004_session_events", _EVENTS,
+              "session events: circuit isolated or energized, notes"),
 )
 
 #: The schema version this faultfind writes.

@@ -212,7 +212,9 @@ def _header_rows(session) -> list[tuple[str, str]]:
         ("Safety caution acknowledged",
          format_time(session.caution_acknowledged_at) if session.caution_acknowledged_at
          else "NOT RECORDED"),
-    ]
+    ] + [({"isolated": "Circuit isolated", "energized": "Circuit energized"}.get(e["kind"], "Note"),
+          format_time(e["at"]) + (f" ({e['text']})" if e["text"] and e["kind"] == "note" else ""))
+         for e in getattr(session, "events", ())]
 
 
 def _diagnosis_parts(session, circuit):

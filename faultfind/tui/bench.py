@@ -191,6 +191,10 @@ class Bench:
         """Declare the circuit live (``"on"``) or isolated (``"off"``)."""
         if state not in POWER_WORDS:
             raise InputError(f"expected 'on' or 'off', got {state!r}", key="power")
+        if state != self.power and self.is_open:
+            # log the step: isolating (lock-out, verify dead, discharge) or re-energizing
+            self.book.add_event(self.session_id, "isolated" if state == "off" else "energized",
+                                "declared in the terminal UI")
         self.power = state
 
     # -- readings ------------------------------------------------------------------------

@@ -210,3 +210,18 @@ def test_strike_out_a_mistyped_reading(tmp_path):
     run(scenario)
     lr = logbook_sessions(tmp_path)[0].readings[0]
     assert lr.struck and lr.struck_reason == "decimal point slip"
+
+
+def test_power_state_changes_are_logged(tmp_path):
+    """Declaring the circuit isolated, then live again, leaves two events in the
+    logbook session (every step of the UI is logged)."""
+    from pathlib import Path as _P
+    from faultfind.io.logbook import Logbook
+    from faultfind.tui.bench import Bench
+    case = _P(__file__).resolve().parents[2] / "field_cases" / "booster_pump_panel" / "circuit.toml"
+    with Logbook(tmp_path / "lb.sqlite") as book:
+        bench = Bench.start(book, case, unit="BP-2")
+        bench.set_power("off")
+        bench.set_power("off")  # no change, no event
+        bench.set_power("on")
+        assert [e["kind"] for e in book.events(bench.session_id)] == ["isolated", "energized"]

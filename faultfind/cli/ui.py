@@ -1,5 +1,8 @@
 """``faultfind ui [CIRCUIT] [--logbook PATH] [--meters FILE]``: the terminal UI.
 
+``faultfind ui CIRCUIT --drill --apprentice NAME [--seed N] [--fault F]`` opens
+a drill (docs/drill.md) on the drill screen instead, after the caution.
+
 Plain ``faultfind`` with no command runs it too (cli.md).  The circuit and
 meter files named are checked before the UI opens, so that a bad file gets
 the usual message and exit status 2.  The UI opens behind the safety
@@ -24,6 +27,13 @@ def add_parser(sub):
     p.add_argument("--logbook", metavar="PATH",
                    help=f"logbook file (default: ${ENV_VAR}, else the user's data folder)")
     p.add_argument("--meters", metavar="FILE", help="meter profiles file (TOML)")
+    p.add_argument("--drill", action="store_true",
+                   help="run a drill on CIRCUIT instead of a session (docs/drill.md)")
+    p.add_argument("--apprentice", metavar="NAME", help="with --drill: who does the drill")
+    p.add_argument("--seed", type=int, metavar="N",
+                   help="with --drill: repeatable drill (default: a new one, shown)")
+    p.add_argument("--fault", metavar="REF:MODE[:VALUE]",
+                   help="with --drill: the trainer's fault (default: drawn at random)")
     p.set_defaults(run=run)
 
 
@@ -45,8 +55,13 @@ def run(args) -> int:
     circuit = getattr(args, "circuit", None)
     meters = getattr(args, "meters", None)
     logbook = getattr(args, "logbook", None)
+    drill = _drill_options(args)
     if circuit is not None:
-        load_circuit(circuit)
+        loaded = load_circuit(circuit)
+        if drill is not None and drill.get("fault") is not None:
+            from ..drill import parse_fault
+
+            parse_fault(drill["fault"], loaded)
     if meters is not None:
         load_meters(meters)
     path = resolve_logbook_path(logbook)
@@ -58,6 +73,24 @@ def run(args) -> int:
                          "work without it", key="ui")
     from ..tui.app import FaultfindApp
 
-    app = FaultfindApp(circuit, logbook=logbook, meters=meters)
+    app = FaultfindApp(circuit, logbook=logbook, meters=meters, drill=drill)
     code = app.run()
     return code or 0
+
+
+def _drill_options(args):
+    """The app's ``drill`` options from --drill, --apprentice, --seed, --fault (or None)."""
+    extra = [k for k in ("apprentice", "seed", "fault") if getattr(args, k, None) is not None]
+    if not getattr(args, "drill", False):
+        if extra:
+            raise InputError("only with --drill", key="--" + extra[0])
+        return None
+    if getattr(args, "circuit", None) is None:
+        raise InputError("a drill needs a circuit file: faultfind ui CIRCUIT --drill "
+                         "--apprentice NAME", key="--drill")
+    name = args.apprentice
+    if name is None or not name.strip() or "\n" in name or "\r" in name:
+        raise InputError("name the apprentice (one line)", key="--apprentice")
+    if args.seed is not None and args.seed < 0:
+        raise InputError(f"must be a whole number >= 0, got {args.seed}", key="--seed")
+    return {"apprentice": name.strip(), "seed": args.seed, "fault": args.fault}

@@ -60,6 +60,10 @@ class FaultfindApp(App[int]):
     export_dir : str or os.PathLike, optional
         Folder the work-order report is offered in (default: the working
         folder).
+    drill : dict, optional
+        Run a drill instead of a session (``faultfind ui CIRCUIT --drill``):
+        keys ``apprentice`` (required), ``seed`` and ``fault`` (as for
+        :class:`faultfind.drill.Drill`).  The drill screen follows the caution.
     """
 
     CSS_PATH = "app.tcss"
@@ -73,8 +77,16 @@ class FaultfindApp(App[int]):
                 tooltip="daylight colours, for a screen in the sun (again: back)"),
     ]
 
-    def __init__(self, circuit=None, *, logbook=None, meters=None, cases=None, export_dir=None):
+    def __init__(self, circuit=None, *, logbook=None, meters=None, cases=None, export_dir=None,
+                 drill=None):
         super().__init__()
+        if drill is not None and (not isinstance(drill, dict) or "apprentice" not in drill
+                                  or set(drill) - {"apprentice", "seed", "fault"}):
+            raise TypeError("drill: expected a dict with 'apprentice' and optionally 'seed', "
+                            f"'fault', got {drill!r}")
+        if drill is not None and circuit is None:
+            raise TypeError("drill: a drill needs a circuit file")
+        self.drill_options = drill
         for name, value in (("circuit", circuit), ("logbook", logbook), ("meters", meters),
                             ("cases", cases), ("export_dir", export_dir)):
             if value is not None and not isinstance(value, (str, os.PathLike)):
@@ -101,6 +113,11 @@ class FaultfindApp(App[int]):
         from .screens.opening import OpeningScreen
 
         self.acknowledged_at = when
+        if self.drill_options is not None:
+            from .screens.drill import DrillScreen
+
+            self.push_screen(DrillScreen(self.circuit_path, **self.drill_options))
+            return
         self.push_screen(OpeningScreen())
 
     # -- the logbook ---------------------------------------------------------------------

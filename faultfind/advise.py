@@ -24,7 +24,7 @@ from .engine.predict import predict
 from .engine.priors import KIND_WEIGHTS, MODE_SHARES, P_HEALTHY
 from .errors import InputError
 from .io.meters_file import meters_with_default
-from .model import Circuit, Reading
+from .model import QUANTITY_UNITS, Circuit, Reading
 from .units import format_value
 
 __all__ = ["Suggestion", "DEFAULT_COSTS", "suggest", "candidate_readings", "load_costs",
@@ -340,7 +340,7 @@ def _label(circuit, faults):
 
 
 def _why(circuit, rd, kept, probs, mu, mu_s, sd_s, power):
-    unit = {"voltage": "V", "current": "A", "resistance": "Ω"}[rd.quantity]
+    unit = QUANTITY_UNITS[rd.quantity]
     idx = [i for i in np.argsort(-probs)[:6] if probs[i] > 0]
     best, bd = None, 0.0
     for a in idx:

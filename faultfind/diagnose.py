@@ -13,17 +13,17 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .engine.ambiguity import groups_from_hypotheses, groups_from_sensitivity, merge_groups
-from .engine.estimate import Estimate, limit_value, map_estimate
+from .engine.estimate import limit_value, map_estimate
 from .engine.hypotheses import DRIFT_RANGE, Evaluator, Hypothesis, rank_with
 from .engine.predict import predict
 from .eseries import nearest, series_for_tolerance
 from .io.meters_file import meters_with_default
-from .model import Circuit, Reading
+from .model import QUANTITY_UNITS, Circuit, Reading
 from .units import format_value
 
 __all__ = ["Diagnosis", "diagnose", "diagnosis_json", "describe_fault"]
 
-UNITS = {"voltage": "V", "current": "A", "resistance": "Ω"}
+UNITS = QUANTITY_UNITS
 
 
 @dataclass

@@ -49,7 +49,7 @@ from .expect import expect
 from .io.logbook import SAFETY_CAUTION
 from .io.meters_file import meters_with_default
 from .io.readings_file import COLUMNS, parse_readings
-from .model import Circuit, Reading
+from .model import QUANTITY_UNITS, Circuit, Reading
 from .simulate import draw_board, fault_overrides, simulate_readings
 from .units import format_value, parse_value
 
@@ -96,7 +96,7 @@ COMMANDS = {
     "quit": "stop without a verdict (not scored)",
 }
 
-_UNITS = {"voltage": "V", "current": "A", "resistance": "Ω"}
+_UNITS = QUANTITY_UNITS
 _KINDS = {"v": ("voltage", "dc", None), "vdc": ("voltage", "dc", None),
           "vac": ("voltage", "ac", None), "i": ("current", "dc", None),
           "idc": ("current", "dc", None), "iac": ("current", "ac", None),

@@ -14,12 +14,12 @@ import numpy as np
 from .engine.meter import overrange as meter_overrange
 from .engine.spread import tolerance_bands
 from .io.meters_file import meters_with_default
-from .model import Circuit, Reading
+from .model import QUANTITY_UNITS, Circuit, Reading
 
 __all__ = ["Expected", "expect", "survey_readings", "UNITS", "power_state"]
 
 #: Display unit of each quantity.
-UNITS = {"voltage": "V", "current": "A", "resistance": "Ω"}
+UNITS = QUANTITY_UNITS
 
 PASSIVE_KINDS = ("resistor", "capacitor", "inductor", "fuse", "switch")
 

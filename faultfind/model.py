@@ -11,7 +11,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 __all__ = ["KindInfo", "KINDS", "Part", "Circuit", "Reading", "Accuracy", "MeterProfile",
-           "QUANTITIES", "MODES", "SETUPS"]
+           "QUANTITIES", "QUANTITY_UNITS", "MODES", "SETUPS"]
 
 
 @dataclass(frozen=True)
@@ -67,6 +67,8 @@ KINDS: dict[str, KindInfo] = {
 DEFAULT_OPAMP_GAIN = 1.0e5
 
 QUANTITIES = ("voltage", "current", "resistance")
+#: Display unit of each quantity.
+QUANTITY_UNITS = {"voltage": "V", "current": "A", "resistance": "Ω"}
 MODES = ("dc", "ac")
 SETUPS = ("in-circuit", "lifted")
 

@@ -16,12 +16,12 @@ import numpy as np
 
 from .engine.meter import simulate as meter_display
 from .engine.oracle import oracle_readings
-from .model import Circuit, Reading
+from .model import QUANTITY_UNITS, Circuit, Reading
 from .units import format_value
 
 __all__ = ["draw_board", "simulate_readings", "fault_overrides"]
 
-UNITS = {"voltage": "V", "current": "A", "resistance": "Ω"}
+UNITS = QUANTITY_UNITS
 
 
 def draw_board(circuit: Circuit, rng) -> Circuit:

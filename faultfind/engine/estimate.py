@@ -72,7 +72,6 @@ def map_estimate(params, nominal, centre, var_p, S, y, pred, u, use, fixed):
     dict
         ref -> Estimate.
     """
-    m = len(params)
     free = np.array([r not in fixed for r in params], dtype=bool)
     theta = centre.copy()
     var = var_p.copy()

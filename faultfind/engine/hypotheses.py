@@ -31,7 +31,6 @@ from scipy.special import logsumexp
 from scipy.stats import chi2 as chi2_dist
 
 from ..errors import SolveError
-from .bands import log_tolerance
 from .evidence import Evidence
 from .oracle import oracle_readings
 from .predict import analysis_key, lifted_value, parameters, predict
@@ -119,6 +118,17 @@ class Ranking:
     n_readings: int
     fit_p: dict = field(default_factory=dict)
     doubles_tried: bool = False
+
+
+def _occam(sd, spec) -> float:
+    """Log Occam factor of a fitted drift: the posterior width over the prior width.
+
+    ``spec`` is :meth:`Evaluator.drift_range` (search range and tolerance band,
+    in log-value); the prior is uniform over the range outside the band.
+    """
+    lo, hi, blo, bhi = spec
+    span = (hi - lo) - max(0.0, min(hi, bhi) - max(lo, blo))
+    return float(np.log(min(np.sqrt(2 * np.pi) * sd, span) / span))
 
 
 def _display(values, ac_mask):
@@ -295,10 +305,7 @@ class Evaluator(Board):
         return [self.pindex.get(f.ref, -1) for f in faults]
 
     def make(self, faults, pred, drift_sd=None, occam=0.0):
-        parts = [(self.circuit.part(f.ref), f.mode) for f in faults]
-        if not hasattr(self, "_wtotal"):
-            self._wtotal = sum(KIND_WEIGHTS.get(p.kind, 0.0) for p in self.circuit.parts if p.fault_modes)
-        lp = log_prior(self.circuit.parts, parts, self._wtotal)
+        lp = self.prior(faults)
         chi2, ll = self.ev.score(pred, self.drop_cols(faults))
         return Hypothesis(tuple(faults), pred, chi2, ll + occam, lp, lp + ll + occam, drift_sd=drift_sd,
                           occam=occam)
@@ -423,10 +430,9 @@ class Evaluator(Board):
         for i in live:
             p = parts[i]
             lo, hi, blo, bhi = specs[i]
-            span = (hi - lo) - max(0.0, min(hi, bhi) - max(lo, blo))
             if curv[i]:
                 sd = float(np.sqrt(2.0 / curv[i]))
-                occam = float(np.log(min(np.sqrt(2 * np.pi) * sd, span) / span))
+                occam = _occam(sd, specs[i])
             else:
                 sd, occam = None, 0.0
             finals.append((p, "drift", np.array([np.exp(rho[i])])))
@@ -448,14 +454,6 @@ class Evaluator(Board):
         c2 = self.ev.diag_chi2_rows(np.vstack(P), drops)
         return np.split(c2, np.cumsum(sizes)[:-1])
 
-    def fit_drift(self, part):
-        """One part's drift hypothesis (see :meth:`fit_drifts`); None if unseen."""
-        res = self.fit_drifts([part])
-        if not res:
-            return None
-        f, pred, sd, occam = res[0]
-        return self.make([f], pred, drift_sd=sd, occam=occam)
-
     def refit_drift(self, h):
         """Refine a single drift's value on the full-covariance score.
 
@@ -470,7 +468,6 @@ class Evaluator(Board):
         w = h.drift_sd if h.drift_sd else 0.05
         w = float(np.clip(w, 1e-4, 0.5))
         drop = self.drop_cols(h.faults)
-        best_rho, best = rho, None
         for shrink in (2.0, 0.6, 0.2):
             pts = rho + w * shrink * np.array([-1.0, -0.5, 0.0, 0.5, 1.0])
             pts = np.clip(pts, lo, hi)
@@ -493,8 +490,7 @@ class Evaluator(Board):
                     w = float(np.clip(np.sqrt(2.0 / (2 * a)), 1e-5, 0.5))
         pred = self.predict_fault(part, "drift", np.array([np.exp(rho)]))[0]
         fnew = Fault(f.ref, "drift", float(part.value * np.exp(rho)))
-        span = (hi - lo) - max(0.0, min(hi, bhi) - max(lo, blo))
-        occam = float(np.log(min(np.sqrt(2 * np.pi) * w, span) / span))
+        occam = _occam(w, (lo, hi, blo, bhi))
         out = self.make([fnew], pred, drift_sd=w, occam=occam)
         return out if out.log_post >= h.log_post or not np.isfinite(h.log_post) else h
 
@@ -503,9 +499,7 @@ class Evaluator(Board):
         f = h.faults[0]
         if f.mode != "drift" or h.drift_sd is None:
             return 0.0
-        lo, hi, blo, bhi = self.drift_range(self.circuit.part(f.ref))
-        span = (hi - lo) - max(0.0, min(hi, bhi) - max(lo, blo))
-        return float(np.log(min(np.sqrt(2 * np.pi) * h.drift_sd, span) / span))
+        return _occam(h.drift_sd, self.drift_range(self.circuit.part(f.ref)))
 
     def prior(self, faults):
         """Log prior of a list of faults."""
@@ -514,16 +508,6 @@ class Evaluator(Board):
         return log_prior(self.circuit.parts, [(self.circuit.part(f.ref), f.mode) for f in faults],
                          self._wtotal)
 
-    def approx(self, faults, pred, drift_sd=None, occam=0.0):
-        """A cheap score (diagonal covariance) for the first pass over all hypotheses."""
-        parts = [(self.circuit.part(f.ref), f.mode) for f in faults]
-        if not hasattr(self, "_wtotal"):
-            self._wtotal = sum(KIND_WEIGHTS.get(p.kind, 0.0) for p in self.circuit.parts if p.fault_modes)
-        lp = log_prior(self.circuit.parts, parts, self._wtotal)
-        c2, logdet = self.ev.diag_chi2(pred[None, :], self.drop_cols(faults), with_logdet=True)
-        c2 = float(c2[0])
-        ll = -0.5 * (c2 + float(logdet[0])) + occam
-        return Hypothesis(tuple(faults), pred, c2, ll, lp, lp + ll, drift_sd=drift_sd)
 
 
 def rank(circuit, readings, meters, *, doubles=True) -> Ranking:

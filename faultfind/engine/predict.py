@@ -30,7 +30,7 @@ import numpy as np
 
 from ..model import Circuit, MeterProfile, Reading
 from .factor import Factorization
-from .mna import ADMITTANCE, BRANCH, INJECTION, Network, assemble
+from .mna import BRANCH, INJECTION, Network, assemble
 
 __all__ = ["Prediction", "parameters", "predict", "analysis_key"]
 
@@ -197,7 +197,7 @@ def predict(circuit: Circuit, readings, meters: dict, overrides: dict | None = N
         if key[0] == "off":
             value[i], sens[i] = _ohms(circuit, grp, rd, npar)
         else:
-            value[i], sens[i] = _live(circuit, grp, rd, meter, npar)
+            value[i], sens[i] = _live(circuit, grp, rd, meter, npar, pindex)
     mag = np.where(np.isfinite(value), value, np.inf)
     out_val = np.empty(nr)
     out_sens = np.zeros((nr, npar))
@@ -215,7 +215,7 @@ def predict(circuit: Circuit, readings, meters: dict, overrides: dict | None = N
     return Prediction(out_val, value, out_sens, params)
 
 
-def _live(circuit, grp, rd, meter, npar):
+def _live(circuit, grp, rd, meter, npar, pindex):
     net, lu, x = grp.net, grp.lu, grp.x
     N = net.size
     skip = -1
@@ -230,7 +230,7 @@ def _live(circuit, grp, rd, meter, npar):
         kind, k = elem
         if kind == INJECTION:
             g = np.zeros(npar, dtype=complex)
-            j = parameters(circuit).index(rd.part)  # small: once per current-source reading
+            j = pindex[rd.part]
             g[j] = net.inj_i[k]
             return net.inj_i[k], g
         u = np.zeros(N, dtype=net.A.dtype)

@@ -420,7 +420,6 @@ def single(group: Group, t: Term, news) -> np.ndarray:
     if t.kind == "none" or r == 0:
         return np.broadcast_to(base, (nk, r)).copy()
     rt = np.array(g.rtype)
-    live = g.analysis != "off"
     if t.kind == "b":
         delta = (news - t.e0)[:, None]                      # (k, 1)
         dbx = (g.Mu[t.rows, :].T @ t.per_unit)[None, :]    # u_i^T A^{-1} db per unit: (1, r)

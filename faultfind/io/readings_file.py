@@ -29,7 +29,7 @@ import pandas as pd
 
 from faultfind.errors import ReadingsError, UnitError
 from faultfind.io.textfile import read_text
-from faultfind.model import KINDS, MODES, QUANTITIES, SETUPS, Circuit, MeterProfile, Reading
+from faultfind.model import KINDS, MODES, QUANTITIES, QUANTITY_UNITS, SETUPS, Circuit, MeterProfile, Reading
 from faultfind.units import parse_frequency, parse_value
 
 __all__ = ["COLUMNS", "QUANTITY_UNITS", "load_readings", "parse_readings", "readings_to_frame",
@@ -40,7 +40,6 @@ COLUMNS = ("quantity", "mode", "plus", "minus", "part", "setup", "value", "frequ
            "label")
 
 #: Unit of each quantity's value.
-QUANTITY_UNITS = {"voltage": "V", "current": "A", "resistance": "Ω"}
 
 # Columns always written; frequency and meter only when a reading uses them.
 _ALWAYS = ("quantity", "mode", "plus", "minus", "part", "setup", "value", "label")

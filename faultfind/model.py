@@ -164,18 +164,27 @@ class Circuit:
     notes: str = ""
     source: str | None = None
     _by_ref: dict = field(default=None, init=False, repr=False, compare=False)
+    _nodes: tuple = field(default=None, init=False, repr=False, compare=False)
 
     def __post_init__(self):
         object.__setattr__(self, "_by_ref", {p.ref: p for p in self.parts})
 
     @property
     def nodes(self) -> tuple[str, ...]:
-        """Every node name, ground first, then in order of first appearance."""
-        seen = {self.ground: None}
-        for p in self.parts:
-            for n in p.nodes:
-                seen.setdefault(n, None)
-        return tuple(seen)
+        """Every node name, ground first, then in order of first appearance (computed once)."""
+        if self._nodes is None:
+            seen = {self.ground: None}
+            for p in self.parts:
+                for n in p.nodes:
+                    seen.setdefault(n, None)
+            object.__setattr__(self, "_nodes", tuple(seen))
+        return self._nodes
+
+    def has_node(self, name: str) -> bool:
+        """True when ``name`` is a node of the circuit."""
+        if getattr(self, "_node_set", None) is None:
+            object.__setattr__(self, "_node_set", frozenset(self.nodes))
+        return name in self._node_set
 
     def part(self, ref: str) -> Part:
         """The part with reference designator ``ref`` (KeyError if absent)."""
@@ -186,8 +195,10 @@ class Circuit:
 
     @property
     def has_ac(self) -> bool:
-        """True when any source has an AC waveform."""
-        return any(p.is_source and p.waveform == "ac" for p in self.parts)
+        """True when any source has an AC waveform (computed once)."""
+        if getattr(self, "_has_ac", None) is None:
+            object.__setattr__(self, "_has_ac", any(p.is_source and p.waveform == "ac" for p in self.parts))
+        return self._has_ac
 
 
 @dataclass(frozen=True)

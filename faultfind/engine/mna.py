@@ -119,7 +119,9 @@ class Network:
 
     def connected(self, a: str, b: str) -> bool:
         """True when nodes ``a`` and ``b`` are joined by the network's elements."""
-        pos = {name: i for i, name in enumerate(self.node_names)}
+        pos = self.__dict__.get("_pos")
+        if pos is None:
+            pos = self.__dict__["_pos"] = {name: i for i, name in enumerate(self.node_names)}
         return bool(self.reference[pos[a]] == self.reference[pos[b]])
 
     def node_vector(self, plus: str, minus: str) -> np.ndarray:

@@ -413,7 +413,7 @@ class _RowChecker:
                     self.problem(line, "plus", f"plus is the ground node {plus!r} and minus is "
                                  "empty (ground): the meter would read nothing")
             for column, node in (("plus", plus), ("minus", minus)):
-                if node not in circuit.nodes:
+                if not circuit.has_node(node):
                     self.problem(line, column, f"node {node!r} is not in the circuit"
                                  + _hint(node, circuit.nodes, "nodes"))
         if part is not None:

@@ -27,12 +27,13 @@ from __future__ import annotations
 from dataclasses import dataclass, replace
 
 import numpy as np
+import scipy.sparse as sp
 
 from ..model import Circuit, MeterProfile, Reading
 from .factor import Factorization
 from .mna import BRANCH, INJECTION, Network, assemble
 
-__all__ = ["Prediction", "parameters", "predict", "analysis_key"]
+__all__ = ["Prediction", "Stamps", "parameters", "predict", "analysis_key"]
 
 
 @dataclass(frozen=True)
@@ -114,36 +115,80 @@ def _dstamps(circuit: Circuit, net: Network, pindex: dict):
 
 
 def _pair(vec, a, b):
-    va = np.where(a >= 0, vec[np.maximum(a, 0)], 0.0)
-    vb = np.where(b >= 0, vec[np.maximum(b, 0)], 0.0)
-    return va - vb
+    """``vec[a] - vec[b]`` (rows for a 2-D ``vec``), index -1 meaning the reference (zero)."""
+    vec = np.asarray(vec)
+    n = vec.shape[0]
+    ext = np.concatenate([vec, np.zeros((1,) + vec.shape[1:], dtype=vec.dtype)])
+    return ext[np.where(a >= 0, a, n)] - ext[np.where(b >= 0, b, n)]
 
 
-class _Group:
+class Stamps:
+    """How a network's matrix and right-hand side depend on each parameter's log-value.
+
+    Gives the sensitivities ``lambda^T (db_j - dA_j x)`` of a block of
+    readings from their adjoint and forward vectors.
+    """
+
+    def __init__(self, circuit, net, pindex):
+        self.net = net
+        self.jy, self.dy, self.src = _dstamps(circuit, net, pindex)
+
+    def _scatter(self, n_params):
+        """Sparse (n_params x elements) matrix summing element terms into parameter columns."""
+        if getattr(self, "_M", None) is None or self._M.shape[0] != n_params:
+            ok = np.flatnonzero(self.jy >= 0)
+            self._M = sp.csr_matrix((np.ones(ok.size), (self.jy[ok], ok)),
+                                    shape=(n_params, len(self.jy)))
+        return self._M
+
+    def incidence(self):
+        """Sparse (elements x unknowns) matrix with ``D @ x = x[a] - x[b]`` per admittance element."""
+        if getattr(self, "_inc", None) is None:
+            net = self.net
+            a, b = np.asarray(net.y_a), np.asarray(net.y_b)
+            ka, kb = np.flatnonzero(a >= 0), np.flatnonzero(b >= 0)
+            rows = np.concatenate([ka, kb])
+            cols = np.concatenate([a[ka], b[kb]])
+            vals = np.concatenate([np.ones(ka.size), -np.ones(kb.size)])
+            self._inc = sp.csr_matrix((vals, (rows, cols)), shape=(len(a), net.size))
+        return self._inc
+
+    def grad_block(self, Lam, X, n_params, skips):
+        """:meth:`grad` for a block of columns (one per reading); returns (n_params, k)."""
+        D = self.incidence()
+        term = (D @ np.ascontiguousarray(Lam)) * (D @ np.ascontiguousarray(X))
+        term *= -self.dy[:, None]
+        for q, k in enumerate(skips):
+            if k >= 0:
+                term[k, q] = 0.0
+        G = np.asarray(self._scatter(n_params) @ term)
+        G = G.astype(np.result_type(G, Lam, X), copy=False)
+        for j, row, d in self.src:
+            G[j] += Lam[row] * d
+        return G
+
+    def minus_grad_block(self, Mu, W, n_params):
+        """``sum_k dy_k (mu_a - mu_b)(w_a - w_b)`` per parameter, for a block (real part)."""
+        D = self.incidence()
+        term = (D @ np.ascontiguousarray(Mu)) * (D @ np.ascontiguousarray(W))
+        term *= self.dy[:, None]
+        return np.asarray(self._scatter(n_params) @ term).real
+
+
+class _Group(Stamps):
     """One analysis of one circuit: network, factors, solution, stamp derivatives."""
 
     def __init__(self, circuit, key, pindex, overrides=None):
         analysis, f = key
-        self.net = assemble(circuit, analysis, f, overrides)
-        self.lu = Factorization(self.net.A)
-        self.x = self.lu.solve(self.net.b) if analysis != "off" else None
-        self.jy, self.dy, self.src = _dstamps(circuit, self.net, pindex)
-
-    def grad(self, lam, x, n_params, skip=-1):
-        """``lambda^T (db_j - dA_j x)`` for every parameter j (skipping element ``skip``)."""
-        net = self.net
-        g = np.zeros(n_params, dtype=np.result_type(lam, x))
-        term = -self.dy * _pair(lam, net.y_a, net.y_b) * _pair(x, net.y_a, net.y_b)
-        ok = self.jy >= 0
-        if skip >= 0:
-            ok = ok.copy(); ok[skip] = False
-        np.add.at(g, self.jy[ok], term[ok])
-        for j, row, d in self.src:
-            g[j] += lam[row] * d
-        return g
+        self.cols = {}   # reading index -> (A^{-1} u, A^{-T} u), kept when shared
+        net = assemble(circuit, analysis, f, overrides)
+        self.lu = Factorization(net.A)
+        self.x = self.lu.solve(net.b) if analysis != "off" else None
+        super().__init__(circuit, net, pindex)
 
 
-def predict(circuit: Circuit, readings, meters: dict, overrides: dict | None = None) -> Prediction:
+def predict(circuit: Circuit, readings, meters: dict, overrides: dict | None = None, *,
+            share: dict | None = None) -> Prediction:
     """Predict the meter displays of ``readings`` on a healthy ``circuit``.
 
     Parameters
@@ -160,6 +205,11 @@ def predict(circuit: Circuit, readings, meters: dict, overrides: dict | None = N
         Faults to apply, as for :func:`~faultfind.engine.mna.assemble`
         (ref to a value, ``"open"``, ``"short"`` or ``"dead"``).  This is the
         plain re-assemble-and-solve path: the diagnosis engine's oracle.
+    share : dict, optional
+        Filled with each analysis' network, factors and per-reading solves
+        (analysis key to the internal group object with ``net``, ``lu``,
+        ``x`` and ``cols``), so that a caller needing the same network does
+        not factor it again.
 
     Returns
     -------
@@ -182,7 +232,7 @@ def predict(circuit: Circuit, readings, meters: dict, overrides: dict | None = N
     nr = len(readings)
     value = np.zeros(nr, dtype=complex)
     sens = np.zeros((nr, npar), dtype=complex)
-    groups: dict = {}
+    by_key: dict = {}
     for i, rd in enumerate(readings):
         meter: MeterProfile = meters.get(rd.meter or "default")
         if meter is None:
@@ -191,13 +241,16 @@ def predict(circuit: Circuit, readings, meters: dict, overrides: dict | None = N
         if key[0] == "lifted":
             value[i], sens[i] = _lifted(circuit, rd, pindex, npar, overrides or {})
             continue
-        if key not in groups:
-            groups[key] = _Group(circuit, key, pindex, overrides)
-        grp = groups[key]
+        by_key.setdefault(key, []).append(i)
+    for key, idx in by_key.items():
+        grp = _Group(circuit, key, pindex, overrides)
+        grp.keep = share is not None
+        if share is not None:
+            share[key] = grp
         if key[0] == "off":
-            value[i], sens[i] = _ohms(circuit, grp, rd, npar)
+            _ohms_block(circuit, grp, readings, idx, npar, value, sens)
         else:
-            value[i], sens[i] = _live(circuit, grp, rd, meter, npar, pindex)
+            _live_block(circuit, grp, readings, idx, meters, npar, pindex, value, sens)
     mag = np.where(np.isfinite(value), value, np.inf)
     out_val = np.empty(nr)
     out_sens = np.zeros((nr, npar))
@@ -215,83 +268,106 @@ def predict(circuit: Circuit, readings, meters: dict, overrides: dict | None = N
     return Prediction(out_val, value, out_sens, params)
 
 
-def _live(circuit, grp, rd, meter, npar, pindex):
+#: Readings solved per block (bounds the element-by-reading work arrays).
+_BLOCK = 32
+
+
+def _live_block(circuit, grp, readings, idx, meters, npar, pindex, value, sens):
+    """Live readings of one analysis: block solves, then vectorized gradients.
+
+    Per reading ``i`` (columns of ``U``) this is the Sherman-Morrison formula of
+    the module docstring: ``den = 1 + alpha z``, ``x_L = x - w alpha (u^T x) / den``,
+    ``lambda_L = mu / den``, ``r = s (u^T x) / den``.
+    """
     net, lu, x = grp.net, grp.lu, grp.x
     N = net.size
-    skip = -1
-    self_term = None
-    if rd.quantity == "voltage":
-        u = net.node_vector(rd.plus, rd.minus)
-        alpha, s = 1.0 / meter.input_resistance, 1.0
-    else:
+    cols, alphas, ss, skips, selfs = [], [], [], [], []
+    for i in idx:
+        rd = readings[i]
+        meter = meters[rd.meter or "default"]
+        if rd.quantity == "voltage":
+            cols.append((i, net.node_vector(rd.plus, rd.minus)))
+            alphas.append(1.0 / meter.input_resistance); ss.append(1.0); skips.append(-1); selfs.append(None)
+            continue
         elem = net.element.get(rd.part)
         if elem is None:  # open in this analysis: no current flows
-            return 0.0, np.zeros(npar)
+            value[i] = 0.0
+            continue
         kind, k = elem
         if kind == INJECTION:
-            g = np.zeros(npar, dtype=complex)
-            j = pindex[rd.part]
-            g[j] = net.inj_i[k]
-            return net.inj_i[k], g
+            value[i] = net.inj_i[k]
+            sens[i, pindex[rd.part]] = net.inj_i[k]
+            continue
         u = np.zeros(N, dtype=net.A.dtype)
         rs = meter.current_shunt
         if kind == BRANCH:
             u[net.n + k] = 1.0
-            alpha = -rs
-            s = -1.0 if circuit.part(rd.part).kind == "voltage-source" else 1.0
-        else:  # ADMITTANCE
-            a, b = net.y_a[k], net.y_b[k]
-            if a >= 0:
-                u[a] += 1.0
-            if b >= 0:
-                u[b] -= 1.0
-            y = net.y_val[k]
-            y2 = y / (1.0 + y * rs)
-            alpha, s = y2 - y, y2
-            skip = k
-            self_term = (grp.jy[k], grp.dy[k] / (1.0 + y * rs) ** 2, y2)
-    w = lu.solve(u)
-    mu = lu.solve_adjoint(u)
-    z = u @ w
-    ux = u @ x
-    den = 1.0 + alpha * z
-    x_l = x - w * (alpha * ux / den)
-    lam = mu / den
-    r = s * ux / den
-    g = s * grp.grad(lam, x_l, npar, skip)
-    if self_term is not None and self_term[0] >= 0:
-        j, dy2, y2 = self_term
-        v_l = ux / den
-        z_l = z / den
-        g[j] += dy2 * v_l * (1.0 - y2 * z_l)
-    return r, g
+            cols.append((i, u)); alphas.append(-rs)
+            ss.append(-1.0 if circuit.part(rd.part).kind == "voltage-source" else 1.0)
+            skips.append(-1); selfs.append(None)
+            continue
+        a, b = net.y_a[k], net.y_b[k]
+        if a >= 0:
+            u[a] += 1.0
+        if b >= 0:
+            u[b] -= 1.0
+        y = net.y_val[k]
+        y2 = y / (1.0 + y * rs)
+        cols.append((i, u)); alphas.append(y2 - y); ss.append(y2); skips.append(k)
+        selfs.append((grp.jy[k], grp.dy[k] / (1.0 + y * rs) ** 2, y2))
+    for c0 in range(0, len(cols), _BLOCK):
+        part = cols[c0:c0 + _BLOCK]
+        rows = [i for i, _ in part]
+        U = np.column_stack([u for _, u in part])
+        W = lu.solve(U)
+        Mu = lu.solve_adjoint(U)
+        alpha = np.array(alphas[c0:c0 + _BLOCK], dtype=complex)
+        s = np.array(ss[c0:c0 + _BLOCK], dtype=complex)
+        z = np.einsum("ij,ij->j", U, W)
+        ux = U.T @ x
+        den = 1.0 + alpha * z
+        XL = x[:, None] - W * (alpha * ux / den)[None, :]
+        Lam = Mu / den[None, :]
+        value[rows] = s * ux / den
+        if grp.keep:
+            for q, i in enumerate(rows):
+                grp.cols[i] = (W[:, q], Mu[:, q])
+        G = grp.grad_block(Lam, XL, npar, skips[c0:c0 + _BLOCK]) * s[None, :]
+        for q, i in enumerate(rows):
+            st = selfs[c0 + q]
+            if st is not None and st[0] >= 0:
+                j, dy2, y2 = st
+                G[j, q] += dy2 * (ux[q] / den[q]) * (1.0 - y2 * z[q] / den[q])
+        sens[rows] = G.T
 
 
-def _ohms(circuit, grp, rd, npar):
+def _ohms_block(circuit, grp, readings, idx, npar, value, sens):
+    """In-circuit resistance readings of the power-off network, in blocks."""
     net, lu = grp.net, grp.lu
-    if rd.part is not None:
-        plus, minus = circuit.part(rd.part).nodes[:2]
-    else:
-        plus, minus = rd.plus, rd.minus
-    if plus == minus:
-        return 0.0, np.zeros(npar)
-    if not net.connected(plus, minus):
-        return np.inf, np.zeros(npar)
-    u = net.node_vector(plus, minus)
-    w = lu.solve(u)
-    mu = lu.solve_adjoint(u)
-    r = u @ w
-    g = -_minus_grad(grp, mu, w, npar)
-    return r, g
-
-
-def _minus_grad(grp, mu, w, npar):
-    net = grp.net
-    g = np.zeros(npar)
-    term = grp.dy * _pair(mu, net.y_a, net.y_b) * _pair(w, net.y_a, net.y_b)
-    ok = grp.jy >= 0
-    np.add.at(g, grp.jy[ok], term[ok].real)
-    return g
+    cols = []
+    for i in idx:
+        rd = readings[i]
+        if rd.part is not None:
+            plus, minus = circuit.part(rd.part).nodes[:2]
+        else:
+            plus, minus = rd.plus, rd.minus
+        if plus == minus:
+            value[i] = 0.0
+        elif not net.connected(plus, minus):
+            value[i] = np.inf
+        else:
+            cols.append((i, net.node_vector(plus, minus)))
+    for c0 in range(0, len(cols), _BLOCK):
+        part = cols[c0:c0 + _BLOCK]
+        rows = [i for i, _ in part]
+        U = np.column_stack([u for _, u in part])
+        W = lu.solve(U)
+        Mu = lu.solve_adjoint(U)
+        value[rows] = np.einsum("ij,ij->j", U, W)
+        if grp.keep:
+            for q, i in enumerate(rows):
+                grp.cols[i] = (W[:, q], Mu[:, q])
+        sens[rows] = -grp.minus_grad_block(Mu, W, npar).T
 
 
 def lifted_value(part, fault=None) -> float:

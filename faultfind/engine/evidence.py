@@ -25,6 +25,7 @@ probability that the reading exceeds the meter's top range.
 from __future__ import annotations
 
 import numpy as np
+from scipy.linalg import solve_triangular
 from scipy.special import log_ndtr
 
 from .bands import log_tolerance
@@ -170,6 +171,157 @@ class Evidence:
         logdet = np.where(num, np.log(2 * np.pi * np.where(num, var, 1.0)), 0.0).sum(axis=1)
         return c2, logdet
 
+    # ----------------------------------------------------- many rows, full
+    def _block(self):
+        """Cholesky factor of the healthy covariance over the numeric readings (cached).
+
+        Returns ``(idx, L, logdet)`` or None when there is no numeric reading
+        with a finite healthy prediction or the covariance is not positive
+        definite.
+        """
+        if getattr(self, "_blk", False) is not False:
+            return self._blk
+        idx = np.flatnonzero(~self.ol & np.isfinite(self.pred0))
+        self._blk = None
+        if idx.size:
+            with np.errstate(over="ignore", invalid="ignore"):
+                T = self.tol_cov(self.pred0, ())
+                C = T[np.ix_(idx, idx)] + np.diag(self.u[idx] ** 2)
+            if np.all(np.isfinite(C)):
+                try:
+                    L = np.linalg.cholesky(C)
+                    if np.all(np.isfinite(L)) and np.all(np.diag(L) > 0):
+                        self._blk = (idx, L, 2.0 * float(np.log(np.diag(L)).sum()), np.diag(C).copy())
+                except np.linalg.LinAlgError:
+                    self._blk = None
+        return self._blk
+
+    def whiten(self, V):
+        """``L0^{-1} V`` for columns ``V`` over the numeric block (rows in block order)."""
+        blk = self._block()
+        if getattr(self, "_Linv", None) is None:
+            L = blk[1]
+            self._Linv = solve_triangular(L, np.eye(L.shape[0]), lower=True, check_finite=False)
+        return self._Linv @ V
+
+    def white_columns(self, cols):
+        """Whitened sensitivity columns ``L0^{-1} S0[:, j]`` over the numeric block (cached per column)."""
+        cache = self.__dict__.setdefault("_wcols", {})
+        todo = sorted({int(j) for j in cols if j >= 0 and int(j) not in cache})
+        if todo:
+            idx = self._block()[0]
+            Wc = self.whiten(self.S0[np.ix_(idx, todo)] * self._sc0()[:, None])
+            for k, j in enumerate(todo):
+                cache[j] = Wc[:, k]
+        return cache
+
+    def _sc0(self):
+        """The healthy scale factors of :meth:`tol_cov` over the numeric block (1, or 0 at a zero reading)."""
+        idx = self._block()[0]
+        return self._scales(self.pred0)[idx]
+
+    def chi2_rows(self, P, drops, with_logdet=False):
+        """chi-square of many predictions with the full covariance, approximately.
+
+        Each row's covariance is taken as the healthy covariance (with the
+        row's fixed parameter column removed, exactly, by Sherman-Morrison)
+        whose variances are rescaled to the row's own (the tolerance spread
+        scaled with the prediction, as :meth:`tol_cov`): the correlation
+        structure of the healthy readings is kept.  Exact when the row's
+        prediction leaves the spread unscaled; the diagonal of the result is
+        always the row's own variances.  Rows with an undefined or
+        non-finite prediction on a numeric reading, or with more than one
+        fixed column, are scored exactly by :meth:`score`.
+
+        Parameters
+        ----------
+        P : ndarray, shape (k, n)
+        drops : list of list of int
+            Fixed parameter columns of each row.
+        with_logdet : bool
+            Also return the log-determinant term, so that
+            ``-0.5 * (chi2 + logdet)`` is each row's log-likelihood.
+        """
+        P = np.atleast_2d(np.asarray(P, dtype=float))
+        k = P.shape[0]
+        blk = self._block()
+        if blk is None or k == 0:
+            c2, ld = self.diag_chi2_rows(P, drops, True)
+            return (c2, ld) if with_logdet else c2
+        idx, L, logdet0, c0 = blk
+        nb = idx.size
+        lens = np.fromiter(map(len, drops), dtype=np.int64, count=k)
+        js = np.fromiter((d[0] if n == 1 else -1 for d, n in zip(drops, lens)), dtype=np.int64, count=k)
+        multi = lens > 1
+        Pb = P[:, idx]
+        good = np.all(np.isfinite(Pb), axis=1) & ~multi & ~np.any(np.isnan(P), axis=1)
+        chi2 = np.zeros(k)
+        logdet = np.zeros(k)
+        # variances of the block under each row (diagonal of tol_cov)
+        T0d = np.diag(self.T0)[idx]
+        s_cols = np.where(js[:, None] >= 0, self.S0[np.ix_(idx, np.maximum(js, 0))].T, 0.0)   # (k, nb)
+        s_h = s_cols * self._sc0()[None, :]                                   # as in the healthy C0
+        vj = np.where(js >= 0, self.var_p[np.maximum(js, 0)], 0.0)
+        Td = np.clip(T0d[None, :] - vj[:, None] * s_cols ** 2, 0, None)
+        p0 = np.abs(self.pred0[idx])
+        with np.errstate(divide="ignore", invalid="ignore"):
+            sc = np.abs(Pb) / p0
+        sc = np.where(np.isfinite(sc) & (p0 > 0), np.clip(sc, 0, 10), 0.0)
+        extra = np.where(p0 == 0, (self.rel_floor * np.where(np.isfinite(Pb), Pb, 0.0)) ** 2, 0.0)
+        var_h = self.u[idx] ** 2 + sc ** 2 * Td + extra                      # row's own variances
+        cd = np.clip(c0[None, :] - vj[:, None] * s_h ** 2, 1e-300, None)     # healthy-with-drop
+        with np.errstate(invalid="ignore"):
+            R = (self.y[idx][None, :] - np.where(np.isfinite(Pb), Pb, 0.0)) * np.sqrt(cd / var_h)
+        R = np.where(good[:, None], R, 0.0)
+        self.whiten(np.zeros((nb, 0)))
+        Z = R @ self._Linv.T                                                  # (k, nb), rows whitened
+        q = np.einsum("ij,ij->i", Z, Z)
+        corr = np.zeros(k)
+        ldc = np.zeros(k)
+        has = np.flatnonzero((js >= 0) & good)
+        if has.size:
+            uj, inv = np.unique(js[has], return_inverse=True)
+            wc = self.white_columns(uj)
+            Wm = np.column_stack([wc[int(j)] for j in uj])                   # (nb, u)
+            den = 1.0 - self.var_p[uj] * (Wm * Wm).sum(axis=0)
+            ok = den > 1e-12
+            proj = np.einsum("ij,ij->i", Wm.T[inv], Z[has])
+            corr[has] = np.where(ok[inv], self.var_p[uj][inv] * proj ** 2 / np.where(ok, den, 1.0)[inv], 0.0)
+            ldc[has] = np.where(ok[inv], np.log(np.where(ok, den, 1.0))[inv], 0.0)
+        chi2 = q + corr
+        logdet = (logdet0 + ldc + np.log(var_h).sum(axis=1) - np.log(cd).sum(axis=1)
+                  + nb * _LOG2PI)
+        # readings outside the block (OL displays, predictions undefined in healthy)
+        rest = np.ones(self.n, dtype=bool)
+        rest[idx] = False
+        if rest.any():
+            var_r = self._row_vars(P, drops)
+            terms = self._chi2_terms(P, var_r)[:, rest]
+            chi2 = chi2 + terms.sum(axis=1)
+        for r in np.flatnonzero(~good):
+            c2, ll = self.score(P[r], drops[r])
+            chi2[r] = c2
+            logdet[r] = -2.0 * ll - c2 if np.isfinite(ll) else np.inf
+        chi2 = np.where(np.any(np.isnan(P), axis=1), np.inf, chi2)
+        return (chi2, logdet) if with_logdet else chi2
+
+    def _row_vars(self, P, drops):
+        """Diagonal of each row's covariance (as :meth:`diag_chi2_rows` uses)."""
+        k = P.shape[0]
+        Tdiag = np.broadcast_to(np.diag(self.T0), (k, self.n)).copy()
+        for pos in range(max((len(d) for d in drops), default=0)):
+            js = np.array([d[pos] if pos < len(d) else -1 for d in drops])
+            ok = js >= 0
+            if ok.any():
+                Tdiag[ok] -= self.S0[:, js[ok]].T ** 2 * self.var_p[js[ok]][:, None]
+        T = np.clip(Tdiag, 0, None)
+        p0 = np.abs(self.pred0)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            sc = np.abs(P) / p0
+        sc = np.where(np.isfinite(sc) & (p0 > 0), np.clip(sc, 0, 10), 0.0)
+        finP = np.isfinite(P)
+        return self.u ** 2 + sc ** 2 * T + np.where((p0 == 0) & finP, (self.rel_floor * np.where(finP, P, 0)) ** 2, 0)
+
     def _chi2_terms(self, P, var):
         P = np.atleast_2d(P)
         k, n = P.shape
@@ -214,7 +366,7 @@ class Evidence:
             r = self.y[num] - pred[num]
             try:
                 L = np.linalg.cholesky(C)
-                z = np.linalg.solve(L, r)
+                z = solve_triangular(L, r, lower=True, check_finite=False)
                 chi2 += float(z @ z)
                 logdet = 2.0 * float(np.log(np.diag(L)).sum())
             except np.linalg.LinAlgError:
@@ -245,7 +397,7 @@ class Evidence:
             R = (self.y[num][None, :] - P[:, num]).T
             try:
                 L = np.linalg.cholesky(C)
-                Z = np.linalg.solve(L, R)
+                Z = solve_triangular(L, R, lower=True, check_finite=False)
                 out += (Z * Z).sum(axis=0)
             except np.linalg.LinAlgError:
                 out += ((R ** 2) / np.diag(C)[:, None]).sum(axis=0)

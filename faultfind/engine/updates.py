@@ -96,16 +96,23 @@ class Group:
         Meter profiles (with "default").
     """
 
-    def __init__(self, circuit, key, readings, meters):
+    def __init__(self, circuit, key, readings, meters, shared=None, shared_cols=None):
         self.circuit = circuit
         self.key = key
         self.analysis, f = key
         self.omega = 2 * np.pi * f if self.analysis == "ac" else 0.0
-        self.net = net = assemble(circuit, self.analysis, f)
-        self.lu = Factorization(net.A)
+        if shared is not None:   # the same network, already factored by predict()
+            self.net = net = shared.net
+            self.lu = shared.lu
+        else:
+            self.net = net = assemble(circuit, self.analysis, f)
+            self.lu = Factorization(net.A)
         N = net.size
         dt = net.A.dtype
-        self.x = self.lu.solve(net.b) if self.analysis != "off" else np.zeros(N, dt)
+        if shared is not None and shared.x is not None:
+            self.x = shared.x
+        else:
+            self.x = self.lu.solve(net.b) if self.analysis != "off" else np.zeros(N, dt)
         r = len(readings)
         self.readings = readings
         U = np.zeros((N, r), dtype=dt)
@@ -163,8 +170,16 @@ class Group:
             self.scale[i] = y0
             self.rtype[i] = "ya"
         self.U = U
-        self.W = self.lu.solve(U) if r else U
-        self.Mu = self.lu.solve_adjoint(U) if r else U
+        have = [c for c in (shared_cols or [])]
+        if r and len(have) == r and all(c is not None or not U[:, i].any() for i, c in enumerate(have)):
+            self.W = np.zeros((N, r), dtype=dt)
+            self.Mu = np.zeros((N, r), dtype=dt)
+            for i, c in enumerate(have):
+                if c is not None:
+                    self.W[:, i], self.Mu[:, i] = c
+        else:
+            self.W = self.lu.solve(U) if r else U
+            self.Mu = self.lu.solve_adjoint(U) if r else U
         self.z = np.einsum("ij,ij->j", U, self.W)
         # projections of the right-hand side: x for live readings, the test current for ohms
         self.px = (U.T @ self.x) if self.analysis != "off" else self.z.copy()
@@ -545,8 +560,9 @@ def batch(g: Group, terms, news) -> np.ndarray:
     ya = (rt == "ya")[None, None, :]
     out = np.where(ya, g.scale * v + q, g.scale * v)
     # the measured part itself faulted: one merged term with the shunt in series
-    own = np.array([[g.elem[i] == t.ref and rt[i] == "ya" for i in range(r)] for t in terms],
-                   dtype=bool)[:, None, :]
+    elem = np.array([e if e is not None else "" for e in g.elem], dtype=object)
+    refs = np.array([t.ref for t in terms], dtype=object)
+    own = ((elem[None, :] == refs[:, None]) & (rt == "ya")[None, :])[:, None, :]
     if own.any():
         rs = g.rs[None, None, :]
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):

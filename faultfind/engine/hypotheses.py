@@ -27,6 +27,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
+from scipy.linalg import solve_triangular
 from scipy.special import logsumexp
 from scipy.stats import chi2 as chi2_dist
 
@@ -118,6 +119,7 @@ class Ranking:
     n_readings: int
     fit_p: dict = field(default_factory=dict)
     doubles_tried: bool = False
+    screening: object = None
 
 
 def _occam(sd, spec) -> float:
@@ -149,7 +151,7 @@ class Board:
         Meter profiles with "default".
     """
 
-    def __init__(self, circuit, readings, meters):
+    def __init__(self, circuit, readings, meters, share=None):
         self.circuit = circuit
         self.readings = list(readings)
         self.meters = meters
@@ -165,8 +167,13 @@ class Board:
                 self.lifted.append(i)
             else:
                 keys.setdefault(key, []).append(i)
-        self.groups = {k: (Group(circuit, k, [self.readings[i] for i in idx], meters), np.array(idx))
-                       for k, idx in keys.items()}
+        share = share or {}
+        self.groups = {}
+        for k, idx in keys.items():
+            sh = share.get(k)
+            cols = [sh.cols.get(i) for i in idx] if sh is not None else None
+            self.groups[k] = (Group(circuit, k, [self.readings[i] for i in idx], meters, sh, cols),
+                              np.array(idx))
         self.params = parameters(circuit)
         self.pindex = {r: j for j, r in enumerate(self.params)}
         self.tol_low = np.array([circuit.part(r).tol_low for r in self.params])
@@ -291,8 +298,12 @@ class Evaluator(Board):
     """
 
     def __init__(self, circuit, readings, meters):
-        super().__init__(circuit, readings, meters)
-        nominal = predict(circuit, self.readings, meters) if self.n else None
+        readings = list(readings)
+        share = {}
+        nominal = predict(circuit, readings, meters, share=share) if readings else None
+        super().__init__(circuit, readings, meters, share)
+        for g in share.values():
+            g.cols = {}   # the groups hold their own copies now
         self.pred0 = nominal.value if self.n else np.zeros(0)
         self.S0 = nominal.sensitivity if self.n else np.zeros((0, len(self.params)))
         self.ev = Evidence(self.readings, meters, self.pred0, self.S0, self.tol_low, self.tol_high)
@@ -314,17 +325,9 @@ class Evaluator(Board):
         """Re-score ``h`` with the faulted circuit's own sensitivities (one re-solve)."""
         if not h.faults:
             return h
-        overrides = {f.ref: (f.value if f.mode == "drift" else f.mode) for f in h.faults}
-        try:
-            pr = predict(self.circuit, self.readings, self.meters, overrides=overrides)
-        except (SolveError, ValueError, ZeroDivisionError, FloatingPointError):
+        S = self.faulted_sensitivity(h.faults)
+        if S is None or not np.all(np.isfinite(S)):
             return h
-        if not np.all(np.isfinite(pr.sensitivity)):
-            return h
-        S = pr.sensitivity.copy()
-        for j in self.drop_cols(h.faults):
-            if j >= 0:
-                S[:, j] = 0.0
         ev = self.ev
         T = (S * ev.var_p) @ S.T
         pred = h.predicted
@@ -337,7 +340,7 @@ class Evaluator(Board):
             L = np.linalg.cholesky(C)
         except np.linalg.LinAlgError:
             return h
-        z = np.linalg.solve(L, r)
+        z = solve_triangular(L, r, lower=True, check_finite=False)
         chi2 = float(z @ z)
         logdet = 2.0 * float(np.log(np.diag(L)).sum())
         ll = -0.5 * (chi2 + logdet + num.sum() * np.log(2 * np.pi))
@@ -348,6 +351,30 @@ class Evaluator(Board):
         occam = h.occam  # the drift's Occam factor, as fitted
         return Hypothesis(h.faults, pred, chi2, ll + occam, h.log_prior, h.log_prior + ll + occam,
                           drift_sd=h.drift_sd, exact=True, occam=occam)
+
+    def faulted_sensitivity(self, faults):
+        """Sensitivities of the readings on the circuit with ``faults`` applied.
+
+        The faulted parts' own columns are zero.  One fault: by rank-one
+        updates of the healthy factors (:mod:`.faulted`); otherwise, or where
+        that does not apply, by re-solving the faulted circuit.  None when
+        the faulted circuit cannot be solved.
+        """
+        if len(faults) == 1:
+            from .faulted import faulted_sensitivity
+            S = faulted_sensitivity(self, faults[0])
+            if S is not None:
+                return S
+        overrides = {f.ref: (f.value if f.mode == "drift" else f.mode) for f in faults}
+        try:
+            pr = predict(self.circuit, self.readings, self.meters, overrides=overrides)
+        except (SolveError, ValueError, ZeroDivisionError, FloatingPointError):
+            return None
+        S = pr.sensitivity.copy()
+        for j in self.drop_cols(faults):
+            if j >= 0:
+                S[:, j] = 0.0
+        return S
 
     # ------------------------------------------------------------- drift fit
     def drift_range(self, part):
@@ -451,7 +478,7 @@ class Evaluator(Board):
             return []
         sizes = [len(x) for x in P]
         drops = [[self.pindex.get(p.ref, -1)] for p, k in zip(parts, sizes) for _ in range(k)]
-        c2 = self.ev.diag_chi2_rows(np.vstack(P), drops)
+        c2 = self.ev.chi2_rows(np.vstack(P), drops)
         return np.split(c2, np.cumsum(sizes)[:-1])
 
     def refit_drift(self, h):
@@ -531,11 +558,16 @@ def rank(circuit, readings, meters, *, doubles=True) -> Ranking:
     return rank_with(ev, doubles=doubles)
 
 
-def rank_with(ev: Evaluator, *, doubles=True) -> Ranking:
-    """:func:`rank` on an existing :class:`Evaluator`."""
-    healthy = ev.make([], ev.healthy_prediction())
+def _first_pass(ev: Evaluator, parts):
+    """Every single-fault hypothesis of ``parts``, scored on the first-pass
+    covariance (:meth:`~.evidence.Evidence.chi2_rows`).
+
+    Returns
+    -------
+    list of (Hypothesis, log Occam factor)
+    """
     items, drifting = [], []
-    for part in ev.circuit.parts:
+    for part in parts:
         for mode in part.fault_modes:
             if mode == "drift":
                 drifting.append(part)
@@ -548,12 +580,116 @@ def rank_with(ev: Evaluator, *, doubles=True) -> Ranking:
     cands = [c for c in cands if not np.isnan(c[1]).any()]  # no answer: a short across a source
     first = []
     if cands:
-        c2, logdet = ev.ev.diag_chi2_rows(np.vstack([c[1] for c in cands]),
-                                          [[ev.pindex.get(c[0].ref, -1)] for c in cands], True)
+        c2, logdet = ev.ev.chi2_rows(np.vstack([c[1] for c in cands]),
+                                     [[ev.pindex.get(c[0].ref, -1)] for c in cands], True)
         for (f, pred, sd, occam), x2, ld in zip(cands, c2, logdet):
             lp = ev.prior([f])
             ll = -0.5 * (float(x2) + float(ld)) + occam
             first.append((Hypothesis((f,), pred, float(x2), ll, lp, lp + ll, drift_sd=sd, occam=occam), occam))
+    return first
+
+
+@dataclass
+class Screening:
+    """What the screen left out (see :mod:`.screen`).
+
+    Attributes
+    ----------
+    evaluated : int
+        Parts whose hypotheses were evaluated exactly.
+    pruned : int
+        Parts whose best possible hypothesis was at least :data:`SCREEN_MARGIN`
+        below the leader.
+    pruned_logmass : float
+        Log of an upper bound of the pruned hypotheses' total posterior mass
+        (same scale as ``log_post``).
+    unresolved : list of str
+        Parts not pruned but not evaluated either (the evaluation budget ran
+        out): their mass is counted at its upper bound.
+    unresolved_logmass : float
+    """
+
+    evaluated: int = 0
+    pruned: int = 0
+    pruned_logmass: float = -np.inf
+    unresolved: list = field(default_factory=list)
+    unresolved_logmass: float = -np.inf
+
+
+#: Circuits with at least this many parts that can fail are screened (:mod:`.screen`).
+SCREEN_PARTS = 1500
+#: A part whose best possible hypothesis is this far (log posterior) below the
+#: leader is not evaluated: e^-25 ~ 1.4e-11 each.
+SCREEN_MARGIN = 25.0
+#: Parts evaluated per step of the screened search, and at most in all.
+SCREEN_CHUNK = 64
+SCREEN_BUDGET = 640
+
+
+def _screened_first(ev: Evaluator, parts, healthy, progress=None):
+    """:func:`_first_pass` over the parts that can matter (branch and bound).
+
+    Returns ``(first, Screening)``, or None when the readings cannot be screened.
+    """
+    from .screen import line_bounds
+    lb = line_bounds(ev, ev.ev, healthy.predicted)
+    if lb is None:
+        return None
+    by_ref = {p.ref: p for p in parts}
+    c2, ld = ev.ev.chi2_rows(healthy.predicted[None, :], [[]], True)
+    ll0 = -0.5 * float(c2[0] + ld[0])
+    cache = {}
+
+    def best_prior(p):
+        key = p.kind
+        if key not in cache:
+            cache[key] = max(ev.prior([Fault(p.ref, m)]) for m in p.fault_modes)
+        return cache[key]
+
+    ub = np.array([best_prior(by_ref[r]) for r in lb.refs]) + ll0 + lb.gain
+    order = np.argsort(-ub, kind="stable")
+    must = [by_ref[r] for r in lb.must if r in by_ref]
+    first = _first_pass(ev, must) if must else []
+    lead = max([healthy.log_post] + [h.log_post for h, _ in first])
+    done = 0
+    total = min(len(order), SCREEN_BUDGET)
+    while done < len(order) and done < SCREEN_BUDGET and ub[order[done]] >= lead - SCREEN_MARGIN:
+        step = order[done:done + SCREEN_CHUNK]
+        step = step[ub[step] >= lead - SCREEN_MARGIN]
+        got = _first_pass(ev, [by_ref[lb.refs[k]] for k in step])
+        first += got
+        lead = max([lead] + [h.log_post for h, _ in got])
+        done += SCREEN_CHUNK
+        if progress is not None:
+            progress("screening", min(done, total), total)
+    rest = order[done:]
+    pruned = rest[ub[rest] < lead - SCREEN_MARGIN]
+    unres = rest[ub[rest] >= lead - SCREEN_MARGIN]
+    from scipy.special import logsumexp as _lse
+    n_modes = np.array([len(by_ref[r].fault_modes) for r in lb.refs], dtype=float)
+    scr = Screening(evaluated=len(must) + min(done, len(order)), pruned=int(pruned.size),
+                    pruned_logmass=float(_lse(ub[pruned] + np.log(n_modes[pruned]))) if pruned.size else -np.inf,
+                    unresolved=[lb.refs[k] for k in unres],
+                    unresolved_logmass=float(_lse(ub[unres] + np.log(n_modes[unres]))) if unres.size else -np.inf)
+    return first, scr
+
+
+def rank_with(ev: Evaluator, *, doubles=True, screen=None, progress=None) -> Ranking:
+    """:func:`rank` on an existing :class:`Evaluator`.
+
+    ``screen``: True / False forces the screen of :mod:`.screen` on or off;
+    None (default) uses it on circuits with at least :data:`SCREEN_PARTS`
+    parts that can fail.  ``progress``, if given, is called as
+    ``progress(stage, done, total)`` during long steps.
+    """
+    healthy = ev.make([], ev.healthy_prediction())
+    parts = [p for p in ev.circuit.parts if p.fault_modes]
+    use = screen if screen is not None else len(parts) >= SCREEN_PARTS
+    got = _screened_first(ev, parts, healthy, progress) if use else None
+    if got is None:
+        first, screening = _first_pass(ev, parts), None
+    else:
+        first, screening = got
     # second pass: the full covariance for the hypotheses that can matter
     first.sort(key=lambda ho: -ho[0].log_post)
     hyps = [healthy]
@@ -565,10 +701,10 @@ def rank_with(ev: Evaluator, *, doubles=True) -> Ranking:
     hyps = [h for h in hyps if np.isfinite(h.log_post)]
     if not hyps:  # nothing can be scored (readings no model can produce)
         healthy.probability = 1.0
-        return Ranking([healthy], healthy, "inconsistent", ev.n, {id(healthy): 0.0}, False)
+        return Ranking([healthy], healthy, "inconsistent", ev.n, {id(healthy): 0.0}, False, screening)
     hyps.sort(key=lambda h: -h.log_post)
-    # the drift search used the diagonal of the covariance; refit the leading
-    # drifts on the full score (correlated readings move the optimum)
+    # the drift search used the first-pass covariance; refit the leading
+    # drifts on the full score
     lead = hyps[0].log_post
     for i in range(min(2 * EXACT_TOP, len(hyps))):
         h = hyps[i]
@@ -595,7 +731,10 @@ def rank_with(ev: Evaluator, *, doubles=True) -> Ranking:
         hyps += _pairs(ev, hyps)
         hyps.sort(key=lambda h: -h.log_post)
     logs = np.array([h.log_post for h in hyps])
-    post = np.exp(logs - logsumexp(logs))
+    # parts the screen could not resolve keep their mass (at its upper bound)
+    extra = screening.unresolved_logmass if screening is not None else -np.inf
+    norm = logsumexp(np.append(logs, extra))
+    post = np.exp(logs - norm)
     for h, p in zip(hyps, post):
         h.probability = float(p)
     top = hyps[0]
@@ -609,7 +748,7 @@ def rank_with(ev: Evaluator, *, doubles=True) -> Ranking:
         verdict = "no-fault"
     else:
         verdict = "inconsistent"
-    return Ranking(hyps, healthy, verdict, n, fit_p, tried)
+    return Ranking(hyps, healthy, verdict, n, fit_p, tried, screening)
 
 
 def _pairs(ev: Evaluator, hyps):

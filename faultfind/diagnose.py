@@ -187,7 +187,7 @@ def _node_voltages(ev: Evaluator):
 
 
 def diagnose(circuit: Circuit, readings, meters=None, *, top: int = 10, doubles: bool = True,
-             advise: bool = True, costs=None, power=None) -> Diagnosis:
+             advise: bool = True, costs=None, power=None, progress=None, screen=None) -> Diagnosis:
     """Compare ``readings`` with ``circuit``; rank fault hypotheses.
 
     Parameters
@@ -205,6 +205,14 @@ def diagnose(circuit: Circuit, readings, meters=None, *, top: int = 10, doubles:
     advise : bool, optional
         Fill ``suggestions`` with the next readings worth taking
         (:func:`faultfind.advise.suggest`); ``costs`` and ``power`` go to it.
+    progress : callable, optional
+        Called as ``progress(stage, done, total)`` when a step starts
+        (``done``/``total`` None) and during the screened search of a large
+        circuit, for a progress display.
+    screen : bool, optional
+        Force the screen of large circuits (:mod:`faultfind.engine.screen`)
+        on or off; by default it is used from
+        :data:`~faultfind.engine.hypotheses.SCREEN_PARTS` parts up.
 
     Returns
     -------
@@ -217,6 +225,8 @@ def diagnose(circuit: Circuit, readings, meters=None, *, top: int = 10, doubles:
     for rd in readings:
         if rd.value is None and not rd.overrange:
             raise ValueError(f"readings: {rd.where()} has no value")
+    tick = progress if progress is not None else (lambda *a: None)
+    tick("setting up", None, None)
     ev = Evaluator(circuit, readings, meters)
     if not readings:
         healthy = ev.make([], ev.healthy_prediction())
@@ -228,7 +238,8 @@ def diagnose(circuit: Circuit, readings, meters=None, *, top: int = 10, doubles:
         return Diagnosis(circuit, readings, "no-fault", [healthy], 0.0, _estimates(ev, healthy), [],
                          list(ev.params), [["no readings yet: take the suggested readings"]], [],
                          ["no readings: nothing can be told yet"], suggestions, ev)
-    ranking = rank_with(ev, doubles=doubles)
+    tick("ranking", None, None)
+    ranking = rank_with(ev, doubles=doubles, screen=screen, progress=progress)
     listed = ranking.hypotheses[:top]
     total = sum(h.probability for h in listed)
     tail = 1.0 - total
@@ -238,9 +249,12 @@ def diagnose(circuit: Circuit, readings, meters=None, *, top: int = 10, doubles:
                         h.probability / total if total > 0 else 1.0 / len(listed), h.drift_sd, h.exact)
         shown.append(h2)
     best = ranking.hypotheses[0]
-    sd = np.sqrt(ev.ev.u ** 2 + np.clip(np.diag(ev.ev.T0), 0, None))
+    tick("grouping", None, None)
+    with np.errstate(over="ignore"):
+        sd = np.sqrt(ev.ev.u ** 2 + np.clip(np.diag(ev.ev.T0), 0, None))
     groups = groups_from_hypotheses(ranking.hypotheses, sd)
-    sgroups, unseen = groups_from_sensitivity(list(ev.params), ev.S0, np.where(sd > 0, sd, 1.0), ev.ev.var_p)
+    sd_s = np.where(np.isfinite(sd) & (sd > 0), sd, np.where(sd > 0, np.finfo(float).max, 1.0))
+    sgroups, unseen = groups_from_sensitivity(list(ev.params), ev.S0, sd_s, ev.ev.var_p)
     all_groups = merge_groups([set(g) for g in groups] + [set(g) for g in sgroups])
     explanations = [_explain(ev, h, ranking.healthy) for h in ranking.hypotheses[:3]]
     recheck = _recheck(ev, best) if ranking.verdict == "inconsistent" else []
@@ -256,13 +270,27 @@ def diagnose(circuit: Circuit, readings, meters=None, *, top: int = 10, doubles:
                          + (" and others" if len(unseen) > 12 else "") + ": a fault there would not show")
     if ranking.doubles_tried:
         notes.append("no single fault explained the readings, so pairs of faults were tried")
+    scr = ranking.screening
+    if scr is not None:
+        notes.append(f"large circuit: {scr.evaluated} of {scr.evaluated + scr.pruned + len(scr.unresolved)} "
+                     f"parts evaluated in full; the other {scr.pruned + len(scr.unresolved)} were screened "
+                     "by an upper bound of how well any fault of theirs could fit the readings")
+        if scr.unresolved:
+            notes.append(f"{len(scr.unresolved)} parts could not be told from a healthy circuit by these "
+                         f"readings and were not evaluated one by one (e.g. {', '.join(scr.unresolved[:6])}); "
+                         "their faults keep their share of the probability; take the suggested readings "
+                         "to narrow it")
     suggestions = []
     if advise:
         from .advise import suggest, suggestion_json
+        tick("advising", None, None)
         sug = suggest(circuit, readings, meters, costs=costs, power=power,
                       hypotheses=[(h.faults, h.probability) for h in ranking.hypotheses])
         suggestions = [suggestion_json(x) for x in sug]
-    return Diagnosis(circuit, readings, ranking.verdict, shown, tail, _estimates(ev, best), all_groups,
+    tick("estimating", None, None)
+    estimates = _estimates(ev, best)
+    tick("done", None, None)
+    return Diagnosis(circuit, readings, ranking.verdict, shown, tail, estimates, all_groups,
                      unseen, explanations, recheck, notes, suggestions, ev)
 
 
@@ -288,11 +316,9 @@ def _estimates(ev: Evaluator, h: Hypothesis) -> dict:
     nominal = np.array([circuit.part(r).value for r in params])
     S = ev.S0
     if h.faults:
-        overrides = {f.ref: (f.value if f.mode == "drift" else f.mode) for f in h.faults}
-        try:
-            S = np.nan_to_num(predict(circuit, ev.readings, ev.meters, overrides=overrides).sensitivity)
-        except Exception:  # noqa: BLE001 - a faulted network that cannot be re-solved: keep S0
-            S = ev.S0
+        Sf = ev.faulted_sensitivity(h.faults)
+        if Sf is not None:
+            S = np.nan_to_num(Sf)
     e = ev.ev
     use = (~e.ol) & np.isfinite(h.predicted)
     est = map_estimate(params, nominal, e.centre, e.var_p, S, np.nan_to_num(e.y), h.predicted, e.u, use, fixed)

@@ -10,6 +10,7 @@ from ..io.meters_file import load_meters, meters_with_default
 from ..io.readings_file import load_readings
 from ..units import format_value
 from .output import emit_json, table
+from .progress import progress_for
 
 BAR = 30
 
@@ -42,8 +43,12 @@ def run(args) -> int:
     if args.top < 1:
         from ..errors import InputError
         raise InputError("--top must be at least 1", key="--top")
+    progress = progress_for(path=args.circuit)
+    if progress is not None:
+        progress("reading files")
     circuit, meters, readings = load_inputs(args)
-    d = diagnose(circuit, readings, meters, top=args.top)
+    progress = progress or progress_for(circuit)
+    d = diagnose(circuit, readings, meters, top=args.top, progress=progress)
     if args.json:
         emit_json(diagnosis_json(d))
         return 0

@@ -52,6 +52,11 @@ ELV_DC = 120.0
 
 _MAX_HYP = 40
 _CHUNK = 60
+#: On a circuit with more candidate readings than this, only the readings near
+#: the leading suspects are weighed (:func:`near_suspects`).
+CANDIDATE_LIMIT = 3000
+#: How many candidate readings are weighed then, at most.
+NEAR_CAP = 100
 
 
 @dataclass(frozen=True)
@@ -112,13 +117,15 @@ def _key(rd: Reading):
     return (rd.quantity, rd.mode, rd.plus, rd.minus, rd.part, rd.setup, rd.frequency)
 
 
-def candidate_readings(circuit: Circuit, suspects=(), frequencies=None) -> list[Reading]:
+def candidate_readings(circuit: Circuit, suspects=(), frequencies=None, *, nodes=None,
+                       parts=None) -> list[Reading]:
     """Every reading worth considering on ``circuit``.
 
     Node voltages to ground and voltages across two-terminal parts (DC; AC at
     the circuit frequency and at ``frequencies`` when AC sources exist),
     currents through parts, in-circuit resistances across passive parts, and
-    lifted-part resistances of the ``suspects``.
+    lifted-part resistances of the ``suspects``.  ``nodes`` and ``parts``
+    (sets of names), when given, restrict the readings to those nodes and parts.
     """
     g = circuit.ground
     out = []
@@ -126,9 +133,12 @@ def candidate_readings(circuit: Circuit, suspects=(), frequencies=None) -> list[
     if circuit.has_ac:
         fs = frequencies if frequencies is not None else [circuit.frequency / 10, circuit.frequency * 10]
         modes += [("ac", None)] + [("ac", float(f)) for f in fs]
-    two = [p for p in circuit.parts if p.kind != "opamp"]
+    pool = circuit.parts if parts is None else [circuit.part(r) for r in sorted(parts)]
+    two = [p for p in pool if p.kind != "opamp"]
+    node_list = circuit.nodes if nodes is None else [n for n in circuit.nodes if n in nodes] \
+        if len(nodes) * 50 > len(circuit.nodes) else sorted(nodes)
     for mode, f in modes:
-        for n in circuit.nodes:
+        for n in node_list:
             if n != g:
                 out.append(Reading("voltage", mode, n, g, frequency=f, label=f"node {n}"))
         if f is None:
@@ -145,6 +155,41 @@ def candidate_readings(circuit: Circuit, suspects=(), frequencies=None) -> list[
         if p.kind in ("resistor", "fuse", "switch", "inductor", "capacitor"):
             out.append(Reading("resistance", None, part=ref, setup="lifted", label=f"{ref} alone"))
     return out
+
+
+def near_suspects(circuit: Circuit, suspects, cap=NEAR_CAP):
+    """The nodes and parts on or next to the ``suspects``, for about ``cap`` candidate readings.
+
+    On a large network a reading far from every suspect cannot separate
+    them, and weighing every node and part would cost one solve per
+    candidate.  The neighbourhood grows one part at a time (nodes joined by a
+    part) from the suspects' own nodes until its readings (a node voltage per
+    node; a voltage, a current and an in-circuit resistance per part) reach
+    about ``cap``.
+
+    Returns
+    -------
+    nodes : set of str
+    parts : set of str
+    """
+    g = circuit.ground
+    node_parts = {}
+    for p in circuit.parts:
+        for n in p.nodes:
+            if n != g:
+                node_parts.setdefault(n, []).append(p)
+    near = {n for r in suspects for n in circuit.part(r).nodes if n != g}
+    parts = set(suspects)
+    frontier = set(near)
+    while frontier:
+        new_parts = {p.ref for n in frontier for p in node_parts.get(n, ()) if p.ref not in parts}
+        if len(near) + 3 * len(parts | new_parts) > cap and len(near) + 3 * len(parts) > 0:
+            break
+        parts |= new_parts
+        nxt = {n for r in new_parts for n in circuit.part(r).nodes if n != g} - near
+        near |= nxt
+        frontier = nxt
+    return near, parts
 
 
 def _prior_hypotheses(circuit):
@@ -232,11 +277,17 @@ def suggest(circuit: Circuit, readings=(), meters=None, *, hypotheses=None, cost
             if x.ref not in suspects:
                 suspects.append(x.ref)
     taken = {_key(r) for r in readings}
-    cands = [c for c in candidate_readings(circuit, suspects) if _key(c) not in taken]
+    if 4 * len(circuit.parts) > CANDIDATE_LIMIT and suspects:
+        near, nparts = near_suspects(circuit, suspects)
+        cands = candidate_readings(circuit, suspects, nodes=near, parts=nparts)
+    else:
+        cands = candidate_readings(circuit, suspects)
+    cands = [c for c in cands if _key(c) not in taken]
     if not cands or len(kept) < 2:
         return []
-    nominal = predict(circuit, cands, meters)
-    board = Board(circuit, cands, meters)
+    share = {}
+    nominal = predict(circuit, cands, meters, share=share)
+    board = Board(circuit, cands, meters, share)
     singles = [(i, f[0]) for i, (f, _) in enumerate(kept) if len(f) == 1]
     items = [(circuit.part(x.ref), x.mode,
               None if x.mode != "drift" else np.array([x.value / circuit.part(x.ref).value]))

@@ -1172,7 +1172,7 @@ class Logbook:
     # diagnosis and outcome
 
     @_locked
-    def store_diagnosis(self, session_id, *, top=5) -> StoredDiagnosis:
+    def store_diagnosis(self, session_id, *, top=5, progress=None) -> StoredDiagnosis:
         """Diagnose the session's readings (those not struck out) and keep the result.
 
         Parameters
@@ -1180,6 +1180,9 @@ class Logbook:
         session_id : int
         top : int, optional
             Hypotheses to keep (>= 1).
+        progress : callable, optional
+            Passed to :func:`faultfind.diagnose.diagnose`: called as
+            ``progress(stage, done, total)`` as the diagnosis runs.
 
         Returns
         -------
@@ -1204,7 +1207,8 @@ class Logbook:
         circuit, meters = self._parsed(sid, row)
         logged = [r for r in self._readings(sid) if not r.struck]
         readings = [r.reading for r in logged]
-        doc = _clean_json(diagnosis_json(diagnose(circuit, readings, meters, top=top)))
+        doc = _clean_json(diagnosis_json(diagnose(circuit, readings, meters, top=top,
+                                                         progress=progress)))
         text = json.dumps(doc, ensure_ascii=False, allow_nan=False)
         last = max((r.seq for r in self._readings(sid)), default=0)
         when = _now()

@@ -287,14 +287,27 @@ class Bench:
         live = self.readings()
         return power_needed(live[-1]) if live else "on"
 
-    def diagnose(self):
+    def diagnose(self, progress=None):
         """Diagnose the readings that count and store the result in the logbook.
+
+        Parameters
+        ----------
+        progress : callable, optional
+            Called as ``progress(stage, done, total)`` as the diagnosis runs
+            (:func:`faultfind.diagnose.diagnose`), in the calling thread.
 
         Returns
         -------
         faultfind.io.logbook.StoredDiagnosis
+
+        Raises
+        ------
+        TypeError
+            ``progress`` is neither None nor callable.
         """
-        self.stored = self.book.store_diagnosis(self.session_id, top=5)
+        if progress is not None and not callable(progress):
+            raise TypeError(f"progress: must be callable or None, got {type(progress).__name__}")
+        self.stored = self.book.store_diagnosis(self.session_id, top=5, progress=progress)
         self.refresh()
         self.suggested = list(self.stored.document.get("suggestions", []))
         self.suggested_power = self.implied_power()

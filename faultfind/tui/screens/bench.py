@@ -11,12 +11,15 @@ freezes.  At 80x24 the findings, readings, parts and checks are tabs (keys
 
 from __future__ import annotations
 
+import itertools
 import threading
+import time
 
 from textual import on, work
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Horizontal, Vertical
+from textual.message import Message
 from textual.screen import Screen
 from textual.widgets import Footer, Input, Static, TabbedContent, TabPane
 
@@ -24,14 +27,39 @@ from ..widgets.checks import ChecksView
 from ..widgets.entry import ReadingEntry
 from ..widgets.findings import FindingsView
 from ..widgets.next_reading import NextReading
-from ..widgets.status import StatusLine
+from ..widgets.status import StatusLine, stage_words
 from ..widgets.tables import PartsTable, ReadingsTable
 from ..widgets.text import BAND_WORDS, hypothesis_label, short_label, tag
 
-__all__ = ["BenchScreen", "WIDE"]
+__all__ = ["BenchScreen", "DiagnosisProgress", "WIDE", "PROGRESS_EVERY"]
 
 #: Terminal width from which the findings stay beside the tabs.
 WIDE = 112
+
+#: Seconds between two status-line updates of the same diagnosis stage (the
+#: screening of a large circuit reports after every chunk of parts).
+PROGRESS_EVERY = 0.1
+
+
+class DiagnosisProgress(Message):
+    """A stage of the diagnosis running in the worker, posted from its thread.
+
+    Parameters
+    ----------
+    order : int
+        Place among the status-line updates (a later one wins over an earlier
+        one handled late).
+    stage : str
+    done, total : int or None
+        As :func:`faultfind.diagnose.diagnose`'s ``progress`` calls.
+    """
+
+    def __init__(self, order: int, stage: str, done=None, total=None) -> None:
+        super().__init__()
+        self.order = order
+        self.stage = stage
+        self.done = done
+        self.total = total
 
 
 class BenchScreen(Screen):
@@ -83,6 +111,8 @@ class BenchScreen(Screen):
         self._analysis_gen = 0
         self._pending_diagnosis = False
         self._analysis_lock = threading.Lock()
+        self._status_order = itertools.count(1)  # numbers the status-line updates
+        self._status_shown = 0  # number of the update on show
         self._committing = False
         self.working = False
 
@@ -227,21 +257,62 @@ class BenchScreen(Screen):
                 if self._pending_diagnosis:
                     self._pending_diagnosis = False
                     if b.readings():
-                        app.call_from_thread(self._busy, gen, 1, "ranking fault hypotheses")
-                        b.diagnose()
+                        app.call_from_thread(self._busy, gen, next(self._status_order), 1,
+                                             "ranking fault hypotheses")
+                        b.diagnose(progress=self._reporter())
                     else:  # every reading struck out: back to the advice before readings
                         b.suggested_power = None
                     app.call_from_thread(self._diagnosed)
                 if gen == self._analysis_gen:
-                    app.call_from_thread(self._busy, gen, 2, "choosing the next reading")
+                    app.call_from_thread(self._busy, gen, next(self._status_order), 2,
+                                         "choosing the next reading")
                     b.suggestions()
             except Exception as exc:  # noqa: BLE001 - shown in the findings, not raised
                 app.call_from_thread(self._analysis_failed, gen, exc)
             app.call_from_thread(self._analysis_done, gen)
 
-    def _busy(self, gen: int, step: int, text: str) -> None:
-        if gen == self._analysis_gen:
+    def _reporter(self):
+        """The diagnosis's ``progress`` callback, for the worker's thread.
+
+        It posts a :class:`DiagnosisProgress` and returns at once: it runs while
+        the logbook is locked for the diagnosis, so waiting for the UI thread
+        (``call_from_thread``) could deadlock with a UI action that writes to the
+        logbook meanwhile.  A new stage is always posted; further reports of the
+        same stage at most every :data:`PROGRESS_EVERY` seconds.
+        """
+        last = {"stage": None, "at": 0.0}
+
+        def report(stage, done=None, total=None) -> None:
+            now = time.monotonic()
+            if stage == last["stage"] and now - last["at"] < PROGRESS_EVERY:
+                return
+            last["stage"], last["at"] = stage, now
+            self.post_message(DiagnosisProgress(next(self._status_order), stage, done, total))
+
+        return report
+
+    def _newer(self, order: int) -> bool:
+        """True (and noted) when status update ``order`` is not older than the one shown."""
+        if order < self._status_shown:
+            return False
+        self._status_shown = order
+        return True
+
+    def _busy(self, gen: int, order: int, step: int, text: str) -> None:
+        if gen == self._analysis_gen and self._newer(order):
             self.query_one(StatusLine).busy(step, text)
+
+    @on(DiagnosisProgress)
+    def _diagnosis_progress(self, message: DiagnosisProgress) -> None:
+        message.stop()
+        if not self.working or not self._newer(message.order):
+            return  # the analysis is over, or a later update is on show already
+        text, fraction = stage_words(message.stage, message.done, message.total)
+        self.query_one(StatusLine).busy(1, text, fraction)
+
+    def _idle(self) -> None:
+        self._newer(next(self._status_order))  # progress still in the queue is stale now
+        self.query_one(StatusLine).idle()
 
     def _diagnosed(self) -> None:
         self.show_findings()  # bench.stored is always the newest diagnosis
@@ -257,7 +328,7 @@ class BenchScreen(Screen):
         if gen != self._analysis_gen:
             return
         self.working = False
-        self.query_one(StatusLine).idle()
+        self._idle()
         self.show_status()
         self.show_next()
 
@@ -416,7 +487,7 @@ class BenchScreen(Screen):
             return
         self._analysis_gen += 1  # any analysis still running is for an open session: drop it
         self.working = False
-        self.query_one(StatusLine).idle()
+        self._idle()
         self.entry.input.value = ""
         self.entry.input.disabled = True
         self.entry.leave()

@@ -11,12 +11,14 @@ from the rank-one engine with one factorization per analysis.
 
 from __future__ import annotations
 
+import contextlib
 import math
 import tomllib
 from dataclasses import dataclass
 
 import numpy as np
 
+from .blas import one_thread
 from .engine.advise import expected_information_gain
 from .engine.hypotheses import Board, Fault, rank
 from .engine.meter import standard_uncertainty
@@ -224,7 +226,7 @@ def _scale(rd, meter, values):
 
 
 def suggest(circuit: Circuit, readings=(), meters=None, *, hypotheses=None, costs=None,
-            power=None, top=5) -> list[Suggestion]:
+            power=None, top=5, factors=None) -> list[Suggestion]:
     """The next readings worth taking, best first.
 
     Parameters
@@ -244,11 +246,21 @@ def suggest(circuit: Circuit, readings=(), meters=None, *, hypotheses=None, cost
         reading needed (energized when there is none).
     top : int
         How many suggestions.
+    factors : dict, optional
+        Factored healthy networks of ``circuit`` from an earlier
+        :func:`~faultfind.engine.predict.predict` (its ``share``), reused
+        instead of factoring again.
 
     Returns
     -------
     list of Suggestion
     """
+    ctx = one_thread() if len(circuit.parts) < 5000 else contextlib.nullcontext()
+    with ctx:
+        return _suggest(circuit, readings, meters, hypotheses, costs, power, top, factors)
+
+
+def _suggest(circuit, readings, meters, hypotheses, costs, power, top, factors):
     if power not in (None, "on", "off"):
         raise ValueError(f"power: expected 'on' or 'off', got {power!r}")
     meters = meters_with_default(meters)
@@ -285,7 +297,7 @@ def suggest(circuit: Circuit, readings=(), meters=None, *, hypotheses=None, cost
     cands = [c for c in cands if _key(c) not in taken]
     if not cands or len(kept) < 2:
         return []
-    share = {}
+    share = dict(factors or {})
     nominal = predict(circuit, cands, meters, share=share)
     board = Board(circuit, cands, meters, share)
     singles = [(i, f[0]) for i, (f, _) in enumerate(kept) if len(f) == 1]

@@ -8,10 +8,12 @@ values from the E-series, and the JSON document of cli.md.
 
 from __future__ import annotations
 
+import contextlib
 from dataclasses import dataclass, field
 
 import numpy as np
 
+from .blas import one_thread
 from .engine.ambiguity import groups_from_hypotheses, groups_from_sensitivity, merge_groups
 from .engine.estimate import limit_value, map_estimate
 from .engine.hypotheses import DRIFT_RANGE, Evaluator, Hypothesis, rank_with
@@ -24,6 +26,8 @@ from .units import format_value
 __all__ = ["Diagnosis", "diagnose", "diagnosis_json", "describe_fault"]
 
 UNITS = QUANTITY_UNITS
+#: Circuits with fewer parts are diagnosed with single-threaded BLAS (:mod:`faultfind.blas`).
+ONE_THREAD_BELOW = 5000
 
 
 @dataclass
@@ -218,6 +222,14 @@ def diagnose(circuit: Circuit, readings, meters=None, *, top: int = 10, doubles:
     -------
     Diagnosis
     """
+    # small boards: many tiny dense operations, faster without BLAS threads;
+    # large networks: a few large products that use them well
+    ctx = one_thread() if len(circuit.parts) < ONE_THREAD_BELOW else contextlib.nullcontext()
+    with ctx:
+        return _diagnose(circuit, readings, meters, top, doubles, advise, costs, power, progress, screen)
+
+
+def _diagnose(circuit, readings, meters, top, doubles, advise, costs, power, progress, screen):
     if top < 1:
         raise ValueError(f"top: must be at least 1, got {top}")
     meters = meters_with_default(meters)
@@ -285,7 +297,8 @@ def diagnose(circuit: Circuit, readings, meters=None, *, top: int = 10, doubles:
         from .advise import suggest, suggestion_json
         tick("advising", None, None)
         sug = suggest(circuit, readings, meters, costs=costs, power=power,
-                      hypotheses=[(h.faults, h.probability) for h in ranking.hypotheses])
+                      hypotheses=[(h.faults, h.probability) for h in ranking.hypotheses],
+                      factors=ev.share)
         suggestions = [suggestion_json(x) for x in sug]
     tick("estimating", None, None)
     estimates = _estimates(ev, best)

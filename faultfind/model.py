@@ -180,6 +180,13 @@ class Circuit:
             object.__setattr__(self, "_nodes", tuple(seen))
         return self._nodes
 
+    @property
+    def fault_parts(self) -> tuple:
+        """The parts that have fault modes, in file order (computed once)."""
+        if getattr(self, "_fault_parts", None) is None:
+            object.__setattr__(self, "_fault_parts", tuple(p for p in self.parts if p.fault_modes))
+        return self._fault_parts
+
     def has_node(self, name: str) -> bool:
         """True when ``name`` is a node of the circuit."""
         if getattr(self, "_node_set", None) is None:

@@ -203,6 +203,26 @@ def test_screened_ranking_equals_the_full_one(seed, fault, monkeypatch, found):
     found.append(b.verdict)
 
 
+@pytest.mark.parametrize("seed", [41, 42])
+def test_screened_ranking_equals_the_full_one_with_capacitors_and_switches(seed):
+    """Parts without a DC current (a snubber capacitor, an open bypass switch) have
+    no sensitivity column: the screen takes their direction explicitly."""
+    c = grid(4, seed)
+    extra = (Part("C1", "capacitor", ("G1_1", GROUND), 1e-6, 0.1, 0.1),
+             Part("C2", "capacitor", ("G2_3", "G3_3"), 4.7e-7, 0.1, 0.1),
+             Part("S1", "switch", ("G0_3", GROUND), 0.05, 0.5, 0.5, state="open"))
+    c = Circuit(c.title, GROUND, c.parts + extra)
+    m = bench_meter()
+    rds = node_readings(c)
+    fault = [("C1", "short", None)] if seed == 41 else [("S1", "short", None)]
+    sim = simulate_readings(c, rds, m, fault, rng=seed)
+    a = rank_with(Evaluator(c, sim, m), screen=True)
+    b = rank_with(Evaluator(c, sim, m), screen=False)
+    assert [(h.label, round(h.probability, 6)) for h in a.hypotheses if h.probability > 1e-6] == \
+        [(h.label, round(h.probability, 6)) for h in b.hypotheses if h.probability > 1e-6]
+    assert b.hypotheses[0].faults[0].ref == fault[0][0]
+
+
 def test_screen_prunes_on_a_clear_fault():
     """A heater element gone low (a tenth of its value) in a 10 x 10 grid read at
     every node: the fault comes first, most parts are never evaluated one by

@@ -22,8 +22,25 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+from scipy.linalg import solve_triangular
 
-__all__ = ["Estimate", "map_estimate", "limit_value"]
+__all__ = ["Estimate", "map_estimate", "limit_value", "weighted_gram"]
+
+#: Columns per block in products over every part (keeps temporaries small:
+#: on a 100,000-part network a full-width temporary costs more to allocate
+#: than the arithmetic).
+COLUMN_BLOCK = 8192
+
+
+def weighted_gram(S, w, block=COLUMN_BLOCK):
+    """``(S * w) @ S.T`` for a wide ``S`` (readings x parts), in column blocks."""
+    S = np.asarray(S)
+    n, m = S.shape
+    out = np.zeros((n, n), dtype=np.result_type(S, w))
+    for a in range(0, m, block):
+        Sa = S[:, a:a + block]
+        out += (Sa * w[a:a + block]) @ Sa.T
+    return out
 
 
 @dataclass(frozen=True)
@@ -76,14 +93,25 @@ def map_estimate(params, nominal, centre, var_p, S, y, pred, u, use, fixed):
     theta = centre.copy()
     var = var_p.copy()
     if use.any() and free.any():
-        Su = S[np.ix_(use, free)]
-        Pf = var_p[free]
-        C = (Su * Pf) @ Su.T + np.diag(u[use] ** 2)
-        r = y[use] - pred[use] - Su @ centre[free]
+        Su = S if use.all() else S[use]
+        Pf = np.where(free, var_p, 0.0)        # a fixed part contributes no spread
+        C = weighted_gram(Su, Pf) + np.diag(u[use] ** 2)
+        r = y[use] - pred[use] - Su @ np.where(free, centre, 0.0)
         try:
-            K = np.linalg.solve(C, Su * Pf).T          # P S^T C^-1, shape (mf, nu)
-            theta[free] = centre[free] + K @ r
-            var[free] = Pf - np.einsum("ij,ji->i", K, Su * Pf)
+            # with C = L L^T and B = L^-1 S:  P S^T C^-1 r = P B^T (L^-1 r),
+            # diag(P S^T C^-1 S P) = P^2 * (column sums of B^2); in column blocks
+            L = np.linalg.cholesky(C)
+            Li = solve_triangular(L, np.eye(L.shape[0]), lower=True, check_finite=False)
+            z = Li @ r
+            new_theta = np.empty(len(theta))
+            new_var = np.empty(len(var))
+            for a in range(0, Su.shape[1], COLUMN_BLOCK):
+                sl = slice(a, a + COLUMN_BLOCK)
+                B = Li @ Su[:, sl]
+                new_theta[sl] = centre[sl] + Pf[sl] * (B.T @ z)
+                new_var[sl] = Pf[sl] - Pf[sl] ** 2 * np.einsum("ij,ij->j", B, B)
+            theta[free] = new_theta[free]
+            var[free] = new_var[free]
         except np.linalg.LinAlgError:
             pass
     sd = np.sqrt(np.clip(var, 0, None))

@@ -29,6 +29,7 @@ from scipy.linalg import solve_triangular
 from scipy.special import log_ndtr
 
 from .bands import log_tolerance
+from .estimate import weighted_gram
 from .meter import standard_uncertainty
 
 __all__ = ["Evidence", "GROSS"]
@@ -39,6 +40,11 @@ __all__ = ["Evidence", "GROSS"]
 GROSS = 2500.0
 
 _LOG2PI = np.log(2 * np.pi)
+
+#: First-pass rows whose tolerance spread departs from the healthy one by more
+#: than this (relative variance, weighted by the tolerance's share of the
+#: reading's variance) are scored with their own covariance, exactly.
+SCALE_OK = 0.1
 
 #: Top range assumed for an OL display of a voltage or a current, which a meter
 #: profile does not state: 1000 V and 10 A, the usual top ranges of a handheld
@@ -90,7 +96,7 @@ class Evidence:
         self.centre = centre
         # healthy: the mean shift of asymmetric tolerances moves the expected reading
         self.shift0 = self.S0 @ centre
-        self.T0 = (self.S0 * self.var_p) @ self.S0.T
+        self.T0 = weighted_gram(self.S0, self.var_p)
         d = np.sqrt(np.clip(np.diag(self.T0), 0, None))
         with np.errstate(divide="ignore", invalid="ignore"):
             rel = d / np.abs(self.pred0)
@@ -220,7 +226,7 @@ class Evidence:
         idx = self._block()[0]
         return self._scales(self.pred0)[idx]
 
-    def chi2_rows(self, P, drops, with_logdet=False):
+    def chi2_rows(self, P, drops, with_logdet=False, blocks=None, window=None):
         """chi-square of many predictions with the full covariance, approximately.
 
         Each row's covariance is taken as the healthy covariance (with the
@@ -241,6 +247,12 @@ class Evidence:
         with_logdet : bool
             Also return the log-determinant term, so that
             ``-0.5 * (chi2 + logdet)`` is each row's log-likelihood.
+        blocks, window : ndarray of int and float, optional
+            For a search (a drift's trial values): rows with the same block
+            number are candidates for one minimum, and a row whose chi-square
+            is more than ``window`` above its block's best by both the kept
+            correlations and the diagonal alone is not re-scored exactly (it
+            cannot be the minimum).
         """
         P = np.atleast_2d(np.asarray(P, dtype=float))
         k = P.shape[0]
@@ -291,6 +303,25 @@ class Evidence:
         chi2 = q + corr
         logdet = (logdet0 + ldc + np.log(var_h).sum(axis=1) - np.log(cd).sum(axis=1)
                   + nb * _LOG2PI)
+        # rows that rescale the tolerance spread where it matters: the kept
+        # correlations would be wrong (a fault that drives the readings to zero
+        # leaves only the meter's independent errors): score them exactly
+        w = T0d / (T0d + self.u[idx] ** 2)
+        far = good & (np.max(w[None, :] * np.abs(sc ** 2 - 1.0), axis=1) > SCALE_OK)
+        far |= good & np.any(extra > SCALE_OK * self.u[idx] ** 2, axis=1)
+        if far.any() and blocks is not None and window is not None:
+            c2d = self.diag_chi2_rows(P[far], [drops[i] for i in np.flatnonzero(far)])
+            low = chi2.copy()
+            low[far] = np.minimum(chi2[far], c2d)
+            blocks = np.asarray(blocks)
+            best = np.full(blocks.max() + 1, np.inf)
+            np.minimum.at(best, blocks, np.where(np.isfinite(low), low, np.inf))
+            far &= low <= best[blocks] + window
+        if far.any():
+            rows = np.flatnonzero(far)
+            c2x, ldx = self._exact_block(Pb[rows], sc[rows], extra[rows], js[rows], idx)
+            chi2[rows] = c2x
+            logdet[rows] = ldx
         # readings outside the block (OL displays, predictions undefined in healthy)
         rest = np.ones(self.n, dtype=bool)
         rest[idx] = False
@@ -304,6 +335,44 @@ class Evidence:
             logdet[r] = -2.0 * ll - c2 if np.isfinite(ll) else np.inf
         chi2 = np.where(np.any(np.isnan(P), axis=1), np.inf, chi2)
         return (chi2, logdet) if with_logdet else chi2
+
+    def _exact_block(self, Pb, sc, extra, js, idx, chunk=None):
+        """Full-covariance chi-square and log-determinant over the numeric block,
+        exactly as :meth:`score` (batched Cholesky factors), for rows with one
+        fixed column ``js`` (-1: none)."""
+        nb = idx.size
+        chunk = chunk or max(1, int(4_000_000 // max(nb * nb, 1)))
+        T0b = self.T0[np.ix_(idx, idx)]
+        u2 = self.u[idx] ** 2
+        c2 = np.empty(len(Pb))
+        ld = np.empty(len(Pb))
+        for a in range(0, len(Pb), chunk):
+            sl = slice(a, a + chunk)
+            j = js[sl]
+            s = np.where(j[:, None] >= 0, self.S0[np.ix_(idx, np.maximum(j, 0))].T, 0.0)
+            v = np.where(j >= 0, self.var_p[np.maximum(j, 0)], 0.0)
+            C = np.einsum("ki,ij,kj->kij", sc[sl], T0b, sc[sl])
+            ss = s * sc[sl]
+            C -= v[:, None, None] * np.einsum("ki,kj->kij", ss, ss)
+            C[:, np.arange(nb), np.arange(nb)] += u2[None, :] + extra[sl]
+            r = self.y[idx][None, :] - Pb[sl]
+            try:
+                L = np.linalg.cholesky(C)
+                zz = solve_triangular(L, r[..., None], lower=True, check_finite=False)[..., 0]
+                c2[sl] = np.einsum("ij,ij->i", zz, zz)
+                ld[sl] = 2.0 * np.log(np.diagonal(L, axis1=1, axis2=2)).sum(axis=1) + nb * _LOG2PI
+            except np.linalg.LinAlgError:
+                for q in range(C.shape[0]):
+                    try:
+                        Lq = np.linalg.cholesky(C[q])
+                        z = solve_triangular(Lq, r[q], lower=True, check_finite=False)
+                        c2[a + q] = float(z @ z)
+                        ld[a + q] = 2.0 * float(np.log(np.diag(Lq)).sum()) + nb * _LOG2PI
+                    except np.linalg.LinAlgError:
+                        var = np.diag(C[q])
+                        c2[a + q] = float((r[q] ** 2 / var).sum())
+                        ld[a + q] = float(np.log(var).sum()) + nb * _LOG2PI
+        return c2, ld
 
     def _row_vars(self, P, drops):
         """Diagonal of each row's covariance (as :meth:`diag_chi2_rows` uses)."""

@@ -54,6 +54,9 @@ class Factorization:
                             options={"SymmetricMode": True})
         except RuntimeError as exc:  # "Factor is exactly singular"
             raise SolveError(f"the network equations are singular ({exc})") from None
+        #: True when ``A`` equals its transpose (an MNA matrix stamped
+        #: symmetrically): adjoint solves are then forward solves.
+        self.symmetric = bool(abs(A - A.T).max() <= 1e-14 * abs(A).max()) if A.nnz else True
         d = np.abs(self._lu.U.diagonal())
         if d.size and (not np.all(np.isfinite(d)) or d.min() <= 1e-15 * d.max()):
             raise SolveError("the network equations are singular or nearly so "
@@ -77,3 +80,10 @@ class Factorization:
     def solve_adjoint(self, B) -> np.ndarray:
         """Solve ``A^T X = B`` (transpose, not conjugate transpose)."""
         return self._run(B, "T")
+
+    def solve_both(self, B):
+        """``(A^{-1} B, A^{-T} B)``, with one solve when ``A`` is symmetric."""
+        X = self.solve(B)
+        if getattr(self, "symmetric", False):
+            return X, X
+        return X, self.solve_adjoint(B)

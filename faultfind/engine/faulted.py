@@ -67,7 +67,7 @@ def faulted_sensitivity(board, fault):
         rt = np.array(g.rtype)
         if not np.all(np.isin(rt, ("v", "br", "ohm", "zero", "ol"))):
             return None
-        st = g.__dict__.get("_stamps")
+        st = getattr(g, "stamps", None) or g.__dict__.get("_stamps")
         if st is None:
             st = g._stamps = Stamps(circuit, g.net, board.pindex)
         live = g.analysis != "off"

@@ -32,6 +32,7 @@ from scipy.special import logsumexp
 from scipy.stats import chi2 as chi2_dist
 
 from ..errors import SolveError
+from .estimate import weighted_gram
 from .evidence import Evidence
 from .oracle import oracle_readings
 from .predict import analysis_key, lifted_value, parameters, predict
@@ -56,7 +57,10 @@ EXACT_TOP = 4
 PAIR_TOP = 6
 #: Drifts whose log posterior is within this of the leader are refitted on the full score.
 REFIT_WINDOW = 20.0
-#: How many hypotheses of the first (diagonal) pass are scored with the full covariance.
+#: A drift trial value this far (chi-square) above the best of its part by
+#: every approximation is not scored exactly (it cannot be the best).
+SEARCH_WINDOW = 50.0
+#: How many hypotheses of the first pass are scored with the full covariance.
 FULL_TOP = 40
 
 
@@ -304,6 +308,8 @@ class Evaluator(Board):
         super().__init__(circuit, readings, meters, share)
         for g in share.values():
             g.cols = {}   # the groups hold their own copies now
+        #: analysis key -> factored healthy network (for another predict() on this circuit)
+        self.share = share
         self.pred0 = nominal.value if self.n else np.zeros(0)
         self.S0 = nominal.sensitivity if self.n else np.zeros((0, len(self.params)))
         self.ev = Evidence(self.readings, meters, self.pred0, self.S0, self.tol_low, self.tol_high)
@@ -329,7 +335,7 @@ class Evaluator(Board):
         if S is None or not np.all(np.isfinite(S)):
             return h
         ev = self.ev
-        T = (S * ev.var_p) @ S.T
+        T = weighted_gram(S, ev.var_p)
         pred = h.predicted
         num = (~ev.ol) & np.isfinite(pred)
         if not num.any():
@@ -360,6 +366,16 @@ class Evaluator(Board):
         that does not apply, by re-solving the faulted circuit.  None when
         the faulted circuit cannot be solved.
         """
+        cache = self.__dict__.setdefault("_fsens", {})
+        key = tuple(faults)
+        if key in cache:
+            return cache[key]
+        if len(cache) > 8:
+            cache.clear()
+        cache[key] = S = self._faulted_sensitivity(faults)
+        return S
+
+    def _faulted_sensitivity(self, faults):
         if len(faults) == 1:
             from .faulted import faulted_sensitivity
             S = faulted_sensitivity(self, faults[0])
@@ -425,7 +441,7 @@ class Evaluator(Board):
         curv_a = np.full(L, np.nan)
         offs = np.array([-1.0, -0.5, 0.0, 0.5, 1.0])
         rows = np.arange(L)
-        for shrink in (1.0, 0.15, 0.02, 0.003):
+        for shrink in (1.0, 0.15, 0.02):
             if L == 0:
                 break
             pts = rho_a[:, None] + (step_a * shrink)[:, None] * offs
@@ -478,7 +494,8 @@ class Evaluator(Board):
             return []
         sizes = [len(x) for x in P]
         drops = [[self.pindex.get(p.ref, -1)] for p, k in zip(parts, sizes) for _ in range(k)]
-        c2 = self.ev.chi2_rows(np.vstack(P), drops)
+        blocks = np.repeat(np.arange(len(sizes)), sizes)
+        c2 = self.ev.chi2_rows(np.vstack(P), drops, blocks=blocks, window=SEARCH_WINDOW)
         return np.split(c2, np.cumsum(sizes)[:-1])
 
     def refit_drift(self, h):
@@ -531,7 +548,7 @@ class Evaluator(Board):
     def prior(self, faults):
         """Log prior of a list of faults."""
         if not hasattr(self, "_wtotal"):
-            self._wtotal = sum(KIND_WEIGHTS.get(p.kind, 0.0) for p in self.circuit.parts if p.fault_modes)
+            self._wtotal = sum(KIND_WEIGHTS.get(p.kind, 0.0) for p in self.circuit.fault_parts)
         return log_prior(self.circuit.parts, [(self.circuit.part(f.ref), f.mode) for f in faults],
                          self._wtotal)
 
@@ -653,13 +670,15 @@ def _screened_first(ev: Evaluator, parts, healthy, progress=None):
     lead = max([healthy.log_post] + [h.log_post for h, _ in first])
     done = 0
     total = min(len(order), SCREEN_BUDGET)
+    chunk = max(1, SCREEN_CHUNK // 4)   # small first: the leader is usually among the first few
     while done < len(order) and done < SCREEN_BUDGET and ub[order[done]] >= lead - SCREEN_MARGIN:
-        step = order[done:done + SCREEN_CHUNK]
+        step = order[done:done + chunk]
         step = step[ub[step] >= lead - SCREEN_MARGIN]
         got = _first_pass(ev, [by_ref[lb.refs[k]] for k in step])
         first += got
         lead = max([lead] + [h.log_post for h, _ in got])
-        done += SCREEN_CHUNK
+        done += chunk
+        chunk = min(2 * chunk, SCREEN_CHUNK)
         if progress is not None:
             progress("screening", min(done, total), total)
     rest = order[done:]
@@ -683,7 +702,7 @@ def rank_with(ev: Evaluator, *, doubles=True, screen=None, progress=None) -> Ran
     ``progress(stage, done, total)`` during long steps.
     """
     healthy = ev.make([], ev.healthy_prediction())
-    parts = [p for p in ev.circuit.parts if p.fault_modes]
+    parts = list(ev.circuit.fault_parts)
     use = screen if screen is not None else len(parts) >= SCREEN_PARTS
     got = _screened_first(ev, parts, healthy, progress) if use else None
     if got is None:

@@ -153,15 +153,31 @@ class Stamps:
             self._inc = sp.csr_matrix((vals, (rows, cols)), shape=(len(a), net.size))
         return self._inc
 
+    def pairs(self, X):
+        """``X[a] - X[b]`` per admittance element (rows), -1 meaning the reference."""
+        return self.incidence() @ np.ascontiguousarray(X)
+
+    def _gather_params(self, term, n_params):
+        """Sum element rows of ``term`` into parameter rows."""
+        if getattr(self, "_inj", None) is None:
+            ok = np.flatnonzero(self.jy >= 0)
+            self._inj = (ok, np.unique(self.jy[ok]).size == ok.size)
+        ok, injective = self._inj
+        if injective:
+            G = np.zeros((n_params,) + term.shape[1:], dtype=term.dtype)
+            G[self.jy[ok]] = term[ok]
+            return G
+        return np.asarray(self._scatter(n_params) @ term)
+
     def grad_block(self, Lam, X, n_params, skips):
-        """:meth:`grad` for a block of columns (one per reading); returns (n_params, k)."""
-        D = self.incidence()
-        term = (D @ np.ascontiguousarray(Lam)) * (D @ np.ascontiguousarray(X))
+        """Sensitivities ``lambda^T (db_j - dA_j x)`` for a block of columns (one
+        per reading); returns (n_params, k)."""
+        term = self.pairs(Lam) * self.pairs(X)
         term *= -self.dy[:, None]
         for q, k in enumerate(skips):
             if k >= 0:
                 term[k, q] = 0.0
-        G = np.asarray(self._scatter(n_params) @ term)
+        G = self._gather_params(term, n_params)
         G = G.astype(np.result_type(G, Lam, X), copy=False)
         for j, row, d in self.src:
             G[j] += Lam[row] * d
@@ -169,10 +185,9 @@ class Stamps:
 
     def minus_grad_block(self, Mu, W, n_params):
         """``sum_k dy_k (mu_a - mu_b)(w_a - w_b)`` per parameter, for a block (real part)."""
-        D = self.incidence()
-        term = (D @ np.ascontiguousarray(Mu)) * (D @ np.ascontiguousarray(W))
+        term = self.pairs(Mu) * self.pairs(W)
         term *= self.dy[:, None]
-        return np.asarray(self._scatter(n_params) @ term).real
+        return self._gather_params(term, n_params).real
 
 
 class _Group(Stamps):
@@ -181,6 +196,8 @@ class _Group(Stamps):
     def __init__(self, circuit, key, pindex, overrides=None):
         analysis, f = key
         self.cols = {}   # reading index -> (A^{-1} u, A^{-T} u), kept when shared
+        self.circuit = circuit
+        self.overrides = dict(overrides or {})
         net = assemble(circuit, analysis, f, overrides)
         self.lu = Factorization(net.A)
         self.x = self.lu.solve(net.b) if analysis != "off" else None
@@ -209,7 +226,8 @@ def predict(circuit: Circuit, readings, meters: dict, overrides: dict | None = N
         Filled with each analysis' network, factors and per-reading solves
         (analysis key to the internal group object with ``net``, ``lu``,
         ``x`` and ``cols``), so that a caller needing the same network does
-        not factor it again.
+        not factor it again.  An analysis already in ``share`` (from an
+        earlier call on the same circuit, without overrides) is reused.
 
     Returns
     -------
@@ -231,7 +249,8 @@ def predict(circuit: Circuit, readings, meters: dict, overrides: dict | None = N
     readings = list(readings)
     nr = len(readings)
     value = np.zeros(nr, dtype=complex)
-    sens = np.zeros((nr, npar), dtype=complex)
+    any_ac = any(rd.quantity != "resistance" and rd.mode == "ac" for rd in readings)
+    sens = np.zeros((nr, npar), dtype=complex if any_ac else float)   # real work for DC and ohms
     by_key: dict = {}
     for i, rd in enumerate(readings):
         meter: MeterProfile = meters.get(rd.meter or "default")
@@ -243,7 +262,10 @@ def predict(circuit: Circuit, readings, meters: dict, overrides: dict | None = N
             continue
         by_key.setdefault(key, []).append(i)
     for key, idx in by_key.items():
-        grp = _Group(circuit, key, pindex, overrides)
+        grp = share.get(key) if share is not None and not overrides else None
+        if grp is None or grp.circuit is not circuit or grp.overrides:
+            grp = _Group(circuit, key, pindex, overrides)
+        grp.cols = {}
         grp.keep = share is not None
         if share is not None:
             share[key] = grp
@@ -253,18 +275,20 @@ def predict(circuit: Circuit, readings, meters: dict, overrides: dict | None = N
             _live_block(circuit, grp, readings, idx, meters, npar, pindex, value, sens)
     mag = np.where(np.isfinite(value), value, np.inf)
     out_val = np.empty(nr)
-    out_sens = np.zeros((nr, npar))
+    out_sens = sens if not any_ac else np.zeros((nr, npar))
     for i, rd in enumerate(readings):
         v = mag[i]
         if not np.isfinite(v):
             out_val[i] = np.inf
+            out_sens[i] = 0.0
             continue
         if rd.quantity != "resistance" and rd.mode == "ac":
             out_val[i] = abs(v)
             out_sens[i] = (np.conj(v) * sens[i]).real / abs(v) if abs(v) > 0 else 0.0
         else:
             out_val[i] = v.real
-            out_sens[i] = sens[i].real
+            if any_ac:
+                out_sens[i] = sens[i].real
     return Prediction(out_val, value, out_sens, params)
 
 
@@ -319,10 +343,11 @@ def _live_block(circuit, grp, readings, idx, meters, npar, pindex, value, sens):
         part = cols[c0:c0 + _BLOCK]
         rows = [i for i, _ in part]
         U = np.column_stack([u for _, u in part])
-        W = lu.solve(U)
-        Mu = lu.solve_adjoint(U)
+        W, Mu = lu.solve_both(U)
         alpha = np.array(alphas[c0:c0 + _BLOCK], dtype=complex)
         s = np.array(ss[c0:c0 + _BLOCK], dtype=complex)
+        if not np.iscomplexobj(W) and not alpha.imag.any() and not s.imag.any():
+            alpha, s = alpha.real, s.real   # a real network: stay in real arithmetic
         z = np.einsum("ij,ij->j", U, W)
         ux = U.T @ x
         den = 1.0 + alpha * z
@@ -361,8 +386,7 @@ def _ohms_block(circuit, grp, readings, idx, npar, value, sens):
         part = cols[c0:c0 + _BLOCK]
         rows = [i for i, _ in part]
         U = np.column_stack([u for _, u in part])
-        W = lu.solve(U)
-        Mu = lu.solve_adjoint(U)
+        W, Mu = lu.solve_both(U)
         value[rows] = np.einsum("ij,ij->j", U, W)
         if grp.keep:
             for q, i in enumerate(rows):

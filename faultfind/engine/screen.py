@@ -31,7 +31,11 @@ screened and unscreened rankings.
 
 Readings outside the whitened block (``OL`` displays, predictions undefined
 in the healthy circuit) add their whole healthy penalty to every part's
-bound: they can never prune a part wrongly.
+bound: they can never prune a part wrongly.  A part whose best fit moves the
+tolerance-dominated readings far from their healthy size (a feed fuse open
+takes every reading, and its spread, to zero) is not bounded this way but
+always evaluated: the spread it removes is a gain the healthy covariance
+cannot bound.
 """
 
 from __future__ import annotations
@@ -43,6 +47,9 @@ from .mna import ADMITTANCE
 __all__ = ["LineBounds", "line_bounds", "line_directions"]
 
 _SCREENABLE = ("resistor", "fuse", "switch", "capacitor", "inductor")
+#: Best fits that rescale a tolerance-dominated reading's variance by more than
+#: this (relative) are not bounded but evaluated (as evidence.SCALE_OK).
+_RESCALE = 0.1
 
 
 class LineBounds:
@@ -138,56 +145,133 @@ def line_bounds(board, evidence, healthy_pred):
     for rd in board.readings:
         if rd.quantity == "current" and rd.part is not None:
             must.add(rd.part)
+    nonadm = set()
+    for g, _ in board.groups.values():
+        nonadm.update(ref for ref, (kind, _) in g.net.element.items() if kind != ADMITTANCE)
     refs = []
-    for p in circuit.parts:
-        if not p.fault_modes:
-            continue
-        if p.kind not in _SCREENABLE or p.ref in must:
+    for p in circuit.fault_parts:
+        if p.kind not in _SCREENABLE or p.ref in must or p.ref in nonadm:
             must.add(p.ref)
-            continue
-        ok = True
-        for key, (g, _) in board.groups.items():
-            el = g.net.element.get(p.ref)
-            if el is not None and el[0] != ADMITTANCE:
-                ok = False
-                break
-        if not ok:
-            must.add(p.ref)
-            continue
-        refs.append(p)
+        else:
+            refs.append(p)
     T = len(refs)
     nb = idx_blk.size
     r0 = np.where(np.isfinite(ev.y[idx_blk]), ev.y[idx_blk] - healthy_pred[idx_blk], 0.0)
     ev.whiten(np.zeros((nb, 0)))
     Li = ev._Linv
     rw = Li @ r0
-    cols = [dirs @ Li.T[pos[rows], :]                    # whitened: (T, nb)
-            for dirs, rows in line_directions(board, refs, keep=pos >= 0)]
-    G = len(cols)
-    if G == 0:
+    # Each part's direction is its sensitivity column (the column is the
+    # direction times the part's own current, up to the meters' loading), so
+    # the directions of every part come whitened from one product over the
+    # sensitivity matrix; parts with no current (a capacitor at DC, an open
+    # switch) take theirs explicitly.
+    js = np.array([board.pindex.get(p.ref, -1) for p in refs], dtype=np.int64)
+    S0r = ev.S0 if np.array_equal(idx_blk, np.arange(board.n)) else ev.S0[idx_blk]
+    m = S0r.shape[1]
+    groups = []      # block positions of each analysis' readings
+    for key, (g, idx) in board.groups.items():
+        q = pos[idx]
+        q = q[q >= 0]
+        if q.size:
+            groups.append(q)
+    G = len(groups)
+    if T == 0 or G == 0:
         gain = np.zeros(T)
-    elif G == 1:
-        K = cols[0]
-        h = np.einsum("ij,ij->i", K, K)
-        bvec = K @ rw
-        with np.errstate(divide="ignore", invalid="ignore"):
-            gain = np.where(h > 0, bvec ** 2 / np.where(h > 0, h, 1.0), 0.0) / 2.0
+        sol = np.zeros((T, G))
+        K_all = None
     else:
-        K = np.stack(cols, axis=1)                       # (T, G, nb)
-        H = np.einsum("tgn,thn->tgh", K, K)
-        bvec = np.einsum("tgn,n->tg", K, rw)
-        H = H + np.eye(G)[None] * (1e-12 * np.maximum(np.einsum("tgg->t", H), 1e-300))[:, None, None]
-        sol = np.linalg.solve(H, bvec[..., None])[..., 0]
-        gain = np.einsum("tg,tg->t", bvec, sol) / 2.0
+        Ks = []
+        for q in groups:
+            if q.size == nb:
+                Ks.append(Li @ S0r)                      # (nb, m), whitened columns
+            else:
+                M = np.zeros((nb, m))
+                M[q] = S0r[q]
+                Ks.append(Li @ M)
+        # parts with a zero column: explicit directions, whitened
+        colmax = np.abs(S0r).max(axis=0) if G else np.zeros(m)
+        jsafe = np.maximum(js, 0)
+        zero = np.flatnonzero((js < 0) | (colmax[jsafe] == 0))
+        Kz = None
+        if zero.size:
+            expl = line_directions(board, [refs[k] for k in zero], keep=pos >= 0)
+            Kz = []
+            for q, (dirs, rows) in zip(groups, expl):
+                M = np.zeros((nb, zero.size))
+                M[q] = dirs.T
+                Kz.append(Li @ M)
+        if G == 1:
+            K = Ks[0]
+            h_all = np.einsum("ij,ij->j", K, K)
+            b_all = rw @ K
+            h, bvec = h_all[jsafe], b_all[jsafe]
+            if zero.size:
+                h[zero] = np.einsum("ij,ij->j", Kz[0], Kz[0])
+                bvec[zero] = rw @ Kz[0]
+            with np.errstate(divide="ignore", invalid="ignore"):
+                gain = np.where(h > 0, bvec ** 2 / np.where(h > 0, h, 1.0), 0.0) / 2.0
+                sol = np.where(h > 0, bvec / np.where(h > 0, h, 1.0), 0.0)[:, None]
+        else:
+            H = np.empty((T, G, G))
+            bvec = np.empty((T, G))
+            for i_ in range(G):
+                bvec[:, i_] = (rw @ Ks[i_])[jsafe]
+                for k_ in range(i_, G):
+                    H[:, i_, k_] = H[:, k_, i_] = np.einsum("ij,ij->j", Ks[i_], Ks[k_])[jsafe]
+            if zero.size:
+                for i_ in range(G):
+                    bvec[zero, i_] = rw @ Kz[i_]
+                    for k_ in range(i_, G):
+                        H[zero, i_, k_] = H[zero, k_, i_] = np.einsum("ij,ij->j", Kz[i_], Kz[k_])
+            H = H + np.eye(G)[None] * (1e-12 * np.maximum(np.einsum("tgg->t", H), 1e-300))[:, None, None]
+            sol = np.linalg.solve(H, bvec[..., None])[..., 0]
+            gain = np.einsum("tg,tg->t", bvec, sol) / 2.0
+            h = None
+        K_all = Ks
+    # A part whose best fit moves the readings far from their healthy size
+    # (a feed fuse open: every reading to zero) also takes their tolerance
+    # spread with it, which the healthy covariance cannot bound: evaluate it.
+    if G and T:
+        p0 = np.abs(healthy_pred[idx_blk])
+        T0d = np.diag(ev.T0)[idx_blk]
+        wgt = T0d / (T0d + ev.u[idx_blk] ** 2)
+        hb = healthy_pred[idx_blk]
+        inv = np.where(p0 > 0, wgt / np.where(p0 > 0, p0, 1.0), 0.0)
+        # cheap screen: x_i = s* dir_i / healthy_i, w |(1 + x)^2 - 1| <= 2|x| + x^2 (w <= 1),
+        # with max |x_i| bounded by the weighted 2-norm of the column
+        nrm = np.sqrt(np.einsum("i,ij,ij->j", inv ** 2, S0r, S0r))[jsafe]
+        far = np.zeros(T, dtype=bool)
+        for g_, q in enumerate(groups):
+            x = np.abs(sol[:, g_]) * nrm
+            maybe = np.flatnonzero((2 * x + x ** 2 > _RESCALE) | np.isin(np.arange(T), zero))
+            if maybe.size:
+                D = S0r[q][:, js[maybe]] if zero.size == 0 else _dirs_for(board, refs, maybe, zero, js, S0r, q, pos)
+                with np.errstate(divide="ignore", invalid="ignore"):
+                    rel = np.abs(hb[q][:, None] + sol[maybe, g_][None, :] * D) / p0[q][:, None]
+                rel = np.where(np.isfinite(rel) & (p0[q] > 0)[:, None], rel, 1.0)
+                dev = np.max(wgt[q][:, None] * np.abs(rel ** 2 - 1.0), axis=0)
+                far[maybe[dev > _RESCALE]] = True
+        if far.any():
+            must.update(refs[k].ref for k in np.flatnonzero(far))
+            keep = ~far
+            refs = [p for p, k in zip(refs, keep) if k]
+            gain = gain[keep]
+            js = js[keep]
+            h = h[keep] if h is not None else None
+            zero = np.flatnonzero(np.isin(np.flatnonzero(keep), zero))
+            T = len(refs)
     # fixing the part's own tolerance shrinks the covariance: log-determinant gain
     if T:
-        js = np.array([board.pindex.get(p.ref, -1) for p in refs])
         have = js >= 0
-        Sb = ev.S0[idx_blk][:, np.maximum(js, 0)] * ev._sc0()[:, None]
-        if not have.all():
-            Sb[:, ~have] = 0.0
-        Wc = Li @ Sb
-        den = 1.0 - np.where(have, ev.var_p[np.maximum(js, 0)], 0.0) * (Wc * Wc).sum(axis=0)
+        jsafe = np.maximum(js, 0)
+        sc0 = ev._sc0()
+        if G == 1 and np.all(sc0 == 1.0) and groups[0].size == nb:
+            w2 = np.einsum("ij,ij->j", K_all[0], K_all[0])[jsafe]     # |L^-1 s|^2
+        else:
+            Wc = Li @ (S0r * sc0[:, None])
+            w2 = np.einsum("ij,ij->j", Wc, Wc)[jsafe]
+        w2 = np.where(have, w2, 0.0)
+        den = 1.0 - np.where(have, ev.var_p[jsafe], 0.0) * w2
         gain = gain - 0.5 * np.log(np.clip(den, 1e-300, 1.0))
     # readings outside the block: their whole healthy penalty
     rest = np.ones(board.n, dtype=bool)
@@ -197,3 +281,19 @@ def line_bounds(board, evidence, healthy_pred):
         pen = ev._chi2_terms(healthy_pred[None, :], var)[0][rest]
         gain = gain + 0.5 * float(np.sum(np.where(np.isfinite(pen), pen, 0.0)))
     return LineBounds([p.ref for p in refs], np.asarray(gain, dtype=float), sorted(must))
+
+
+def _dirs_for(board, refs, maybe, zero, js, S0r, q, pos):
+    """Unwhitened directions (rows q) of the parts ``maybe``: sensitivity
+    columns, or explicit directions for parts without a current."""
+    D = S0r[q][:, np.maximum(js[maybe], 0)]
+    z = np.flatnonzero(np.isin(maybe, zero))
+    if z.size:
+        expl = line_directions(board, [refs[maybe[k]] for k in z], keep=pos >= 0)
+        for dirs, rows in expl:
+            sel = np.isin(pos[rows], q)
+            if sel.any():
+                order = {int(p_): i for i, p_ in enumerate(q)}
+                cols = [order[int(p_)] for p_ in pos[rows][sel]]
+                D[np.ix_(cols, z)] = dirs[:, sel].T
+    return D

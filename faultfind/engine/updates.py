@@ -101,6 +101,7 @@ class Group:
         self.key = key
         self.analysis, f = key
         self.omega = 2 * np.pi * f if self.analysis == "ac" else 0.0
+        self.stamps = shared     # predict()'s stamp derivatives of this network, if shared
         if shared is not None:   # the same network, already factored by predict()
             self.net = net = shared.net
             self.lu = shared.lu
@@ -178,8 +179,7 @@ class Group:
                 if c is not None:
                     self.W[:, i], self.Mu[:, i] = c
         else:
-            self.W = self.lu.solve(U) if r else U
-            self.Mu = self.lu.solve_adjoint(U) if r else U
+            self.W, self.Mu = self.lu.solve_both(U) if r else (U, U)
         self.z = np.einsum("ij,ij->j", U, self.W)
         # projections of the right-hand side: x for live readings, the test current for ohms
         self.px = (U.T @ self.x) if self.analysis != "off" else self.z.copy()
@@ -284,7 +284,7 @@ class Group:
                 u[t.a] += 1
             if t.b >= 0:
                 u[t.b] -= 1
-            self._wt[t.ref] = (self.lu.solve(u), self.lu.solve_adjoint(u))
+            self._wt[t.ref] = self.lu.solve_both(u)
         return self._wt[t.ref]
 
     # ------------------------------------------------------------ evaluation
@@ -504,6 +504,16 @@ def batch(g: Group, terms, news) -> np.ndarray:
     b = np.array([t.b for t in terms], dtype=np.int64)
     y0 = np.array([t.y0 for t in terms], dtype=complex)[:, None, None]        # (T,1,1)
     ktt = self_terms(g, terms)[:, None, None]                                 # (T,1,1)
+    # a real network with real admittances: the same arithmetic in float (half the work)
+    real = (not np.iscomplexobj(g.W) and not np.any(news.imag) and not np.any(y0.imag)
+            and not np.any(g.d_m.imag) and not np.any(g.scale.imag))
+    if real:
+        news, y0, ktt = news.real, y0.real, ktt.real
+        d_m_all, scale_all, z_all, px_all = g.d_m.real, g.scale.real, g.z.real, g.px.real
+        nominal = g.nominal().real
+    else:
+        d_m_all, scale_all, z_all, px_all = g.d_m, g.scale, g.z, g.px
+        nominal = g.nominal()
     kti = (_rows(g.W, a) - _rows(g.W, b))[:, None, :]                         # (T,1,r)
     kit = (_rows(g.Mu, a) - _rows(g.Mu, b))[:, None, :]                       # (T,1,r)
     if live:
@@ -517,13 +527,13 @@ def batch(g: Group, terms, news) -> np.ndarray:
     with np.errstate(divide="ignore", invalid="ignore"):
         invd = np.where(inf, 0.0, 1.0 / np.where(d == 0, 1.0, d))
     e00 = invd + ktt                                                           # (T,K,1)
-    d_m = g.d_m[None, None, :]
+    d_m = d_m_all[None, None, :]
     has = d_m != 0
     with np.errstate(divide="ignore", invalid="ignore"):
         invm = np.where(has, 1.0 / np.where(has, d_m, 1.0), 0.0)
-    z = g.z[None, None, :]
+    z = z_all[None, None, :]
     e11 = invm + z
-    p0 = g.px[None, None, :]
+    p0 = px_all[None, None, :]
     det = e00 * e11 - kti * kit
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         s0 = (e11 * kx0 - kti * p0) / det
@@ -558,7 +568,7 @@ def batch(g: Group, terms, news) -> np.ndarray:
     v = np.where(drop, np.where(has, v0, p0), v)
     q = np.where(drop, np.where(has, s1c, 0.0), q)
     ya = (rt == "ya")[None, None, :]
-    out = np.where(ya, g.scale * v + q, g.scale * v)
+    out = np.where(ya, scale_all * v + q, scale_all * v)
     # the measured part itself faulted: one merged term with the shunt in series
     elem = np.array([e if e is not None else "" for e in g.elem], dtype=object)
     refs = np.array([t.ref for t in terms], dtype=object)
@@ -580,9 +590,10 @@ def batch(g: Group, terms, news) -> np.ndarray:
     out = np.where(olm, np.inf, out)
     same = (d == 0) & ~inf                     # no change at all: the healthy readings
     if same.any():
-        out = np.where(same, g.nominal()[None, None, :], out)
+        out = np.where(same, nominal[None, None, :], out)
     src = rt == "src"
-    out[:, :, src] = g.scale[src]
+    out[:, :, src] = scale_all[src]
     out[:, :, rt == "zero"] = 0.0
     out[:, :, rt == "ol"] = np.inf
     return out
+

@@ -59,6 +59,10 @@ class Expected:
     overrange: bool
 
 
+#: Readings whose bands are worked out together (memory: this many x the parts).
+EXPECT_CHUNK = 512
+
+
 def power_state(reading: Reading) -> str:
     """"off" for a resistance reading (circuit isolated), else "on"."""
     return "off" if reading.quantity == "resistance" else "on"
@@ -109,7 +113,12 @@ def expect(circuit: Circuit, readings=None, meters=None) -> list[Expected]:
     readings = survey_readings(circuit) if readings is None else list(readings)
     if not readings:
         return []
-    value, low, high, sigma = tolerance_bands(circuit, readings, meters)
+    # readings in chunks: the bands of each reading are its own, and the work
+    # arrays are readings x parts (bounded memory on a large network)
+    parts = []
+    for a in range(0, len(readings), EXPECT_CHUNK):
+        parts.append(tolerance_bands(circuit, readings[a:a + EXPECT_CHUNK], meters))
+    value, low, high, sigma = (np.concatenate([p_[k] for p_ in parts]) for k in range(4))
     out = []
     for i, rd in enumerate(readings):
         v = value[i]

@@ -267,3 +267,18 @@ def test_no_screen_for_ac_readings():
     rds = simulate_readings(c, [Reading("voltage", "ac", "B", GROUND)], m, [], rng=0)
     ev = Evaluator(c, rds, m)
     assert line_bounds(ev, ev.ev, ev.healthy_prediction()) is None
+
+
+def test_expect_bands_do_not_depend_on_chunking(monkeypatch):
+    """`expect` works out its bands in chunks of readings (bounded memory on a large
+    network); each reading's band uses its own significant parts, so the chunk
+    size changes nothing."""
+    import faultfind.expect as ex
+    c = grid(4, 51)
+    m = bench_meter()
+    whole = ex.expect(c, meters=m)
+    monkeypatch.setattr(ex, "EXPECT_CHUNK", 7)
+    chunked = ex.expect(c, meters=m)
+    assert len(whole) == len(chunked) > 40
+    for a, b in zip(whole, chunked):
+        assert (a.expected, a.low, a.high, a.sigma) == (b.expected, b.low, b.high, b.sigma)

@@ -75,8 +75,8 @@ def tolerance_bands(circuit, readings, meters, significant=0.01):
     worst = contrib.sum(axis=1)
     with np.errstate(divide="ignore", invalid="ignore"):
         share = np.where(worst[:, None] > 0, contrib / worst[:, None], 0.0)
-    exact = (share >= significant).any(axis=0)
-    lin = ~exact
+    E = share >= significant            # per reading: the parts moved exactly for it
+    exact = E.any(axis=0)
     # per-part effects: additive deviations d (linear) and log ratios g (log)
     acc = {k: np.zeros(n) for k in ("m", "v", "lo", "hi", "olo", "ohi",
                                      "gm", "gv", "glo", "ghi", "golo", "gohi")}
@@ -84,11 +84,11 @@ def tolerance_bands(circuit, readings, meters, significant=0.01):
     with np.errstate(divide="ignore", invalid="ignore"):
         Sl = np.where(same_sign[:, None], S / np.where(same_sign, yf, 1.0)[:, None], 0.0)
     for key, M in (("", S), ("g", Sl)):
-        ML = M[:, lin]
-        acc[key + "m" if key else "m"] += ML @ centre[lin]
-        acc[key + "v" if key else "v"] += (ML ** 2) @ (half[lin] ** 2 / 3.0)
-        acc[key + "lo" if key else "lo"] += ML @ centre[lin] - np.abs(ML) @ half[lin]
-        acc[key + "hi" if key else "hi"] += ML @ centre[lin] + np.abs(ML) @ half[lin]
+        ML = np.where(E, 0.0, M)        # linear for the parts not moved exactly for that reading
+        acc[key + "m" if key else "m"] += ML @ centre
+        acc[key + "v" if key else "v"] += (ML ** 2) @ (half ** 2 / 3.0)
+        acc[key + "lo" if key else "lo"] += ML @ centre - np.abs(ML) @ half
+        acc[key + "hi" if key else "hi"] += ML @ centre + np.abs(ML) @ half
     if exact.any():
         board = Board(circuit, readings, meters)
         for j in np.flatnonzero(exact):
@@ -97,6 +97,7 @@ def tolerance_bands(circuit, readings, meters, significant=0.01):
             rho = np.concatenate([centre[j] + half[j] * _NODES, [a, b]])
             P = board.predict_fault(part, "drift", np.exp(rho))
             P = np.where(np.isfinite(P), P, yf)
+            P = np.where(E[:, j][None, :], P, yf)      # only the readings it is significant for
             d = P - yf
             same_sign &= np.all(np.sign(P) == np.sign(yf), axis=0)
             with np.errstate(divide="ignore", invalid="ignore"):

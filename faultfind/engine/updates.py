@@ -568,7 +568,8 @@ def batch(g: Group, terms, news) -> np.ndarray:
     v = np.where(drop, np.where(has, v0, p0), v)
     q = np.where(drop, np.where(has, s1c, 0.0), q)
     ya = (rt == "ya")[None, None, :]
-    out = np.where(ya, scale_all * v + q, scale_all * v)
+    with np.errstate(invalid="ignore", over="ignore"):   # inf * 0 in a column the masks below replace
+        out = np.where(ya, scale_all * v + q, scale_all * v)
     # the measured part itself faulted: one merged term with the shunt in series
     elem = np.array([e if e is not None else "" for e in g.elem], dtype=object)
     refs = np.array([t.ref for t in terms], dtype=object)

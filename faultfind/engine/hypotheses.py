@@ -634,7 +634,7 @@ class Screening:
 
 
 #: Circuits with at least this many parts that can fail are screened (:mod:`.screen`).
-SCREEN_PARTS = 1500
+SCREEN_PARTS = 500
 #: A part whose best possible hypothesis is this far (log posterior) below the
 #: leader is not evaluated: e^-25 ~ 1.4e-11 each.
 SCREEN_MARGIN = 25.0

@@ -1,0 +1,130 @@
+"""Scale scenarios: a resistor mesh with one injected fault and 100 node readings.
+
+The mesh is :func:`mesh.mesh` (a heater array / power-distribution mesh: a
+48 V supply through a fuse into one corner, 0.01-1 ohm links, 100 ohm-9.1 kohm
+loads to ground, 1 % parts; invented).  One link near the middle of the mesh
+is open (a cracked link); the technician reads 100 node voltages to ground:
+80 clustered around the fault (the nodes nearest to it) and 20 spread evenly
+over the mesh, with a bench meter (6 1/2 digits; the handheld default's
+10 mV steps at 48 V would hide a cracked link's tens of millivolts).  Readings
+are what that meter would show on a board whose healthy parts are drawn inside
+their tolerance.
+
+    python benchmarks/scale_case.py N OUTDIR   # writes circuit.toml, readings.csv, meters.toml
+"""
+
+from __future__ import annotations
+
+import argparse
+import csv
+import math
+import pathlib
+import sys
+
+import numpy as np
+
+sys.path.insert(0, str(pathlib.Path(__file__).resolve().parent))
+
+from mesh import mesh, mesh_toml  # noqa: E402
+
+from faultfind.engine.meter import simulate as meter_display  # noqa: E402
+from faultfind.engine.predict import predict  # noqa: E402
+from faultfind.io.meters_file import meters_with_default, parse_meters  # noqa: E402
+from faultfind.model import QUANTITY_UNITS, Reading  # noqa: E402
+from faultfind.simulate import draw_board  # noqa: E402
+from faultfind.units import format_value  # noqa: E402
+
+N_CLUSTER = 80
+N_SPREAD = 20
+
+#: A bench multimeter of the 6 1/2-digit class (typical published figures, from memory).
+METERS_TOML = """[meter.bench]
+counts = 1200000
+input_resistance = "10G"
+current_shunt = "0.1"
+dc_voltage = "0.0035% + 6"
+ac_voltage = "0.06% + 30"
+dc_current = "0.05% + 6"
+ac_current = "0.1% + 40"
+resistance = "0.003% + 6"
+max_resistance = "100M"
+voltage_resolution = "0.1u"
+current_resolution = "1p"
+resistance_resolution = "1u"
+"""
+
+
+def _side(circuit):
+    return max(int(n[1:].split("_")[0]) for n in circuit.nodes if n.startswith("G")) + 1
+
+
+def scenario(n_parts: int, seed: int = 0):
+    """The circuit, the planted fault ``(ref, "open")`` and the readings (with values)."""
+    c = mesh(n_parts, seed)
+    side = _side(c)
+    mid = side // 2
+    centre = f"G{mid}_{mid}"
+    # the link from the centre node to its right-hand neighbour
+    fault = next(p.ref for p in c.parts
+                 if p.nodes == (centre, f"G{mid}_{mid + 1}") and p.kind == "resistor")
+    coords = []
+    for n in c.nodes:
+        if n.startswith("G"):
+            i, j = (int(x) for x in n[1:].split("_"))
+            coords.append((n, i, j))
+    d = np.array([math.hypot(i - mid, j - mid - 0.5) for _, i, j in coords])
+    order = np.argsort(d, kind="stable")
+    near = [coords[k][0] for k in order[:N_CLUSTER]]
+    step = max(1, side // int(math.ceil(math.sqrt(N_SPREAD))))
+    spread = []
+    for i in range(step // 2, side, step):
+        for j in range(step // 2, side, step):
+            n = f"G{i}_{j}"
+            if n not in near and len(spread) < N_SPREAD:
+                spread.append(n)
+    names = near + spread
+    rds = [Reading("voltage", "dc", n, c.ground, meter="bench", label=f"TP {n}") for n in names]
+    meters = meters_with_default(parse_meters(METERS_TOML))
+    rng = np.random.default_rng(seed + 1)
+    board = draw_board(c, rng)
+    true = predict(board, rds, meters, overrides={fault: "open"}).value
+    out = []
+    for rd, t in zip(rds, true):
+        v, ol = meter_display(meters["bench"], "voltage", "dc", float(t), rng)
+        out.append((rd, "OL" if ol else format_value(v, QUANTITY_UNITS["voltage"], digits=6)))
+    return c, (fault, "open"), out
+
+
+def write(n_parts: int, outdir, seed: int = 0):
+    """Write ``circuit.toml``, ``readings.csv`` and ``meters.toml`` under ``outdir``.
+
+    Returns (circuit path, readings path, meters path, fault, number of parts).
+    """
+    outdir = pathlib.Path(outdir)
+    outdir.mkdir(parents=True, exist_ok=True)
+    c, fault, rows = scenario(n_parts, seed)
+    cpath = outdir / "circuit.toml"
+    cpath.write_text(mesh_toml(c) + "\n", encoding="utf-8")
+    rpath = outdir / "readings.csv"
+    with open(rpath, "w", newline="", encoding="utf-8") as fh:
+        w = csv.writer(fh)
+        w.writerow(["quantity", "mode", "plus", "minus", "part", "setup", "value", "meter", "label"])
+        for rd, shown in rows:
+            w.writerow(["voltage", "dc", rd.plus, rd.minus, "", "", shown, "bench", rd.label])
+    mpath = outdir / "meters.toml"
+    mpath.write_text(METERS_TOML, encoding="utf-8")
+    return cpath, rpath, mpath, fault, len(c.parts)
+
+
+def main(argv=None):
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("n", type=int)
+    ap.add_argument("outdir")
+    ap.add_argument("--seed", type=int, default=0)
+    a = ap.parse_args(argv)
+    cp, rp, mp, fault, n = write(a.n, a.outdir, a.seed)
+    print(f"{n} parts; fault {fault[0]} {fault[1]}; {cp} {rp} {mp}")
+
+
+if __name__ == "__main__":
+    main()

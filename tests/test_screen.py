@@ -282,3 +282,20 @@ def test_expect_bands_do_not_depend_on_chunking(monkeypatch):
     assert len(whole) == len(chunked) > 40
     for a, b in zip(whole, chunked):
         assert (a.expected, a.low, a.high, a.sigma) == (b.expected, b.low, b.high, b.sigma)
+
+
+def test_one_reading_on_a_large_grid_stays_within_the_budget(monkeypatch):
+    """One reading that any part could fit on the line model: nothing prunes, so the
+    budget caps the work; the leader is the one the full evaluation finds, and the
+    parts left over keep their mass (a note says so)."""
+    c = grid(14, 61)                       # 2 + 14*14*3 - 28 = 562 parts: screened by default
+    m = bench_meter()
+    rd = Reading("voltage", "dc", "G7_7", GROUND, meter="bench")
+    healthy = predict(c, [rd], m).value[0]
+    sim = [Reading("voltage", "dc", "G7_7", GROUND, meter="bench", value=float(healthy) * 1.2, raw="x")]
+    monkeypatch.setattr(hy, "SCREEN_BUDGET", 48)
+    full = rank_with(Evaluator(c, sim, m), screen=False)
+    scr = rank_with(Evaluator(c, sim, m))
+    assert scr.screening is not None and scr.screening.evaluated <= 48 + 64
+    assert scr.screening.unresolved
+    assert scr.hypotheses[0].label == full.hypotheses[0].label

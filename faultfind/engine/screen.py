@@ -33,9 +33,10 @@ Readings outside the whitened block (``OL`` displays, predictions undefined
 in the healthy circuit) add their whole healthy penalty to every part's
 bound: they can never prune a part wrongly.  A part whose best fit moves the
 tolerance-dominated readings far from their healthy size (a feed fuse open
-takes every reading, and its spread, to zero) is not bounded this way but
-always evaluated: the spread it removes is a gain the healthy covariance
-cannot bound.
+takes every reading, and its spread, to zero) is not bounded this way -- the
+spread it removes is a gain the healthy covariance leaves out -- so that
+gain, worked out at the best fit, is added to its bound (capped by the
+universal bound: no residual at all and only the meters' own variance).
 """
 
 from __future__ import annotations
@@ -241,6 +242,8 @@ def line_bounds(board, evidence, healthy_pred):
         # with max |x_i| bounded by the weighted 2-norm of the column
         nrm = np.sqrt(np.einsum("i,ij,ij->j", inv ** 2, S0r, S0r))[jsafe]
         far = np.zeros(T, dtype=bool)
+        shrink = np.zeros(T)      # log-determinant gain of the spread the best fit removes
+        u2 = ev.u[idx_blk] ** 2
         for g_, q in enumerate(groups):
             x = np.abs(sol[:, g_]) * nrm
             maybe = np.flatnonzero((2 * x + x ** 2 > _RESCALE) | np.isin(np.arange(T), zero))
@@ -251,17 +254,19 @@ def line_bounds(board, evidence, healthy_pred):
                 rel = np.where(np.isfinite(rel) & (p0[q] > 0)[:, None], rel, 1.0)
                 dev = np.max(wgt[q][:, None] * np.abs(rel ** 2 - 1.0), axis=0)
                 far[maybe[dev > _RESCALE]] = True
+                # variances at the best fit against the healthy ones, where they shrink
+                var_fit = u2[q][:, None] + np.minimum(rel, 10.0) ** 2 * T0d[q][:, None]
+                shrink[maybe] += 0.5 * np.sum(np.log(np.maximum((T0d[q] + u2[q])[:, None] / var_fit, 1.0)),
+                                              axis=0)
         if far.any():
-            must.update(refs[k].ref for k in np.flatnonzero(far))
-            keep = ~far
-            refs = [p for p, k in zip(refs, keep) if k]
-            gain = gain[keep]
-            js = js[keep]
-            h = h[keep] if h is not None else None
-            zero = np.flatnonzero(np.isin(np.flatnonzero(keep), zero))
-            T = len(refs)
+            # a fit that shrinks the readings' spread gains the log-determinant
+            # the healthy covariance leaves out: add it (at the best fit), capped
+            # by the universal bound (no residual, only the meters' variance)
+            top = 0.5 * (float(rw @ rw) + blk[2] - float(np.sum(np.log(u2))))
+            gain = np.where(far, np.minimum(gain + shrink, max(top, 0.0)), gain)
     # fixing the part's own tolerance shrinks the covariance: log-determinant gain
     if T:
+        fixed = far if (G and T) else np.zeros(T, dtype=bool)
         have = js >= 0
         jsafe = np.maximum(js, 0)
         sc0 = ev._sc0()
@@ -272,7 +277,7 @@ def line_bounds(board, evidence, healthy_pred):
             w2 = np.einsum("ij,ij->j", Wc, Wc)[jsafe]
         w2 = np.where(have, w2, 0.0)
         den = 1.0 - np.where(have, ev.var_p[jsafe], 0.0) * w2
-        gain = gain - 0.5 * np.log(np.clip(den, 1e-300, 1.0))
+        gain = np.where(fixed, gain, gain - 0.5 * np.log(np.clip(den, 1e-300, 1.0)))
     # readings outside the block: their whole healthy penalty
     rest = np.ones(board.n, dtype=bool)
     rest[idx_blk] = False

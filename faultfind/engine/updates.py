@@ -38,6 +38,8 @@ from .mna import ADMITTANCE, BRANCH, INJECTION, assemble
 __all__ = ["Group", "Term", "admittance_of"]
 
 _SING = 1e-9
+#: Fault terms solved together for their self terms (memory: unknowns x this).
+_TERM_BLOCK = 128
 
 
 def admittance_of(part, value, analysis, omega):
@@ -466,16 +468,17 @@ def self_terms(g: Group, terms) -> np.ndarray:
     """``u_t^T A^{-1} u_t`` of each admittance term (resistance distance), cached per ref."""
     cache = g.__dict__.setdefault("_ktt", {})
     todo = [t for t in terms if t.ref not in cache]
-    if todo:
-        N = g.net.size
-        U = np.zeros((N, len(todo)), dtype=g.net.A.dtype)
-        for j, t in enumerate(todo):
+    N = g.net.size
+    for c0 in range(0, len(todo), _TERM_BLOCK):     # blocks: memory N x block, not N x terms
+        part = todo[c0:c0 + _TERM_BLOCK]
+        U = np.zeros((N, len(part)), dtype=g.net.A.dtype)
+        for j, t in enumerate(part):
             if t.a >= 0:
                 U[t.a, j] += 1
             if t.b >= 0:
                 U[t.b, j] -= 1
         W = g.lu.solve(U)
-        for j, t in enumerate(todo):
+        for j, t in enumerate(part):
             cache[t.ref] = (W[t.a, j] if t.a >= 0 else 0.0) - (W[t.b, j] if t.b >= 0 else 0.0)
     return np.array([cache[t.ref] for t in terms], dtype=complex)
 

@@ -69,9 +69,16 @@ def estimate_note(part, est, fault_mode=None) -> Content:
     return Content.from_markup(tag("bad", f"▼ {rel * 100:+.0f} %"))
 
 
+#: Largest number of parts listed one row each; a larger circuit lists the parts
+#: that matter (in the leading finding, estimated outside tolerance) first, then
+#: the others in file order up to this, and one closing row counting the rest.
+PARTS_SHOWN = 2000
+
+
 class PartsTable(DataTable):
     """One row a part: ref, nominal, tolerance, live estimate, note, ~95 % range, kind,
-    label."""
+    label.  On a circuit of more than :data:`PARTS_SHOWN` parts, the parts that
+    matter come first and the rest are counted in a last row."""
 
     def on_mount(self) -> None:
         self.cursor_type = "row"
@@ -89,7 +96,26 @@ class PartsTable(DataTable):
         best = (doc or {}).get("hypotheses", [{}])[0].get("faults", []) if doc else []
         modes = {f["ref"]: f["mode"] for f in best}
         self.clear()
-        for p in circuit.parts:
+        parts = list(circuit.parts)
+        hidden = 0
+        if len(parts) > PARTS_SHOWN:
+            def matters(p):
+                if p.ref in modes:
+                    return True
+                est = estimates.get(p.ref)
+                if est is None or p.value is None:
+                    return False
+                v = est.get("value")
+                if v is None or p.value == 0:
+                    return True
+                rel = v / p.value - 1.0
+                return not (-p.tol_low - 1e-9 <= rel <= p.tol_high + 1e-9)
+            first = [p for p in parts if matters(p)][:PARTS_SHOWN]
+            seen = {p.ref for p in first}
+            rest = [p for p in parts if p.ref not in seen][:max(PARTS_SHOWN - len(first), 0)]
+            hidden = len(parts) - len(first) - len(rest)
+            parts = first + rest
+        for p in parts:
             unit = p.info.unit or ""
             nominal = "—" if p.value is None else format_value(p.value, unit)
             tol = "—" if p.value is None else format_tolerance(p.tol_low, p.tol_high)
@@ -101,6 +127,11 @@ class PartsTable(DataTable):
                 rng = f"{_v(est.get('low'), unit)} .. {_v(est.get('high'), unit)}"
             note = estimate_note(p, est, modes.get(p.ref)) if doc else Content("—")
             self.add_row(p.ref, nominal, tol, value, note, rng, p.kind, p.label, key=p.ref)
+        if hidden:
+            more = f"{hidden:,} more parts" + (" within tolerance" if doc else "")
+            self.add_row("…", "", "", "", Content(""), more,
+                         "", "not listed: faultfind diagnose --json has every estimate",
+                         key="__more__")
 
 
 def _v(x, unit) -> str:

@@ -11,14 +11,13 @@ from the rank-one engine with one factorization per analysis.
 
 from __future__ import annotations
 
-import contextlib
 import math
 import tomllib
 from dataclasses import dataclass
 
 import numpy as np
 
-from .blas import one_thread
+from .blas import threads_for
 from .engine.advise import expected_information_gain
 from .engine.hypotheses import Board, Fault, rank
 from .engine.meter import standard_uncertainty
@@ -255,8 +254,7 @@ def suggest(circuit: Circuit, readings=(), meters=None, *, hypotheses=None, cost
     -------
     list of Suggestion
     """
-    ctx = one_thread() if len(circuit.parts) < 5000 else contextlib.nullcontext()
-    with ctx:
+    with threads_for(len(circuit.parts)):
         return _suggest(circuit, readings, meters, hypotheses, costs, power, top, factors)
 
 

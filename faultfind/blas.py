@@ -20,12 +20,14 @@ import contextlib
 import ctypes
 import threading
 
-__all__ = ["one_thread"]
+__all__ = ["one_thread", "threads_for", "ONE_THREAD_BELOW"]
 
 _SETTERS = ("scipy_openblas_set_num_threads64_", "scipy_openblas_set_num_threads",
             "openblas_set_num_threads64_", "openblas_set_num_threads")
 _GETTERS = ("scipy_openblas_get_num_threads64_", "scipy_openblas_get_num_threads",
             "openblas_get_num_threads64_", "openblas_get_num_threads")
+#: Circuits with fewer parts are worked on with one BLAS thread (:func:`threads_for`).
+ONE_THREAD_BELOW = 5000
 _lock = threading.Lock()
 _found = None
 _depth = 0
@@ -77,3 +79,10 @@ def one_thread():
             if _depth == 0 and saved is not None:
                 for (setter, _), n in zip(libs, saved):
                     setter(max(int(n), 1))
+
+
+def threads_for(n_parts):
+    """The BLAS threading for work on a circuit of ``n_parts`` parts: one thread for
+    a board (many tiny dense products), the library's own for a large network (a
+    few large products that use the threads well)."""
+    return one_thread() if n_parts < ONE_THREAD_BELOW else contextlib.nullcontext()

@@ -8,12 +8,11 @@ values from the E-series, and the JSON document of cli.md.
 
 from __future__ import annotations
 
-import contextlib
 from dataclasses import dataclass, field
 
 import numpy as np
 
-from .blas import one_thread
+from .blas import threads_for
 from .engine.ambiguity import groups_from_hypotheses, groups_from_sensitivity, merge_groups
 from .engine.estimate import limit_value, map_estimate
 from .engine.hypotheses import DRIFT_RANGE, Evaluator, Hypothesis, rank_with
@@ -26,8 +25,6 @@ from .units import format_value
 __all__ = ["Diagnosis", "diagnose", "diagnosis_json", "describe_fault"]
 
 UNITS = QUANTITY_UNITS
-#: Circuits with fewer parts are diagnosed with single-threaded BLAS (:mod:`faultfind.blas`).
-ONE_THREAD_BELOW = 5000
 
 
 @dataclass
@@ -222,10 +219,7 @@ def diagnose(circuit: Circuit, readings, meters=None, *, top: int = 10, doubles:
     -------
     Diagnosis
     """
-    # small boards: many tiny dense operations, faster without BLAS threads;
-    # large networks: a few large products that use them well
-    ctx = one_thread() if len(circuit.parts) < ONE_THREAD_BELOW else contextlib.nullcontext()
-    with ctx:
+    with threads_for(len(circuit.parts)):
         return _diagnose(circuit, readings, meters, top, doubles, advise, costs, power, progress, screen)
 
 

@@ -155,21 +155,8 @@ class Evidence:
     def diag_chi2_rows(self, P, drops, with_logdet=False):
         """:meth:`diag_chi2` with its own fixed columns for each row (a list per row)."""
         P = np.atleast_2d(P)
-        k = P.shape[0]
-        Tdiag = np.broadcast_to(np.diag(self.T0), (k, self.n)).copy()
-        for pos in range(max((len(d) for d in drops), default=0)):
-            js = np.array([d[pos] if pos < len(d) else -1 for d in drops])
-            ok = js >= 0
-            if ok.any():
-                cols = self.S0[:, js[ok]].T ** 2 * self.var_p[js[ok]][:, None]
-                Tdiag[ok] -= cols
-        T = np.clip(Tdiag, 0, None)
-        p0 = np.abs(self.pred0)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            sc = np.abs(P) / p0
-        sc = np.where(np.isfinite(sc) & (p0 > 0), np.clip(sc, 0, 10), 0.0)
+        var = self._row_vars(P, drops)
         finP = np.isfinite(P)
-        var = self.u ** 2 + sc ** 2 * T + np.where((p0 == 0) & finP, (self.rel_floor * np.where(finP, P, 0)) ** 2, 0)
         c2 = self._chi2_terms(P, var).sum(axis=1)
         if not with_logdet:
             return c2
@@ -202,13 +189,16 @@ class Evidence:
                     self._blk = None
         return self._blk
 
+    def whitener(self):
+        """``L0^{-1}``, the inverse Cholesky factor of the numeric block's healthy covariance (cached)."""
+        if getattr(self, "_Linv", None) is None:
+            L = self._block()[1]
+            self._Linv = solve_triangular(L, np.eye(L.shape[0]), lower=True, check_finite=False)
+        return self._Linv
+
     def whiten(self, V):
         """``L0^{-1} V`` for columns ``V`` over the numeric block (rows in block order)."""
-        blk = self._block()
-        if getattr(self, "_Linv", None) is None:
-            L = blk[1]
-            self._Linv = solve_triangular(L, np.eye(L.shape[0]), lower=True, check_finite=False)
-        return self._Linv @ V
+        return self.whitener() @ V
 
     def white_columns(self, cols):
         """Whitened sensitivity columns ``L0^{-1} S0[:, j]`` over the numeric block (cached per column)."""
@@ -267,8 +257,6 @@ class Evidence:
         multi = lens > 1
         Pb = P[:, idx]
         good = np.all(np.isfinite(Pb), axis=1) & ~multi & ~np.any(np.isnan(P), axis=1)
-        chi2 = np.zeros(k)
-        logdet = np.zeros(k)
         # variances of the block under each row (diagonal of tol_cov)
         T0d = np.diag(self.T0)[idx]
         s_cols = np.where(js[:, None] >= 0, self.S0[np.ix_(idx, np.maximum(js, 0))].T, 0.0)   # (k, nb)
@@ -285,8 +273,7 @@ class Evidence:
         with np.errstate(invalid="ignore"):
             R = (self.y[idx][None, :] - np.where(np.isfinite(Pb), Pb, 0.0)) * np.sqrt(cd / var_h)
         R = np.where(good[:, None], R, 0.0)
-        self.whiten(np.zeros((nb, 0)))
-        Z = R @ self._Linv.T                                                  # (k, nb), rows whitened
+        Z = R @ self.whitener().T                                             # (k, nb), rows whitened
         q = np.einsum("ij,ij->i", Z, Z)
         corr = np.zeros(k)
         ldc = np.zeros(k)

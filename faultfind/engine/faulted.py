@@ -27,17 +27,11 @@ from __future__ import annotations
 import numpy as np
 
 from .predict import Stamps, _lifted
-from .updates import _SING
+from .updates import _SING, _at, admittance_of
 
 __all__ = ["faulted_sensitivity"]
 
 _BLOCK = 32
-
-
-def _pair_rows(M, a, b):
-    va = M[a] if a >= 0 else 0.0
-    vb = M[b] if b >= 0 else 0.0
-    return va - vb
 
 
 def faulted_sensitivity(board, fault):
@@ -74,10 +68,10 @@ def faulted_sensitivity(board, fault):
         cols = np.flatnonzero(np.isin(rt, ("v", "br", "ohm")))
         if t.kind == "y":
             ynew = (g.new_admittance(part, fault.mode) if fault.mode != "drift"
-                    else _admittance(part, fault.value, g))
+                    else admittance_of(part, fault.value, g.analysis, g.omega))
             d = ynew - t.y0
             wt, mt = g.solve_term(t)
-            k = _pair_rows(wt, t.a, t.b)
+            k = _at(wt, t.a, t.b)
         for c0 in range(0, cols.size, _BLOCK):
             q = cols[c0:c0 + _BLOCK]
             W, Mu = g.W[:, q], g.Mu[:, q]
@@ -92,8 +86,8 @@ def faulted_sensitivity(board, fault):
             if t.kind == "y" and d != 0:
                 if real:
                     d = d.real if np.iscomplexobj(d) else d
-                kit = _pair_rows(Mu, t.a, t.b)
-                kti = _pair_rows(W, t.a, t.b)
+                kit = _at(Mu, t.a, t.b)
+                kti = _at(W, t.a, t.b)
                 Wi = wt[:, None] - W * (alpha * kit / den)[None, :]
                 Mi = mt[:, None] - Mu * (alpha * kti / den)[None, :]
                 ki = k - kti * alpha * kit / den
@@ -106,8 +100,8 @@ def faulted_sensitivity(board, fault):
                     if np.any(np.abs(one) <= 1e-9 * (1.0 + np.abs(d * ki))):
                         return None   # a bridge: the re-solve handles the floating section
                     f = d / one
-                X = X - Wi * (f * _pair_rows(X, t.a, t.b))[None, :]
-                Lam = Lam - Mi * (f * _pair_rows(Lam, t.a, t.b))[None, :]
+                X = X - Wi * (f * _at(X, t.a, t.b))[None, :]
+                Lam = Lam - Mi * (f * _at(Lam, t.a, t.b))[None, :]
             rows = idx[q]
             if live:
                 s = g.scale[q].real if real else g.scale[q]
@@ -135,8 +129,3 @@ def faulted_sensitivity(board, fault):
 
 def _cdot(U, X):
     return np.einsum("ij,ij->j", U, X)
-
-
-def _admittance(part, value, g):
-    from .updates import admittance_of
-    return admittance_of(part, value, g.analysis, g.omega)

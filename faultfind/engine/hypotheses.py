@@ -684,12 +684,11 @@ def _screened_first(ev: Evaluator, parts, healthy, progress=None):
     rest = order[done:]
     pruned = rest[ub[rest] < lead - SCREEN_MARGIN]
     unres = rest[ub[rest] >= lead - SCREEN_MARGIN]
-    from scipy.special import logsumexp as _lse
     n_modes = np.array([len(by_ref[r].fault_modes) for r in lb.refs], dtype=float)
     scr = Screening(evaluated=len(must) + min(done, len(order)), pruned=int(pruned.size),
-                    pruned_logmass=float(_lse(ub[pruned] + np.log(n_modes[pruned]))) if pruned.size else -np.inf,
+                    pruned_logmass=float(logsumexp(ub[pruned] + np.log(n_modes[pruned]))) if pruned.size else -np.inf,
                     unresolved=[lb.refs[k] for k in unres],
-                    unresolved_logmass=float(_lse(ub[unres] + np.log(n_modes[unres]))) if unres.size else -np.inf)
+                    unresolved_logmass=float(logsumexp(ub[unres] + np.log(n_modes[unres]))) if unres.size else -np.inf)
     return first, scr
 
 

@@ -114,14 +114,6 @@ def _dstamps(circuit: Circuit, net: Network, pindex: dict):
     return jy, dy, src
 
 
-def _pair(vec, a, b):
-    """``vec[a] - vec[b]`` (rows for a 2-D ``vec``), index -1 meaning the reference (zero)."""
-    vec = np.asarray(vec)
-    n = vec.shape[0]
-    ext = np.concatenate([vec, np.zeros((1,) + vec.shape[1:], dtype=vec.dtype)])
-    return ext[np.where(a >= 0, a, n)] - ext[np.where(b >= 0, b, n)]
-
-
 class Stamps:
     """How a network's matrix and right-hand side depend on each parameter's log-value.
 

@@ -26,8 +26,9 @@ log-determinant change from fixing the part's own tolerance (exact, by
 Sherman-Morrison).  The bound is exact for the linear-Gaussian model; it
 assumes the fault leaves the tolerance spread of the readings at its healthy
 size (a fault that scales a reading also scales its spread in the full
-score), which the screening margin covers and the tests check by comparing
-screened and unscreened rankings.
+score); the fits that shrink it are handled below, the screening margin
+covers the rest, and the tests check by comparing screened and unscreened
+rankings.
 
 Readings outside the whitened block (``OL`` displays, predictions undefined
 in the healthy circuit) add their whole healthy penalty to every part's
@@ -44,12 +45,14 @@ from __future__ import annotations
 import numpy as np
 
 from .mna import ADMITTANCE
+from .updates import _rows
 
 __all__ = ["LineBounds", "line_bounds", "line_directions"]
 
 _SCREENABLE = ("resistor", "fuse", "switch", "capacitor", "inductor")
 #: Best fits that rescale a tolerance-dominated reading's variance by more than
-#: this (relative) are not bounded but evaluated (as evidence.SCALE_OK).
+#: this (relative) get the spread they remove added to their bound (as
+#: evidence.SCALE_OK).
 _RESCALE = 0.1
 
 
@@ -101,15 +104,12 @@ def line_directions(board, parts, keep=None):
         if not inblk.any() or T == 0:
             continue
         sel = np.flatnonzero(inblk)
-        Mu = np.ascontiguousarray(g.Mu[:, sel].real)
-        ext = np.vstack([Mu, np.zeros((1, sel.size))])
-        kit = ext[np.where(a >= 0, a, Mu.shape[0])] - ext[np.where(b >= 0, b, Mu.shape[0])]
+        Mu = g.Mu[:, sel].real
+        kit = _rows(Mu, a) - _rows(Mu, b)
         rt = np.array(g.rtype)[sel]
         if g.analysis == "off":
-            W = np.ascontiguousarray(g.W[:, sel].real)
-            extw = np.vstack([W, np.zeros((1, sel.size))])
-            kti = extw[np.where(a >= 0, a, W.shape[0])] - extw[np.where(b >= 0, b, W.shape[0])]
-            dirs = kit * kti
+            W = g.W[:, sel].real
+            dirs = kit * (_rows(W, a) - _rows(W, b))
         else:
             dm = g.d_m[sel].real
             sc = g.scale[sel].real + np.where(rt == "ya", dm, 0.0)
@@ -158,8 +158,7 @@ def line_bounds(board, evidence, healthy_pred):
     T = len(refs)
     nb = idx_blk.size
     r0 = np.where(np.isfinite(ev.y[idx_blk]), ev.y[idx_blk] - healthy_pred[idx_blk], 0.0)
-    ev.whiten(np.zeros((nb, 0)))
-    Li = ev._Linv
+    Li = ev.whitener()
     rw = Li @ r0
     # Each part's direction is its sensitivity column (the column is the
     # direction times the part's own current, up to the meters' loading), so
@@ -179,7 +178,6 @@ def line_bounds(board, evidence, healthy_pred):
     if T == 0 or G == 0:
         gain = np.zeros(T)
         sol = np.zeros((T, G))
-        K_all = None
     else:
         Ks = []
         for q in groups:
@@ -194,10 +192,10 @@ def line_bounds(board, evidence, healthy_pred):
         jsafe = np.maximum(js, 0)
         zero = np.flatnonzero((js < 0) | (colmax[jsafe] == 0))
         Kz = None
-        if zero.size:
-            expl = line_directions(board, [refs[k] for k in zero], keep=pos >= 0)
+        if zero.size:   # same analyses, same readings, same order as `groups`
+            zdirs = [dirs for dirs, rows in line_directions(board, [refs[k] for k in zero], keep=pos >= 0)]
             Kz = []
-            for q, (dirs, rows) in zip(groups, expl):
+            for q, dirs in zip(groups, zdirs):
                 M = np.zeros((nb, zero.size))
                 M[q] = dirs.T
                 Kz.append(Li @ M)
@@ -227,11 +225,9 @@ def line_bounds(board, evidence, healthy_pred):
             H = H + np.eye(G)[None] * (1e-12 * np.maximum(np.einsum("tgg->t", H), 1e-300))[:, None, None]
             sol = np.linalg.solve(H, bvec[..., None])[..., 0]
             gain = np.einsum("tg,tg->t", bvec, sol) / 2.0
-            h = None
-        K_all = Ks
     # A part whose best fit moves the readings far from their healthy size
     # (a feed fuse open: every reading to zero) also takes their tolerance
-    # spread with it, which the healthy covariance cannot bound: evaluate it.
+    # spread with it, a gain the healthy covariance leaves out (added below).
     if G and T:
         p0 = np.abs(healthy_pred[idx_blk])
         T0d = np.diag(ev.T0)[idx_blk]
@@ -244,11 +240,16 @@ def line_bounds(board, evidence, healthy_pred):
         far = np.zeros(T, dtype=bool)
         shrink = np.zeros(T)      # log-determinant gain of the spread the best fit removes
         u2 = ev.u[idx_blk] ** 2
+        zpos = np.full(T, -1)
+        zpos[zero] = np.arange(zero.size)
         for g_, q in enumerate(groups):
             x = np.abs(sol[:, g_]) * nrm
-            maybe = np.flatnonzero((2 * x + x ** 2 > _RESCALE) | np.isin(np.arange(T), zero))
+            maybe = np.flatnonzero((2 * x + x ** 2 > _RESCALE) | (zpos >= 0))
             if maybe.size:
-                D = S0r[q][:, js[maybe]] if zero.size == 0 else _dirs_for(board, refs, maybe, zero, js, S0r, q, pos)
+                D = S0r[q][:, jsafe[maybe]]        # unwhitened directions, explicit where no current
+                z = zpos[maybe] >= 0
+                if z.any():
+                    D[:, z] = zdirs[g_][zpos[maybe[z]]].T
                 with np.errstate(divide="ignore", invalid="ignore"):
                     rel = np.abs(hb[q][:, None] + sol[maybe, g_][None, :] * D) / p0[q][:, None]
                 rel = np.where(np.isfinite(rel) & (p0[q] > 0)[:, None], rel, 1.0)
@@ -271,7 +272,7 @@ def line_bounds(board, evidence, healthy_pred):
         jsafe = np.maximum(js, 0)
         sc0 = ev._sc0()
         if G == 1 and np.all(sc0 == 1.0) and groups[0].size == nb:
-            w2 = np.einsum("ij,ij->j", K_all[0], K_all[0])[jsafe]     # |L^-1 s|^2
+            w2 = np.einsum("ij,ij->j", Ks[0], Ks[0])[jsafe]     # |L^-1 s|^2
         else:
             Wc = Li @ (S0r * sc0[:, None])
             w2 = np.einsum("ij,ij->j", Wc, Wc)[jsafe]
@@ -287,18 +288,3 @@ def line_bounds(board, evidence, healthy_pred):
         gain = gain + 0.5 * float(np.sum(np.where(np.isfinite(pen), pen, 0.0)))
     return LineBounds([p.ref for p in refs], np.asarray(gain, dtype=float), sorted(must))
 
-
-def _dirs_for(board, refs, maybe, zero, js, S0r, q, pos):
-    """Unwhitened directions (rows q) of the parts ``maybe``: sensitivity
-    columns, or explicit directions for parts without a current."""
-    D = S0r[q][:, np.maximum(js[maybe], 0)]
-    z = np.flatnonzero(np.isin(maybe, zero))
-    if z.size:
-        expl = line_directions(board, [refs[maybe[k]] for k in z], keep=pos >= 0)
-        for dirs, rows in expl:
-            sel = np.isin(pos[rows], q)
-            if sel.any():
-                order = {int(p_): i for i, p_ in enumerate(q)}
-                cols = [order[int(p_)] for p_ in pos[rows][sel]]
-                D[np.ix_(cols, z)] = dirs[:, sel].T
-    return D

@@ -48,6 +48,7 @@ from faultfind import __version__
 from faultfind.errors import CircuitError, InputError, LogbookError, MeterError, ReadingsError
 from faultfind.io import migrations as mig
 from faultfind.io.circuit_file import parse_circuit
+from faultfind.io.circuit_versions import used_version
 from faultfind.io.meters_file import meters_with_default, parse_meters
 from faultfind.io.readings_file import (COLUMNS, load_readings, parse_readings, reading_to_row,
                                         readings_to_frame, write_readings)
@@ -259,6 +260,10 @@ class StoredDiagnosis:
         faultfind version that ran it.
     document : dict
         The ``faultfind diagnose --json`` document (cli.md).
+    circuit_sha256 : str or None
+        SHA-256 of the circuit text it ran on (faultfind/io/circuit_versions.py).
+    circuit_version : int or None
+        That circuit's version in the session (1: the one it started on).
     """
 
     id: int
@@ -268,10 +273,13 @@ class StoredDiagnosis:
     verdict: str
     version: str
     document: dict
+    circuit_sha256: str | None = None
+    circuit_version: int | None = None
 
     def to_json(self) -> dict:
         return dict(id=self.id, created_at=self.created_at, reading_count=self.reading_count,
                     last_seq=self.last_seq, verdict=self.verdict, version=self.version,
+                    circuit_sha256=self.circuit_sha256, circuit_version=self.circuit_version,
                     diagnosis=self.document)
 
 
@@ -1212,13 +1220,17 @@ class Logbook:
         text = json.dumps(doc, ensure_ascii=False, allow_nan=False)
         last = max((r.seq for r in self._readings(sid)), default=0)
         when = _now()
+        sha = row["circuit_sha256"]  # the circuit text the diagnosis ran on
         with self._write() as c:
             self._session_row(sid, open_only=True)
+            number = used_version(c, sid, sha)
             cur = c.execute("INSERT INTO diagnoses (session_id, created_at, reading_count, "
-                            "last_seq, verdict, version, document) VALUES (?,?,?,?,?,?,?)",
-                            (sid, when, len(readings), last, doc["verdict"], __version__, text))
+                            "last_seq, verdict, version, document, circuit_sha256, "
+                            "circuit_version) VALUES (?,?,?,?,?,?,?,?,?)",
+                            (sid, when, len(readings), last, doc["verdict"], __version__, text,
+                             sha, number))
         return StoredDiagnosis(cur.lastrowid, when, len(readings), last, doc["verdict"],
-                               __version__, doc)
+                               __version__, doc, sha, number)
 
     def _faults(self, faults, circuit) -> list:
         if isinstance(faults, (str, bytes)) or not hasattr(faults, "__iter__"):
@@ -1351,10 +1363,11 @@ class Logbook:
         row = self._session_row(sid)
         summary = self._summaries("WHERE s.id = ?", (sid,))[0]
         diagnoses = tuple(
-            StoredDiagnosis(i, at, n, last, verdict, version, json.loads(doc))
-            for i, at, n, last, verdict, version, doc in self._conn.execute(
-                "SELECT id, created_at, reading_count, last_seq, verdict, version, document "
-                "FROM diagnoses WHERE session_id = ? ORDER BY id", (sid,)))
+            StoredDiagnosis(i, at, n, last, verdict, version, json.loads(doc), sha, number)
+            for i, at, n, last, verdict, version, doc, sha, number in self._conn.execute(
+                "SELECT id, created_at, reading_count, last_seq, verdict, version, document, "
+                "circuit_sha256, circuit_version FROM diagnoses WHERE session_id = ? "
+                "ORDER BY id", (sid,)))
         fields = {f: getattr(summary, f) for f in SessionSummary.__dataclass_fields__}
         return Session(**fields, circuit_text=row["circuit_text"],
                        meters_name=row["meters_name"], meters_text=row["meters_text"],

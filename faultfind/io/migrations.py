@@ -23,6 +23,8 @@ import sqlite3
 from dataclasses import dataclass
 from datetime import datetime, timezone
 
+from faultfind.io.circuit_versions import MIGRATION_0006
+
 __all__ = ["Migration", "MIGRATIONS", "LATEST_VERSION", "APPLICATION_ID", "schema_version",
            "application_id", "pending", "migrate"]
 
@@ -194,6 +196,8 @@ MIGRATIONS: tuple[Migration, ...] = (
               "drill results per apprentice: hidden fault, verdict, score and transcript"),
     Migration(4, "0004_session_events", _EVENTS,
               "session events: circuit isolated or energized, notes"),
+    Migration(6, "0006_circuit_versions", MIGRATION_0006,
+              "versions of a session's circuit; the circuit version of each diagnosis"),
 )
 
 #: The schema version this faultfind writes.

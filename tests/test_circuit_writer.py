@@ -72,6 +72,7 @@ def test_booster_pump_panel_reads_like_a_hand_written_file():
     assert '[[part]]\nref = "F1"\nkind = "fuse"\nnodes = ["+24V", "24V-F"]\nvalue = "R15"\n' \
            'tolerance = "30%"\n' in text
     assert 'resistance = "1k2"' in text
+    assert 'off_state = "open"\ncurrent_limit = "2.5 A"\nlabel = ' in text
     assert 'value = "24 V"\ntolerance = "2%"\noff_state = "open"\n' in text
     # a switch at its default contact resistance: no value, no tolerance, its state shown
     assert '[[part]]\nref = "S1"\nkind = "switch"\nnodes = ["24V-F", "GUARD"]\n' \
@@ -267,9 +268,10 @@ def circuits(draw):
             phase = draw(st.floats(min_value=-720, max_value=720)) if waveform == "ac" else 0.0
             nodes = (next(fresh), draw(st.sampled_from(ends))) if kind == "voltage-source" \
                 else two()
+            limit = draw(st.none() | _POSITIVE) if kind == "voltage-source" else None
             parts.append(Part(ref(), kind, nodes, v, *draw(_tolerance(v)),
                               off_state=draw(st.sampled_from(["open", "short"])),
-                              waveform=waveform, phase=phase, label=label))
+                              waveform=waveform, phase=phase, current_limit=limit, label=label))
         elif kind == "opamp":
             gain = draw(st.none() | st.floats(min_value=1, max_value=1e12))
             ins = draw(st.lists(st.sampled_from(ends), min_size=2, max_size=2))

@@ -150,3 +150,23 @@ def test_migration_0006_fills_version_1_and_the_old_diagnoses(tmp_path):
         assert v1.created_at == "2025-01-02T03:04:05.000+00:00"
         d = book.get_session(1).diagnoses[0]
         assert (d.circuit_version, d.circuit_sha256) == (1, circuit_sha256(TEXT))
+
+
+def test_show_and_report_say_an_old_diagnosis_was_made_on_another_circuit(book, capsys):
+    from faultfind.cli.main import main
+    from faultfind.io.report import markdown_report
+
+    s = _session(book)
+    book.store_diagnosis(s.id)
+    assert main(["log", "show", str(s.id), "--logbook", str(book.path)]) == 0
+    out = capsys.readouterr().out
+    assert f"made on circuit version 1 ({circuit_sha256(TEXT)[:8]})" in out
+    assert "changed since" not in out
+    assert "changed since" not in markdown_report(book.get_session(s.id))
+    v2 = revise_circuit(book, s.id, TEXT_12V)
+    assert main(["log", "show", str(s.id), "--logbook", str(book.path)]) == 0
+    out = capsys.readouterr().out
+    assert "made on circuit version 1" in out and "the circuit changed since" in out
+    report = markdown_report(book.get_session(s.id))
+    assert (f"made on circuit version 1 ({circuit_sha256(TEXT)[:8]}); the session's circuit "
+            f"changed since (now {v2.sha256[:8]})") in report

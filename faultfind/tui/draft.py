@@ -159,7 +159,8 @@ class CircuitDraft:
         Raises
         ------
         CircuitError
-            The text is not TOML, or not format 1: there is nothing to edit.
+            The text is not TOML, or says another ``format`` than 1: there is
+            nothing to edit.  (A missing ``format`` is written on saving.)
         """
         if not isinstance(text, str):
             raise TypeError(f"text must be a str, not {type(text).__name__}")
@@ -169,12 +170,9 @@ class CircuitDraft:
         except tomllib.TOMLDecodeError:
             parse_circuit(text, source=source)  # raises the reader's message, with its line
             raise  # pragma: no cover - the reader refuses what tomllib refuses
-        if doc.get("format") != 1 or type(doc.get("format")) is not int:
-            try:
-                parse_circuit(text, source=source)
-            except CircuitError as exc:
-                if exc.key == "format":
-                    raise
+        fmt = doc.get("format", 1)
+        if type(fmt) is not int or fmt != 1:
+            parse_circuit(text, source=source)  # raises the reader's message on 'format'
         draft = cls(path, source_text=text)
         draft.head = {k: _raw(v) for k, v in doc.items() if k not in ("format", "part")}
         draft.head.setdefault("title", "")

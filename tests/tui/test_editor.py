@@ -346,7 +346,8 @@ def test_saving_over_a_commented_file_asks_first(tmp_path, monkeypatch):
             await settle(pilot)
             assert isinstance(app.screen, ConfirmScreen)
             shown = " ".join(_plain(w) for w in app.screen.query("#confirm-box Static"))
-            assert "2 comment(s)" in shown and "line 1: # BP-2 drawn" in shown
+            # the two comments added here and the bundled file's own
+            assert "3 comment(s)" in shown and "line 1: # BP-2 drawn" in shown
             assert "# X1:2, the 0 V rail" in shown
             await pilot.press("escape")   # no: nothing is written
             await settle(pilot)
@@ -363,7 +364,11 @@ def test_saving_over_a_commented_file_asks_first(tmp_path, monkeypatch):
 
 
 def test_a_file_without_comments_saves_without_asking(tmp_path, monkeypatch):
-    shutil.copy(BOOSTER / "circuit.toml", tmp_path / "circuit.toml")
+    from faultfind.io.circuit_writer import circuit_text, lost_comments
+
+    text = circuit_text(load_circuit(BOOSTER / "circuit.toml"))
+    assert lost_comments(text) == []
+    (tmp_path / "circuit.toml").write_text(text, encoding="utf-8")
     monkeypatch.chdir(tmp_path)
 
     async def scenario():
@@ -400,6 +405,11 @@ def test_editing_the_circuit_on_the_bench_diagnoses_the_readings_again(tmp_path)
             await _set(pilot, "value", "12 V")
             await pilot.press("ctrl+s")
             await settle(pilot)
+            # the session's text is the bundled file's, with its comment: asked first
+            assert isinstance(app.screen, ConfirmScreen)
+            await pilot.press("y")
+            await settle(pilot)
+            assert isinstance(app.screen, EditorScreen) and not app.screen.draft.changed
             await pilot.press("ctrl+l", "escape")
             await settle(pilot)
             assert app.screen is bench and isinstance(bench, BenchScreen)

@@ -82,7 +82,8 @@ class EditorScreen(Screen):
         Binding("ctrl+t", "copy_part", "copy", tooltip="add a copy of the selected part"),
         Binding("ctrl+r", "remove_part", "remove", tooltip="remove the selected part"),
         Binding("ctrl+k", "drop_keys", "drop keys", show=False,
-                tooltip="drop the keys the selected part's kind does not take"),
+                tooltip="drop the keys the selected part's kind (or the circuit) does not "
+                        "take, as read from a file"),
         Binding("ctrl+l", "focus_list", "list", show=False,
                 tooltip="back to the parts list (Enter there opens the form)"),
         Binding("escape", "leave", "leave", tooltip="from a field: back to the list; from the "
@@ -232,7 +233,8 @@ class EditorScreen(Screen):
 
     @on(FieldInput.Changed)
     def _typing(self, event: FieldInput.Changed) -> None:
-        self._hint(event.input)
+        if event.input.has_focus:  # not a value the form was filled with
+            self._hint(event.input)
 
     def on_descendant_focus(self, event) -> None:
         widget = event.widget
@@ -360,21 +362,24 @@ class EditorScreen(Screen):
         self._after_change(min(at, len(self.draft.parts) - 1) if self.draft.parts else "head")
 
     def action_drop_keys(self) -> None:
-        from ..draft import part_keys
+        from ..draft import HEAD_KEYS, part_keys
 
         self.apply_form()
         at = self._selected_part()
-        if at is None:
-            return
-        part = self.draft.parts[at]
-        extra = [k for k in part if k not in part_keys(part.get("kind", ""))]
+        if at is None:  # the circuit's row: top-level keys the format does not know
+            extra = [k for k in self.draft.head if k not in HEAD_KEYS]
+            for k in extra:
+                self.draft.set_head(k, "")
+        else:
+            part = self.draft.parts[at]
+            extra = [k for k in part if k not in part_keys(part.get("kind", ""))]
+            for k in extra:
+                self.draft.set_field(at, k, "")
         if not extra:
-            self.notify("Every key of this part is one its kind takes.")
+            self.notify("Every key here is one the format takes.")
             return
-        for k in extra:
-            self.draft.set_field(at, k, "")
         self.notify("Dropped " + ", ".join(extra) + " (ctrl+z undoes each).")
-        self._after_change(at)
+        self._after_change("head" if at is None else at)
 
     def action_undo(self) -> None:
         self.apply_form()

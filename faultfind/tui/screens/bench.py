@@ -84,7 +84,7 @@ class BenchScreen(Screen):
         Binding("x", "export", "report",
                 tooltip="export the work-order report (HTML with a chart, or Markdown)"),
         Binding("h", "history", "history", tooltip="earlier sessions of this unit"),
-        Binding("e", "edit_circuit", "edit circuit",
+        Binding("e", "edit_circuit", "edit circuit", show=False,
                 tooltip="edit the session's circuit; the readings taken are diagnosed again "
                         "on the new version"),
         Binding("f1,question_mark", "help", "help", tooltip="this help"),

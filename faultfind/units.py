@@ -66,7 +66,7 @@ _MINUS_SIGN = "\u2212"
 # A unit as written -> canonical symbol.  Lower-cased spellings are looked up
 # via _unit_symbol, which knows which units are case-insensitive.
 _UNIT_RE = r"(?P<unit>Ω|[Oo][Hh][Mm][Ss]?|F|H|[Vv]|[Aa]|[Hh][Zz])"
-_NUMBER_RE = r"(?:[0-9]+\.?[0-9]*|\.[0-9]+)(?:[eE][+-]?[0-9]+)?"
+_NUMBER_RE = r"(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][+-]?[0-9]+)?"  # linear: no nested digit runs
 
 _DECIMAL = re.compile(
     rf"^(?P<sign>[+-]?)(?P<num>{_NUMBER_RE})\s*(?P<prefix>[pnuµmkKMG]?){_UNIT_RE}?$"

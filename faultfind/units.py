@@ -191,7 +191,10 @@ def parse_value(text, unit=None, *, what="value") -> float:
 def _read(text, what: str) -> tuple[float, str | None]:
     """The value of ``text`` and the unit it carries (None when it carries none)."""
     if _is_real(text):
-        value = float(text)
+        try:
+            value = float(text)
+        except OverflowError:  # an int beyond the float range
+            value = math.inf
         if not math.isfinite(value):
             raise UnitError(f"{what} {text!r} is not a finite number")
         return value, None

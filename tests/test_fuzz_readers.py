@@ -37,7 +37,7 @@ from numpy.testing import assert_allclose
 from faultfind.cli.main import main
 from faultfind.errors import CircuitError, InputError, ReadingsError
 from faultfind.io.circuit_file import circuit_warnings, load_circuit, parse_circuit
-from faultfind.io.meters_file import meters_with_default
+from faultfind.io.meters_file import load_meters, meters_with_default
 from faultfind.io.readings_file import load_readings, parse_readings
 
 ROOT = Path(__file__).resolve().parent.parent
@@ -452,6 +452,51 @@ def test_long_column_name_is_cut_in_the_message(folder):
         load_readings(path)
     assert info.value.line == 1 and len(str(info.value)) < 600
     assert "100,000 characters" in str(info.value)
+
+
+# -- meter profile files (the third reader; same TOML findings) ----------------------------
+
+
+METERS_TEXT = b"""[meter.bench]
+counts = 60000
+input_resistance = "10M"
+current_shunt = "0.1"
+dc_voltage = "0.05% + 2"
+resistance = "0.1% + 3"
+max_resistance = "60M"
+resistance_resolution = "0.01"
+"""
+
+
+@FUZZ
+@given(mutated({"bench": METERS_TEXT}))
+def test_mutated_meter_files(folder, example):
+    _, data = example
+    path = write(folder, "meters.toml", data)
+    profiles = loads_or_input_error(load_meters, path)
+    if profiles is not None:
+        assert all(p.counts >= 1 for p in profiles.values())
+
+
+METER_FINDINGS = [
+    # RecursionError and OverflowError (exit 1) before
+    ("meters_deep_nesting.toml", 3, "nested too deeply"),
+    ("meters_huge_integer.toml", 2, "input_resistance"),
+]
+
+
+@pytest.mark.parametrize("name, line, words", METER_FINDINGS, ids=[c[0] for c in METER_FINDINGS])
+def test_meter_file_findings_are_exit_2(capsys, name, line, words):
+    path = HELD / name
+    code, out, err = run(capsys, "expect", HELD / "pump_sense.toml", "--meters", path)
+    assert code == 2 and "internal error" not in err, err
+    assert f"{path}:{line}:" in err and words in err and len(err) < 400, err
+
+
+def test_meter_file_with_bom_and_cr_line_ends_loads():
+    # Found: a byte-order mark gave "TOML syntax error: Invalid statement".
+    bench = load_meters(HELD / "meters_bom_cr.toml")["bench"]
+    assert (bench.counts, bench.resistance.percent, bench.resistance.counts) == (60000, 0.1, 3.0)
 
 
 # -- through the real command line ----------------------------------------------------------

@@ -418,6 +418,10 @@ def test_decimal_comma_was_silently_misread_before():
     # header, is not a decimal comma
     got = parse_readings("quantity,plus,value,label\nvoltage,A,3,83\n")
     assert (got[0].value, got[0].label) == (3.0, "83")
+    # nor is it with the trailing empty columns a spreadsheet may export in
+    # the header and every row alike
+    got = parse_readings("quantity,plus,value,label,,\nvoltage,A,3,83,,\n")
+    assert (got[0].value, got[0].label) == (3.0, "83")
 
 
 @pytest.mark.parametrize("name", ["lone_cr_lines.toml", "lone_cr_lines.csv"])

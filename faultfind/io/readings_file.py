@@ -42,7 +42,7 @@ from faultfind.model import (KINDS, MODES, QUANTITIES, QUANTITY_UNITS, SETUPS, C
 from faultfind.units import format_value, parse_frequency, parse_value
 
 __all__ = ["COLUMNS", "QUANTITY_UNITS", "load_readings", "parse_readings", "readings_to_frame",
-           "write_readings", "reading_to_row"]
+           "write_readings", "reading_to_row", "zero_allowance"]
 
 
 #: Unit of each quantity's value.

@@ -82,9 +82,11 @@ def read_table(text: str, source: str):
         extra = [c for n, c in zip(names, record) if n is None and c]
         extra += [c for c in record[len(names):] if c]
         split = None
-        if at is not None and len(record) > len(names) and at + 1 < len(record):
+        if at is not None and len(record) > len(header) and at + 1 < len(record):
             # A value written with a decimal comma and not quoted splits in two
             # and pushes every later cell one column on: 11,91 -> '11' | '91'.
+            # (Wider than the header line itself: a spreadsheet's trailing
+            # empty columns are as wide in the header as in the rows.)
             whole, fraction = record[at], record[at + 1]
             if _INTEGER.match(whole) and _FRACTION.match(fraction):
                 split = (whole, fraction)

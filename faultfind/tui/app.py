@@ -120,6 +120,16 @@ class FaultfindApp(App[int]):
             return
         self.push_screen(OpeningScreen())
 
+    def show_opening(self) -> None:
+        """Replace the current screen by a new opening screen (another session).
+
+        Screens reach the opening screen through the app, so that no screen
+        module imports the opening screen (which imports the bench screen).
+        """
+        from .screens.opening import OpeningScreen
+
+        self.switch_screen(OpeningScreen())
+
     # -- the logbook ---------------------------------------------------------------------
 
     @property

@@ -8,7 +8,7 @@ booster pump panel field case (field_cases/booster_pump_panel).
 
 from __future__ import annotations
 
-from .conftest import make_app, run, settle, to_bench
+from .conftest import make_app, run, settle, to_bench, wait_for_screen
 
 
 def test_ctrl_n_on_the_bench_opens_a_new_opening_screen(tmp_path):
@@ -22,6 +22,7 @@ def test_ctrl_n_on_the_bench_opens_a_new_opening_screen(tmp_path):
             bench = app.screen
             await pilot.press("ctrl+n")
             await settle(pilot)
+            await wait_for_screen(pilot, OpeningScreen)
             assert isinstance(app.screen, OpeningScreen), app.screen
             assert not any(isinstance(s, BenchScreen) for s in app.screen_stack)
             assert bench not in app.screen_stack

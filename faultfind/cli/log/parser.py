@@ -5,6 +5,8 @@ from __future__ import annotations
 import argparse
 
 from ...logbook import ENV_VAR, PURPOSES
+from ..log_priors import add_commands as add_priors_commands
+from .common import _session
 from .queries import (run_show, run_list, run_history, run_export, run_report, run_delete,
                       run_path, run_verify)
 from .sessions import (run_start, run_caution, run_add, run_import, run_strike, run_diagnose,
@@ -149,4 +151,5 @@ def add_parser(sub):
 
     cmd("path", run_path, "print where the logbook file is")
     cmd("verify", run_verify, "check the logbook file's integrity")
+    add_priors_commands(cmd, session_arg, _session)
     return p

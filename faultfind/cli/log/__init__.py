@@ -9,7 +9,8 @@ recently started session).
 The modules, each named for what it holds: ``compact`` (the compact reading
 form), ``common`` (what the subcommands share), ``sessions`` (a session's
 work), ``queries`` (reading the logbook back, looking after the file) and
-``parser``.
+``parser``; the priors subcommands (tag, priors, merge-priors) are in
+faultfind/cli/log_priors.py.
 """
 
 from __future__ import annotations

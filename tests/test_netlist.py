@@ -77,6 +77,7 @@ def test_title_comments_continuation_and_end():
     assert got.circuit.part("R2").nodes == ("a", "0") and got.circuit.part("R2").value == 2000.0
     assert got.circuit.part("V1").label == "the supply"
     assert any("after .end ignored" in w for w in got.warnings)
+    assert "line 1: R1: the first line of a netlist is its title" in got.warnings[0]
 
 
 def test_title_command_and_case():

@@ -139,6 +139,11 @@ class _Reader:
 
     # -- structure --------------------------------------------------------------
     def read(self):
+        first = self.title.split()
+        if len(first) >= 4 and first[0][0].lower() in "rclvi" and \
+                spice_number(first[3]) is not None:
+            self.warnings.append(f"line 1: {first[0]}: the first line of a netlist is its "
+                                 "title, so this element is not read; put a title line above it")
         top = self.collect_subckts()
         for ln in top:
             word = ln.tokens[0].lower()
@@ -146,9 +151,8 @@ class _Reader:
                 self.command(ln, word)
             else:
                 self.element(ln, "", {}, (), "")
-        used = {u for u in self.instantiated}
         for key, (name, _ports, header, _body, _params) in self.subckts.items():
-            if key not in used:
+            if key not in self.instantiated:
                 self.warnings.append(f"line {header}: subcircuit {name} is defined but no X "
                                      "line uses it")
         self.unmapped.sort(key=lambda u: u.line)
@@ -255,7 +259,7 @@ class _Reader:
                           ref, where)
                 return
             if letter in "rcl":
-                part = self.passive(ln, ref, letter, positional[3:], params, (a, b))
+                part = self.passive(ln, ref, letter, positional[3:], params, (a, b), where)
             else:
                 part = self.supply(ln, ref, letter, ln.tokens[3:], (a, b))
         if part is None:
@@ -282,7 +286,7 @@ class _Reader:
             self.warn(ln, ref, f"{tail!r} after the number in {token!r} is ignored")
         return value
 
-    def passive(self, ln, ref, letter, rest, params, nodes):
+    def passive(self, ln, ref, letter, rest, params, nodes, where):
         kind = {"r": "resistor", "c": "capacitor", "l": "inductor"}[letter]
         key = {"r": ("r", "resistance"), "c": ("c", "capacitance"),
                "l": ("l", "inductance")}[letter]
@@ -293,7 +297,8 @@ class _Reader:
             if raw is None and k in params:
                 raw = params.pop(k)
         if raw is None:
-            self.skip(ln, f"no value on this {kind} (a model-based part is not mapped)", ref)
+            self.skip(ln, f"no value on this {kind} (a model-based part is not mapped)", ref,
+                      where)
             return None
         value = self.value(ln, ref, raw, "value")
         for extra in rest[1:] if rest and rest[0] == raw else rest:
@@ -306,7 +311,8 @@ class _Reader:
             self.warn(ln, ref, f"parameter {k}= is ignored")
         value = value * scale * (m if letter == "c" else 1.0 / m) if m else value
         if not value > 0 or not math.isfinite(value):
-            self.skip(ln, f"a {kind} of {_g(value)}: faultfind needs a value above 0", ref)
+            self.skip(ln, f"a {kind} of {_g(value)}: faultfind needs a value above 0", ref,
+                      where)
             return None
         return Part(ref, kind, nodes, value, *KINDS[kind].default_tolerance)
 

@@ -11,7 +11,7 @@ from faultfind.errors import CircuitError, LogbookError
 from faultfind.io import migrations as mig
 from faultfind.io.circuit_versions import (circuit_sha256, circuit_versions, current_version,
                                            diagnosis_circuit, revise_circuit, version_label)
-from faultfind.io.logbook import Logbook
+from faultfind.logbook import Logbook
 
 ROOT = Path(__file__).resolve().parent.parent
 BOOSTER = ROOT / "field_cases" / "booster_pump_panel"
@@ -154,7 +154,7 @@ def test_migration_0006_fills_version_1_and_the_old_diagnoses(tmp_path):
 
 def test_show_and_report_say_an_old_diagnosis_was_made_on_another_circuit(book, capsys):
     from faultfind.cli.main import main
-    from faultfind.io.report import markdown_report
+    from faultfind.report import markdown_report
 
     s = _session(book)
     book.store_diagnosis(s.id)

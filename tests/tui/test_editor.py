@@ -442,7 +442,7 @@ def test_an_old_diagnosis_says_the_circuit_changed_since(tmp_path):
     """A session resumed after its circuit was revised outside the bench (its latest
     diagnosis made on version 1) is diagnosed again, and says so meanwhile."""
     from faultfind.io.circuit_versions import revise_circuit
-    from faultfind.io.logbook import Logbook
+    from faultfind.logbook import Logbook
     from faultfind.tui.screens.bench import BenchScreen as _Bench
 
     with Logbook(tmp_path / "logbook.sqlite") as book:

@@ -13,7 +13,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .blas import threads_for
-from .engine.ambiguity import groups_from_hypotheses, groups_from_sensitivity, merge_groups
+from .engine.ambiguity import VISIBLE_CHANGE, groups_from_hypotheses, groups_from_sensitivity, merge_groups
 from .engine.estimate import limit_value, map_estimate
 from .engine.hypotheses import DRIFT_RANGE, Evaluator, Hypothesis, rank_with
 from .engine.predict import predict
@@ -97,12 +97,20 @@ def describe_fault(circuit, f) -> str:
     return f"{f.ref} {f.mode}"
 
 
+def _shown(ev: Evaluator, h: Hypothesis):
+    """The predictions shown for ``h``: the healthy circuit's are the nominal-value
+    predictions, the numbers ``faultfind expect`` and the suggestions show (its
+    score also carries the mean shift of asymmetric log tolerances,
+    docs/estimate.md)."""
+    return ev.pred0 if not h.faults else h.predicted
+
+
 def _explain(ev: Evaluator, h: Hypothesis, healthy: Hypothesis, limit=4):
     out = []
     e = ev.ev
     drop = ev.drop_cols(h.faults)
     z0 = e.residuals(healthy.predicted)
-    zh = e.residuals(h.predicted, drop)
+    zh = e.residuals(h.predicted, drop, ev.weak(h.faults))
     label = " + ".join(describe_fault(ev.circuit, f) for f in h.faults) or "a healthy circuit"
     order = np.argsort(-np.abs(z0))
     n_for = 0
@@ -111,8 +119,8 @@ def _explain(ev: Evaluator, h: Hypothesis, healthy: Hypothesis, limit=4):
         unit = UNITS[rd.quantity]
         shown = "OL" if rd.overrange else _fmt(rd.value, unit)
         if abs(z0[i]) > 3 and abs(zh[i]) <= 2 and n_for < limit:
-            out.append(f"for: {_name(rd)} reads {shown} where {_fmt(healthy.predicted[i], unit)} "
-                       f"is expected; {label} explains it (predicts {_fmt(h.predicted[i], unit)})")
+            out.append(f"for: {_name(rd)} reads {shown} where {_fmt(ev.pred0[i], unit)} "
+                       f"is expected; {label} explains it (predicts {_fmt(_shown(ev, h)[i], unit)})")
             n_for += 1
     for i in np.argsort(-np.abs(zh)):
         rd = ev.readings[i]
@@ -120,7 +128,7 @@ def _explain(ev: Evaluator, h: Hypothesis, healthy: Hypothesis, limit=4):
         shown = "OL" if rd.overrange else _fmt(rd.value, unit)
         if abs(zh[i]) > 3 and len(out) < 2 * limit:
             out.append(f"against: {_name(rd)} reads {shown} but {label} predicts "
-                       f"{_fmt(h.predicted[i], unit)}")
+                       f"{_fmt(_shown(ev, h)[i], unit)}")
     for f in h.faults:
         p = ev.circuit.part(f.ref)
         if f.mode == "drift" and f.value and getattr(f, "seen", True):
@@ -140,7 +148,7 @@ def _explain(ev: Evaluator, h: Hypothesis, healthy: Hypothesis, limit=4):
 def _recheck(ev: Evaluator, best: Hypothesis):
     """What to re-check when no hypothesis explains the readings."""
     e = ev.ev
-    z = e.residuals(best.predicted, ev.drop_cols(best.faults))
+    z = e.residuals(best.predicted, ev.drop_cols(best.faults), ev.weak(best.faults))
     out = []
     healthy_all = None
     for i in np.argsort(-np.abs(z))[:3]:
@@ -149,7 +157,7 @@ def _recheck(ev: Evaluator, best: Hypothesis):
         rd = ev.readings[i]
         unit = UNITS[rd.quantity]
         sd = np.sqrt(e.u[i] ** 2 + max(e.T0[i, i], 0))
-        y, p = rd.value, best.predicted[i]
+        y, p = rd.value, _shown(ev, best)[i]
         p_ok = ev.pred0[i] if i < len(ev.pred0) else np.nan
         hints = []
         if y is not None and np.isfinite(p):
@@ -258,14 +266,14 @@ def _diagnose(circuit, readings, meters, top, doubles, advise, costs, power, pro
     tick("grouping", None, None)
     with np.errstate(over="ignore"):
         sd = np.sqrt(ev.ev.u ** 2 + np.clip(np.diag(ev.ev.T0), 0, None))
-    groups = groups_from_hypotheses(ranking.hypotheses, sd)
-    sd_s = np.where(np.isfinite(sd) & (sd > 0), sd, np.where(sd > 0, np.finfo(float).max, 1.0))
-    sgroups, unseen = groups_from_sensitivity(list(ev.params), ev.S0, sd_s, ev.ev.var_p)
-    all_groups = merge_groups([set(g) for g in groups] + [set(g) for g in sgroups])
     explanations = [_explain(ev, h, ranking.healthy) for h in ranking.hypotheses[:3]]
-    recheck = _recheck(ev, best) if ranking.verdict == "inconsistent" else []
+    verdict = ranking.verdict
+    if verdict == "fault" and any(line.startswith("against:") for line in explanations[0]):
+        verdict = "inconsistent"   # never headline a finding some reading speaks against
+    all_groups, unseen = _groups(ev, ranking, best, sd, verdict)
+    recheck = _recheck(ev, best) if verdict == "inconsistent" else []
     notes = []
-    if ranking.verdict == "no-fault":
+    if verdict == "no-fault":
         hidden = [h for h in ranking.hypotheses[1:6] if h.faults and h.probability >= 0.05]
         if hidden:
             notes.append("the readings fit a healthy circuit, but they cannot rule out: "
@@ -297,8 +305,46 @@ def _diagnose(circuit, readings, meters, top, doubles, advise, costs, power, pro
     tick("estimating", None, None)
     estimates = _estimates(ev, best)
     tick("done", None, None)
-    return Diagnosis(circuit, readings, ranking.verdict, shown, tail, estimates, all_groups,
+    return Diagnosis(circuit, readings, verdict, shown, tail, estimates, all_groups,
                      unseen, explanations, recheck, notes, suggestions, ev)
+
+
+#: A finding is settled when the verdict is a fault and its hypothesis holds at
+#: least this probability: no ambiguity group then names its parts.
+SETTLED_P = 0.9
+
+
+def _groups(ev: Evaluator, ranking, best: Hypothesis, sd, verdict):
+    """Ambiguity groups and unseen parts, consistent with the finding.
+
+    Hypothesis groups (coinciding predictions) and sensitivity groups; the
+    sensitivities are those of the best hypothesis' circuit (the ones its
+    estimates use), whose faulted parts have a fixed value and are neither
+    grouped nor unseen.  When the finding is settled (:data:`SETTLED_P`),
+    its parts are taken out of every group: the readings and the priors
+    together have told them apart.
+    """
+    groups = groups_from_hypotheses(ranking.hypotheses, sd)
+    sd_s = np.where(np.isfinite(sd) & (sd > 0), sd, np.where(sd > 0, np.finfo(float).max, 1.0))
+    S = ev.S0
+    fixed = {f.ref for f in best.faults}
+    if best.faults:
+        Sf = ev.faulted_sensitivity(best.faults)
+        if Sf is not None:
+            S = np.nan_to_num(Sf, nan=0.0, posinf=0.0, neginf=0.0)
+    sgroups, unseen = groups_from_sensitivity(list(ev.params), S, sd_s, ev.ev.var_p)
+    unseen = [r for r in unseen if r not in fixed]
+    settled = verdict == "fault" and best.probability >= SETTLED_P
+    drop = set(fixed)
+    if settled:
+        # beside a settled finding, only parts a fault would visibly move are worth naming
+        z = np.sqrt(((S / sd_s[:, None]) ** 2).sum(axis=0))
+        drop |= {r for r, zj in zip(ev.params, z) if VISIBLE_CHANGE * zj < 1.0}
+    sgroups = [[r for r in g if r not in drop] for g in sgroups]
+    all_groups = merge_groups([set(g) for g in groups] + [set(g) for g in sgroups])
+    if settled:
+        all_groups = merge_groups([set(g) - fixed for g in all_groups])
+    return all_groups, unseen
 
 
 def _estimates(ev: Evaluator, h: Hypothesis) -> dict:

@@ -37,6 +37,7 @@ from .evidence import Evidence
 from .oracle import oracle_readings
 from .predict import analysis_key, lifted_value, parameters, predict
 from .priors import KIND_WEIGHTS, log_prior
+from .stray import weak_readings
 from .updates import Group, admittance_of, batch, single
 
 __all__ = ["Fault", "Hypothesis", "Ranking", "rank", "Board", "Evaluator", "FIT_P", "HEALTHY_P"]
@@ -321,9 +322,13 @@ class Evaluator(Board):
     def drop_cols(self, faults):
         return [self.pindex.get(f.ref, -1) for f in faults]
 
+    def weak(self, faults):
+        """Readings on nodes ``faults`` cut off from every source (:mod:`.stray`), or None."""
+        return weak_readings(self, faults)
+
     def make(self, faults, pred, drift_sd=None, occam=0.0):
         lp = self.prior(faults)
-        chi2, ll = self.ev.score(pred, self.drop_cols(faults))
+        chi2, ll = self.ev.score(pred, self.drop_cols(faults), self.weak(faults))
         return Hypothesis(tuple(faults), pred, chi2, ll + occam, lp, lp + ll + occam, drift_sd=drift_sd,
                           occam=occam)
 
@@ -340,6 +345,8 @@ class Evaluator(Board):
         num = (~ev.ol) & np.isfinite(pred)
         if not num.any():
             return h
+        sv, cost = ev.stray(pred, self.weak(h.faults), np.diag(T) + ev.u ** 2)
+        T = T + np.diag(sv[0])
         C = T[np.ix_(num, num)] + np.diag(ev.u[num] ** 2)
         r = ev.y[num] - pred[num]
         try:
@@ -349,7 +356,7 @@ class Evaluator(Board):
         z = solve_triangular(L, r, lower=True, check_finite=False)
         chi2 = float(z @ z)
         logdet = 2.0 * float(np.log(np.diag(L)).sum())
-        ll = -0.5 * (chi2 + logdet + num.sum() * np.log(2 * np.pi))
+        ll = -0.5 * (chi2 + logdet + num.sum() * np.log(2 * np.pi) + float(cost[0]))
         var = np.diag(T) + ev.u ** 2
         rest = ev._chi2_terms(pred[None, :], var)[0][~num].sum()
         chi2 += float(rest)
@@ -597,8 +604,11 @@ def _first_pass(ev: Evaluator, parts):
     cands = [c for c in cands if not np.isnan(c[1]).any()]  # no answer: a short across a source
     first = []
     if cands:
+        weak = [ev.weak([c[0]]) for c in cands]
+        W = (np.vstack([np.zeros(ev.n, dtype=bool) if w is None else w for w in weak])
+             if any(w is not None for w in weak) else None)
         c2, logdet = ev.ev.chi2_rows(np.vstack([c[1] for c in cands]),
-                                     [[ev.pindex.get(c[0].ref, -1)] for c in cands], True)
+                                     [[ev.pindex.get(c[0].ref, -1)] for c in cands], True, weak=W)
         for (f, pred, sd, occam), x2, ld in zip(cands, c2, logdet):
             lp = ev.prior([f])
             ll = -0.5 * (float(x2) + float(ld)) + occam

@@ -103,6 +103,11 @@ class Part:
         Inductors: winding resistance in ohms (None: ideal winding).
     gain : float or None
         Opamps: open-loop gain (None: :data:`DEFAULT_OPAMP_GAIN`).
+    current_limit : float or None
+        Voltage sources: the most current the supply delivers, in amperes
+        (RMS for an AC source); None: no limit known (an ideal source).  A
+        fault that would draw more is one the supply would not feed: it folds
+        back or trips (docs/circuit-files.md).
     label : str
         Free text shown beside the ref.
     line : int or None
@@ -121,6 +126,7 @@ class Part:
     state: str = "closed"
     resistance: float | None = None
     gain: float | None = None
+    current_limit: float | None = None
     label: str = ""
     line: int | None = None
 

@@ -35,7 +35,7 @@ PART_KEYS: dict[str, tuple[str, ...]] = {
     "inductor": _PLAIN + ("resistance",),
     "fuse": _PLAIN,
     "switch": _PLAIN + ("state",),
-    "voltage-source": _PLAIN + _SOURCE_KEYS,
+    "voltage-source": _PLAIN + _SOURCE_KEYS + ("current_limit",),
     "current-source": _PLAIN + _SOURCE_KEYS,
     "opamp": ("ref", "kind", "nodes", "gain", "label"),
 }
@@ -45,7 +45,7 @@ _ALLOWED = {kind: frozenset(keys) for kind, keys in PART_KEYS.items()}
 _KEY_OWNER = {
     "off_state": "sources", "waveform": "sources", "phase": "AC sources",
     "state": "switches", "resistance": "inductors (winding resistance)",
-    "gain": "opamps", "value": "every kind but opamp", "tolerance": "every kind but opamp",
+    "gain": "opamps", "current_limit": "voltage sources", "value": "every kind but opamp", "tolerance": "every kind but opamp",
 }
 _ENUMS = {"off_state": ("open", "short"), "waveform": ("dc", "ac"), "state": ("closed", "open")}
 # Kinds whose value must be > 0.
@@ -317,6 +317,8 @@ class _Reader:
                 fields["resistance"] = r
         if "gain" in table:
             fields["gain"] = self.gain(table["gain"], fail)
+        if "current_limit" in table:
+            fields["current_limit"] = self.current_limit(table["current_limit"], fields, fail)
         return Part(**fields)
 
     def nodes(self, table, info, ground, fail):
@@ -400,6 +402,15 @@ class _Reader:
         if not (math.isfinite(gain) and gain > 0):
             fail(f"gain must be a finite number above 0, not {raw!r}", "gain")
         return gain
+
+    def current_limit(self, raw, fields, fail):
+        """A voltage source's current limit: a current in A, finite and above 0."""
+        limit = self.number(raw, lambda t: units.parse_value(t, "A", what="current_limit"),
+                            line=fields["line"], part=fields["ref"], key="current_limit")
+        if not limit > 0:
+            fail(f"current_limit must be above 0 A, not {raw!r}; leave it out for a supply "
+                 "whose limit is not known", "current_limit")
+        return limit
 
     # -- the whole circuit ----------------------------------------------------
     def check_whole(self, circuit: Circuit):

@@ -8,14 +8,14 @@ values from the E-series, and the JSON document of cli.md.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
 from .blas import threads_for
 from .engine.ambiguity import VISIBLE_CHANGE, groups_from_hypotheses, groups_from_sensitivity, merge_groups
 from .engine.estimate import limit_value, map_estimate
-from .engine.hypotheses import DRIFT_RANGE, Evaluator, Hypothesis, rank_with
+from .engine.hypotheses import DRIFT_RANGE, Board, Evaluator, Hypothesis, rank_with
 from .engine.predict import predict
 from .eseries import nearest, series_for_tolerance
 from .io.meters_file import meters_with_default
@@ -93,7 +93,9 @@ def describe_fault(circuit, f) -> str:
         pct = (f.value / p.value - 1.0) * 100.0
         return f"{f.ref} drifted to {format_value(f.value, p.info.unit)} ({pct:+.0f} %)"
     if f.mode == "short" and p.kind == "switch":
-        return f"{f.ref} short (welded contacts)"
+        return f"{f.ref} short (welded contacts)" + (f" (about {format_value(f.value, 'Ω')})" if f.value else "")
+    if f.mode == "short" and f.value:
+        return f"{f.ref} short (about {format_value(f.value, 'Ω')})"
     return f"{f.ref} {f.mode}"
 
 
@@ -140,8 +142,53 @@ def _explain(ev: Evaluator, h: Hypothesis, healthy: Hypothesis, limit=4):
                            f"{format_value(nearest(f.value, series), p.info.unit)} part ({series}): "
                            f"check a wrong value was not fitted; replace with "
                            f"{format_value(p.value, p.info.unit)}")
+    out += _protection(ev, h)
     if not out:
         out.append(f"{label} fits every reading within its uncertainty")
+    return out
+
+
+#: A fault puts a fuse "in practice blown" when its cold resistance would drop
+#: at least this much (V): small cartridge fuses drop about 0.1-0.2 V at their
+#: rated current (from memory), so 0.5 V is about three times the rating.
+FUSE_BLOW_DROP = 0.5
+
+
+def _protection(ev: Evaluator, h: Hypothesis):
+    """Where the fault would in practice blow a fuse or trip a supply (DC only).
+
+    The fault's currents through every fuse and supply, from the healthy
+    factors (an ammeter of negligible shunt), against the fuse's cold
+    resistance (:data:`FUSE_BLOW_DROP`) and the supply's ``current_limit``.
+    """
+    c = ev.circuit
+    if not h.faults:
+        return []
+    parts = [p for p in c.parts if (p.kind == "fuse" or (p.kind == "voltage-source" and p.current_limit))
+             and p.waveform != "ac" and not any(f.ref == p.ref and f.mode == "open" for f in h.faults)]
+    if not parts:
+        return []
+    meter = replace(ev.meters["default"], current_shunt=1e-9)
+    rds = [Reading("current", "dc", part=p.ref) for p in parts]
+    try:
+        b = Board(c, rds, {"default": meter}, share=None)
+        now = np.abs(b.predict_faults(list(h.faults)))
+        before = np.abs(b.predict_faults([]))
+    except (ValueError, ArithmeticError, np.linalg.LinAlgError):
+        return []
+    out = []
+    for p, i1, i0 in zip(parts, now, before):
+        if not np.isfinite(i1) or i1 <= 2 * i0:
+            continue
+        if p.kind == "fuse" and i1 * p.value >= FUSE_BLOW_DROP:
+            out.append(f"in practice: this fault puts about {_fmt(i1, 'A')} through {p.ref} "
+                       f"({_fmt(i0, 'A')} when healthy), which would blow it; if {p.ref} is found "
+                       f"open, check {', '.join(f.ref for f in h.faults)} before fitting a new one")
+        elif p.kind == "voltage-source" and i1 > p.current_limit:
+            out.append(f"in practice: this fault would draw about {_fmt(i1, 'A')} from {p.ref}, above its "
+                       f"{_fmt(p.current_limit, 'A')} limit: {p.ref} current-limits or trips"
+                       + ("; the predictions shown are those of the supply in current limit"
+                          if p.ref in getattr(h, "limited", ()) else ""))
     return out
 
 
@@ -260,7 +307,8 @@ def _diagnose(circuit, readings, meters, top, doubles, advise, costs, power, pro
     shown = []
     for h in listed:
         h2 = Hypothesis(h.faults, h.predicted, h.chi2, h.log_like, h.log_prior, h.log_post,
-                        h.probability / total if total > 0 else 1.0 / len(listed), h.drift_sd, h.exact)
+                        h.probability / total if total > 0 else 1.0 / len(listed), h.drift_sd, h.exact,
+                        h.occam, h.limited)
         shown.append(h2)
     best = ranking.hypotheses[0]
     tick("grouping", None, None)
@@ -364,6 +412,9 @@ def _estimates(ev: Evaluator, h: Hypothesis) -> dict:
             fixed[f.ref] = (f.value, float(lo), float(hi), "drift")
         else:
             v = limit_value(p, f.mode)
+            if f.mode == "short" and f.value and p.kind in ("resistor", "fuse", "switch"):
+                # a short of resistance r across the part: the part reads r in parallel with itself
+                v = f.value if p.kind == "switch" and p.state == "open" else p.value * f.value / (p.value + f.value)
             fixed[f.ref] = (v, v, v, f.mode)
     params = list(ev.params)
     nominal = np.array([circuit.part(r).value for r in params])

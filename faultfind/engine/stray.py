@@ -203,7 +203,7 @@ class Reach:
         if not cut:
             return np.zeros(idx.size, dtype=bool)
         if len(cut) == 1 and cut[0][1] == "open":
-            return self._one_open(cut[0][0], idx)
+            return self._single_cut(cut[0][0], idx)
         keep = np.ones(self.ea.size, dtype=bool)
         src = self.src.copy()
         for ref, mode in cut:
@@ -220,7 +220,7 @@ class Reach:
         _, driven = self._pieces(keep, src)
         return self.driven[idx] & ~driven[idx]
 
-    def _one_open(self, ref, idx):
+    def _single_cut(self, ref, idx):
         out = np.zeros(idx.size, dtype=bool)
         es = self.by_ref.get(ref, [])
         if len(es) != 1 or es[0] not in self.bridge:

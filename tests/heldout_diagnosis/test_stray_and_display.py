@@ -150,3 +150,40 @@ def test_reach_matches_networkx(seed):
             got = reach.cut_off(faults, list(c.nodes))
             want = healthy - _driven_nx(c, analysis, faults)
             assert {n for n, x in zip(c.nodes, got) if x} == want, (analysis, faults)
+
+
+# ------------------------------------------------ a real short (item 3)
+RAIL = Path(__file__).resolve().parent / "fused_rail_short"
+
+
+def _rail(name):
+    circuit = load_circuit(RAIL / "circuit.toml")
+    meters = meters_with_default(None)
+    readings = load_readings(RAIL / name, circuit, meters)
+    return circuit, diagnose(circuit, readings, meters, advise=False)
+
+
+def test_a_short_with_resistance_behind_a_fuse():
+    circuit, d = _rail("readings.csv")
+    top = d.hypotheses[0]
+    assert d.verdict == "fault"
+    assert [(f.ref, f.mode) for f in top.faults] == [("R1", "short")]
+    # the short's resistance from the rail voltage by the voltage divider (handbook):
+    # V_rail = 24 V x Rp / (R_F1 + Rp), Rp = r || R1 || (R2 + R3); solve for r
+    v, vs, rf = 1.02, 24.0, 0.05
+    rp = v * rf / (vs - v)
+    r = 1.0 / (1.0 / rp - 1.0 / 100.0 - 1.0 / 2000.0)
+    assert top.faults[0].value == pytest.approx(r, rel=0.1)
+    lines = d.explanations[0]
+    assert not any(line.startswith("against:") for line in lines)
+    # about 22.9 V / 50 mOhm = 460 A through a fuse of 50 mOhm cold: it would blow
+    # (common practice (no source): small fuses drop 0.1-0.2 V at their rating, from memory)
+    assert any(line.startswith("in practice:") and "F1" in line and "blow" in line for line in lines)
+
+
+def test_a_lifted_reading_alone_says_short():
+    # 0.2 Ohm across a lifted 100 Ohm resistor: only R1 short explains it
+    # (0.2 Ohm is 2 counts of the handheld's 0.1 Ohm step: consistent with a short, from memory)
+    _, d = _rail("readings_exact.csv")
+    assert [(f.ref, f.mode) for f in d.hypotheses[0].faults] == [("R1", "short")]
+    assert d.hypotheses[0].probability > 0.9

@@ -17,8 +17,9 @@ from dataclasses import replace
 
 import numpy as np
 
+from ..errors import SolveError
 from ..model import Reading
-from .oracle import oracle_readings
+from .predict import predict
 
 __all__ = ["supply_currents", "apply_limits", "NEGLIGIBLE_SHUNT"]
 
@@ -76,12 +77,9 @@ def apply_limits(ev, hyps, top):
         circuit = replace(ev.circuit, parts=tuple(parts))
         overrides = {f.ref: _override(ev.circuit, f) for f in h.faults}
         try:
-            raw = oracle_readings(circuit, ev.readings, ev.meters, overrides)
-        except (ValueError, ArithmeticError, np.linalg.LinAlgError):
+            pred = np.asarray(predict(circuit, ev.readings, ev.meters, overrides=overrides).value, dtype=float)
+        except (SolveError, ValueError, ArithmeticError, np.linalg.LinAlgError):
             continue
-        pred = np.where(ev.ac, np.abs(raw), np.real(raw))
-        pred = np.where(np.isnan(np.real(raw)), np.nan, pred)
-        pred = np.where(np.isinf(np.real(raw)), np.inf, pred)
         if np.isnan(pred).any():
             continue
         new = ev.make(list(h.faults), pred, drift_sd=h.drift_sd, occam=h.occam)

@@ -35,7 +35,7 @@ import numpy as np
 from scipy.sparse import coo_matrix
 from scipy.sparse.csgraph import connected_components
 
-__all__ = ["Reach", "STRAY_DC", "STRAY_AC", "STRAY_PENALTY"]
+__all__ = ["Reach", "STRAY_DC", "STRAY_AC", "STRAY_PENALTY", "STRAY_MAX_PARTS", "weak_readings"]
 
 #: Largest stray voltage allowed on a cut-off node, DC readings: 50 mV.  A
 #: handheld on a node behind a blown fuse shows a few to tens of millivolts
@@ -50,6 +50,10 @@ STRAY_AC = 0.5
 #: the allowance, about three decades, so ``ln(ln 1000) ~ 1.9`` (an Occam
 #: factor, as for a drift; docs/estimate.md).
 STRAY_PENALTY = 1.9
+#: Circuits with more parts than this get no allowance: the graph search is
+#: plain Python (about 0.1 s per 10,000 parts and analysis on an idle core),
+#: and on a large mesh a single open cuts nothing off.
+STRAY_MAX_PARTS = 20_000
 
 
 def _edges(circuit, analysis, faults):
@@ -254,7 +258,7 @@ def weak_readings(board, faults):
         None when no reading is on a cut-off node.
     """
     modes = {f.ref: f.mode for f in faults if f.mode in ("open", "dead")}
-    if not modes:
+    if not modes or len(board.circuit.parts) > STRAY_MAX_PARTS:
         return None
     cache = board.__dict__.setdefault("_weak", {})
     key = tuple(sorted(modes.items()))

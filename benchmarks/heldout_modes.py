@@ -350,6 +350,9 @@ def main(argv=None):
         print(f"  meter {name:8s} right mode {sum(r['mode_ok'] for r in sub)}/{len(sub)}")
     sub = [r for r in idn if r["fam"] == "rail" and r["fault"][1] == "short" and r["fault"][0].startswith("RL")]
     print(f"  shorts across the fused rail: right mode {sum(r['mode_ok'] for r in sub)}/{len(sub)}")
+    for r in [r for r in idn if not r["twin"]][:args.show]:
+        print(f"  not judged #{r['index']} {r['fam']} {r['meter']}: planted {r['fault']}, top {r['top']} "
+              f"({r['verdict']})")
     bad = [r for r in tw if not r["mode_ok"]][:args.show]
     for r in bad:
         print(f"  wrong #{r['index']} {r['fam']} {r['n']} parts {r['meter']}: planted {r['fault']}, "

@@ -39,7 +39,7 @@ from .faults import Fault
 from .limits import apply_limits
 from .oracle import oracle_readings
 from .predict import analysis_key, lifted_value, parameters, predict
-from .priors import KIND_WEIGHTS, log_prior
+from .priors import HANDBOOK
 from .shorts import fit_shorts, lifted_short, short_admittance
 from .stray import weak_readings
 from .updates import Group, admittance_of, batch, single
@@ -291,10 +291,14 @@ class Evaluator(Board, DriftFits):
         Validated, each with a value or OL.
     meters : dict
         Meter profiles with "default".
+    priors : Priors, optional
+        The fault priors (:mod:`.priors`); default the handbook's table.
     """
 
-    def __init__(self, circuit, readings, meters):
+    def __init__(self, circuit, readings, meters, priors=None):
         readings = list(readings)
+        #: the fault priors' table (:class:`~.priors.Priors`)
+        self.priors = HANDBOOK if priors is None else priors
         share = {}
         nominal = predict(circuit, readings, meters, share=share) if readings else None
         super().__init__(circuit, readings, meters, share)
@@ -392,14 +396,15 @@ class Evaluator(Board, DriftFits):
 
     def prior(self, faults):
         """Log prior of a list of faults."""
-        if not hasattr(self, "_wtotal"):
-            self._wtotal = sum(KIND_WEIGHTS.get(p.kind, 0.0) for p in self.circuit.fault_parts)
-        return log_prior(self.circuit.parts, [(self.circuit.part(f.ref), f.mode) for f in faults],
-                         self._wtotal)
+        table = getattr(self, "priors", HANDBOOK)
+        if getattr(self, "_wtable", None) is not table:
+            self._wtable, self._wtotal = table, table.total(self.circuit.fault_parts)
+        return table.log_prior(self.circuit.parts, [(self.circuit.part(f.ref), f.mode) for f in faults],
+                               self._wtotal)
 
 
 
-def rank(circuit, readings, meters, *, doubles=True) -> Ranking:
+def rank(circuit, readings, meters, *, doubles=True, priors=None) -> Ranking:
     """Score every single-fault hypothesis (and pairs when none fits).
 
     Parameters
@@ -411,12 +416,14 @@ def rank(circuit, readings, meters, *, doubles=True) -> Ranking:
         Meter profiles with "default".
     doubles : bool
         Try pairs of faults when no single fault explains the readings.
+    priors : Priors, optional
+        The fault priors; default the handbook's table (:mod:`.priors`).
 
     Returns
     -------
     Ranking
     """
-    ev = Evaluator(circuit, readings, meters)
+    ev = Evaluator(circuit, readings, meters, priors)
     return rank_with(ev, doubles=doubles)
 
 

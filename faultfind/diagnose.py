@@ -174,7 +174,11 @@ def _protection(ev: Evaluator, h: Hypothesis):
     meter = replace(ev.meters["default"], current_shunt=1e-9)
     rds = [Reading("current", "dc", part=p.ref) for p in parts]
     try:
-        b = Board(c, rds, {"default": meter}, share=None)
+        key = tuple(p.ref for p in parts)
+        cache = ev.__dict__.setdefault("_protection_boards", {})
+        b = cache.get(key)
+        if b is None:
+            b = cache[key] = Board(c, rds, {"default": meter}, share=None)   # one factorization
         now = np.abs(b.predict_faults(list(h.faults)))
         before = np.abs(b.predict_faults([]))
     except (ValueError, ArithmeticError, np.linalg.LinAlgError):

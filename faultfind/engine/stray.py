@@ -211,8 +211,8 @@ class Reach:
         keep = np.ones(self.ea.size, dtype=bool)
         src = self.src.copy()
         for ref, mode in cut:
-            if mode == "open":
-                keep[self.by_ref.get(ref, [])] = False
+            if mode == "open" or (mode == "dead" and self.circuit.part(ref).kind == "current-source"):
+                keep[self.by_ref.get(ref, [])] = False   # a dead current source is an open
         if any(m == "dead" for _, m in cut):
             edges = _edges(self.circuit, self.analysis, dict(faults))
             src[:] = False

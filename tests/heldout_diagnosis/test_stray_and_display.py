@@ -145,6 +145,8 @@ def test_reach_matches_networkx(seed):
         healthy = _driven_nx(c, analysis, {})
         refs = [p.ref for p in c.parts]
         trials = [{r: "open"} for r in refs] + [{"V1": "dead"}]
+        if "I1" in refs:
+            trials += [{"I1": "dead"}, {"I1": "dead", "V1": "dead"}]
         trials += [{a: "open", b: "open"} for a, b in itertools.islice(itertools.combinations(refs, 2), 25)]
         for faults in trials:
             got = reach.cut_off(faults, list(c.nodes))

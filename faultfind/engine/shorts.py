@@ -33,7 +33,10 @@ SHORT_MAX = 1.0
 RESISTOR_SHARE = 1e-2
 #: Decades of the short resistance's log-uniform prior below ``r_max``.
 SHORT_DECADES = 6
-_GRID = 13
+_GRID = 9
+#: A short whose best grid point is this far (chi-square) behind the best of all
+#: shorts is not refined: it cannot lead.
+SEARCH_WINDOW = 50.0
 
 
 def short_range(part):
@@ -87,6 +90,9 @@ def fit_shorts(ev, parts):
     cg = ev._chi2_blocks(parts, P)
     out = [None] * len(parts)
     live = []
+    lows = [min(float(np.min(np.where(np.isfinite(c), c, np.inf))), float(z[0]) if np.isfinite(z[0]) else np.inf)
+            for c, z in zip(cg, c0)]
+    lead = min(lows) if lows else np.inf
     for i, (pz, c_zero, c_grid) in enumerate(zip(P0, c0, cg)):
         fin = c_grid[np.isfinite(c_grid)]
         if fin.size == 0 or not np.isfinite(c_zero[0]):
@@ -94,6 +100,11 @@ def fit_shorts(ev, parts):
             continue
         if fin.max() - fin.min() < 0.05 or c_zero[0] <= fin.min() + 0.05:
             out[i] = (None, pz[0], 0.0)     # r unseen, or zero fits best
+            continue
+        if fin.min() > lead + SEARCH_WINDOW:
+            # far behind the best short: the grid's best stands, unrefined (it cannot lead)
+            b = int(np.argmin(np.where(np.isfinite(c_grid), c_grid, np.inf)))
+            out[i] = (float(np.exp(grids[i][b])), P[i][b], 0.0)
             continue
         live.append(i)
     if not live:

@@ -22,7 +22,7 @@ from .engine.advise import condition_on_taken, expected_information_gain
 from .engine.hypotheses import Board, Fault, rank
 from .engine.meter import standard_uncertainty
 from .engine.predict import predict
-from .engine.priors import KIND_WEIGHTS, MODE_SHARES, P_HEALTHY
+from .engine.priors import HANDBOOK
 from .errors import InputError
 from .io.meters_file import meters_with_default
 from .model import QUANTITY_UNITS, Circuit, Reading
@@ -204,15 +204,14 @@ def near_suspects(circuit: Circuit, suspects, cap=NEAR_CAP):
     return near, parts
 
 
-def _prior_hypotheses(circuit):
+def _prior_hypotheses(circuit, priors=None):
     """Hypotheses before any reading: healthy and every single fault, with their priors."""
-    total = sum(KIND_WEIGHTS.get(p.kind, 0.0) for p in circuit.parts if p.fault_modes)
-    hyps = [((), P_HEALTHY)]
+    table = HANDBOOK if priors is None else priors
+    total = table.total(circuit.parts)
+    hyps = [((), table.p_healthy)]
     for p in circuit.parts:
-        w = KIND_WEIGHTS.get(p.kind, 0.0)
         for mode in p.fault_modes:
-            share = MODE_SHARES.get(p.kind, {}).get(mode, 0.0)
-            pr = (1 - P_HEALTHY) * w / total * share if total else 0.0
+            pr = table.mass(p, mode, total)
             if pr <= 0:
                 continue
             if mode == "drift":
@@ -236,7 +235,7 @@ def _scale(rd, meter, values):
 
 
 def suggest(circuit: Circuit, readings=(), meters=None, *, hypotheses=None, costs=None,
-            power=None, top=5, factors=None) -> list[Suggestion]:
+            power=None, top=5, factors=None, priors=None) -> list[Suggestion]:
     """The next readings worth taking, best first.
 
     Parameters
@@ -260,16 +259,18 @@ def suggest(circuit: Circuit, readings=(), meters=None, *, hypotheses=None, cost
         Factored healthy networks of ``circuit`` from an earlier
         :func:`~faultfind.engine.predict.predict` (its ``share``), reused
         instead of factoring again.
+    priors : Priors, optional
+        Fault priors for the hypotheses computed here (default the handbook's).
 
     Returns
     -------
     list of Suggestion
     """
     with threads_for(len(circuit.parts)):
-        return _suggest(circuit, readings, meters, hypotheses, costs, power, top, factors)
+        return _suggest(circuit, readings, meters, hypotheses, costs, power, top, factors, priors)
 
 
-def _suggest(circuit, readings, meters, hypotheses, costs, power, top, factors):
+def _suggest(circuit, readings, meters, hypotheses, costs, power, top, factors, priors=None):
     if power not in (None, "on", "off"):
         raise ValueError(f"power: expected 'on' or 'off', got {power!r}")
     meters = meters_with_default(meters)
@@ -279,10 +280,10 @@ def _suggest(circuit, readings, meters, hypotheses, costs, power, top, factors):
         power = _power(readings[-1]) if readings else "on"
     if hypotheses is None:
         if readings:
-            rk = rank(circuit, readings, meters)
+            rk = rank(circuit, readings, meters, priors=priors)
             hypotheses = [(h.faults, h.probability) for h in rk.hypotheses]
         else:
-            hypotheses = _prior_hypotheses(circuit)
+            hypotheses = _prior_hypotheses(circuit, priors)
     hypotheses = sorted(hypotheses, key=lambda fp: -fp[1])
     kept, acc = [], 0.0
     for f, pr in hypotheses:

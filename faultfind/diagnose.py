@@ -22,7 +22,7 @@ from .io.meters_file import meters_with_default
 from .model import QUANTITY_UNITS, Circuit, Reading
 from .units import format_value
 
-__all__ = ["Diagnosis", "diagnose", "diagnosis_json", "describe_fault"]
+__all__ = ["Diagnosis", "diagnose", "diagnosis_json", "describe_fault", "priors_json"]
 
 UNITS = QUANTITY_UNITS
 
@@ -53,6 +53,8 @@ class Diagnosis:
     notes : list of str
     suggestions : list of dict
         Next readings (filled by the advisor).
+    priors : Priors or None
+        The fault priors the ranking used (None: the handbook's).
     """
 
     circuit: Circuit
@@ -68,6 +70,7 @@ class Diagnosis:
     notes: list
     suggestions: list = field(default_factory=list)
     evaluator: Evaluator | None = None
+    priors: object = None
 
 
 def _name(rd: Reading) -> str:
@@ -188,7 +191,8 @@ def _node_voltages(ev: Evaluator):
 
 
 def diagnose(circuit: Circuit, readings, meters=None, *, top: int = 10, doubles: bool = True,
-             advise: bool = True, costs=None, power=None, progress=None, screen=None) -> Diagnosis:
+             advise: bool = True, costs=None, power=None, progress=None, screen=None,
+             priors=None) -> Diagnosis:
     """Compare ``readings`` with ``circuit``; rank fault hypotheses.
 
     Parameters
@@ -214,16 +218,23 @@ def diagnose(circuit: Circuit, readings, meters=None, *, top: int = 10, doubles:
         Force the screen of large circuits (:mod:`faultfind.engine.screen`)
         on or off; by default it is used from
         :data:`~faultfind.engine.hypotheses.SCREEN_PARTS` parts up.
+    priors : Priors, optional
+        The fault priors (:class:`~faultfind.engine.priors.Priors`, e.g.
+        learned from the logbook: docs/priors.md); default the handbook's.
 
     Returns
     -------
     Diagnosis
     """
     with threads_for(len(circuit.parts)):
-        return _diagnose(circuit, readings, meters, top, doubles, advise, costs, power, progress, screen)
+        d = _diagnose(circuit, readings, meters, top, doubles, advise, costs, power, progress, screen,
+                      priors)
+    d.priors = priors
+    return d
 
 
-def _diagnose(circuit, readings, meters, top, doubles, advise, costs, power, progress, screen):
+def _diagnose(circuit, readings, meters, top, doubles, advise, costs, power, progress, screen,
+              priors=None):
     if top < 1:
         raise ValueError(f"top: must be at least 1, got {top}")
     meters = meters_with_default(meters)
@@ -233,14 +244,15 @@ def _diagnose(circuit, readings, meters, top, doubles, advise, costs, power, pro
             raise ValueError(f"readings: {rd.where()} has no value")
     tick = progress if progress is not None else (lambda *a: None)
     tick("setting up", None, None)
-    ev = Evaluator(circuit, readings, meters)
+    ev = Evaluator(circuit, readings, meters, priors)
     if not readings:
         healthy = ev.make([], ev.healthy_prediction())
         healthy.probability = 1.0
         suggestions = []
         if advise:
             from .advise import suggest, suggestion_json
-            suggestions = [suggestion_json(x) for x in suggest(circuit, [], meters, costs=costs, power=power)]
+            suggestions = [suggestion_json(x) for x in suggest(circuit, [], meters, costs=costs, power=power,
+                                                               priors=priors)]
         return Diagnosis(circuit, readings, "no-fault", [healthy], 0.0, _estimates(ev, healthy), [],
                          list(ev.params), [["no readings yet: take the suggested readings"]], [],
                          ["no readings: nothing can be told yet"], suggestions, ev)
@@ -354,4 +366,12 @@ def diagnosis_json(d: Diagnosis) -> dict:
         "unseen": d.unseen,
         "recheck": d.recheck,
         "notes": d.notes,
+        "priors": priors_json(d.priors),
     }
+
+
+def priors_json(table) -> dict:
+    """Which fault priors a diagnosis used: ``{"source", "outcomes"}`` (docs/priors.md)."""
+    if table is None or table.label == "handbook":
+        return {"source": "handbook", "outcomes": 0}
+    return {"source": table.label, "outcomes": int(table.outcomes)}

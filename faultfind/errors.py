@@ -16,6 +16,7 @@ __all__ = [
     "ReadingsError",
     "MeterError",
     "LogbookError",
+    "PriorsError",
     "SolveError",
 ]
 
@@ -93,6 +94,10 @@ class MeterError(InputError):
 
 class LogbookError(InputError):
     """A logbook that cannot be opened or written safely."""
+
+
+class PriorsError(InputError):
+    """An outcome-counts (priors) file that is not valid (docs/priors.md)."""
 
 
 class SolveError(FaultfindError):

@@ -371,7 +371,7 @@ def test_expect_without_at_covers_the_circuit(capsys, good):
 # ---------------------------------------------------------------- diagnose
 
 REQUIRED = {"verdict", "hypotheses", "estimates", "ambiguity_groups", "suggestions"}
-EXTRAS = {"explanations", "unseen", "recheck", "notes"}
+EXTRAS = {"explanations", "unseen", "recheck", "notes", "priors"}
 
 
 def test_diagnose_json_document(capsys, good, readings):

@@ -22,6 +22,7 @@ from faultfind.cli.main import main
 from faultfind.errors import LogbookError
 from faultfind.io import migrations as mig
 from faultfind.io.logbook import Logbook
+from faultfind.io.session_tags import tags_of
 
 ROOT = Path(__file__).resolve().parent.parent
 BOOSTER = ROOT / "field_cases" / "booster_pump_panel"
@@ -206,6 +207,8 @@ def _fill(conn, version):
                      "(1, '2025-01-02T04:00:00.000+00:00', 'replaced F1')")
         conn.execute("INSERT INTO outcome_faults VALUES (1, 'F1', 'open')")
         conn.execute("UPDATE sessions SET ended_at = '2025-01-02T04:00:00.000+00:00'")
+    if version >= 5:
+        conn.execute("INSERT INTO session_tags (session_id, tag) VALUES (1, 'north-pumps')")
 
 
 def _schema(path):
@@ -240,6 +243,7 @@ def test_migration_from_every_earlier_version(tmp_path, version):
             assert s.readings[1].reading.overrange == 1 and not s.readings[0].struck
             assert s.outcome.faults == (("F1", "open"),) and s.outcome.action == "replaced F1"
             assert s.technician == "A. Rivera"
+            assert tags_of(book, 1) == (["north-pumps"] if version >= 5 else [])
             assert book.backup is not None
             with sqlite3.connect(book.backup) as old:  # the copy is the file as it was
                 assert list(old.iterdump()) == before

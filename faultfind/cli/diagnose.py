@@ -10,6 +10,7 @@ from ..io.meters_file import load_meters, meters_with_default
 from ..io.readings_file import load_readings
 from ..units import format_value
 from .output import emit_json, table
+from .priors_args import add_priors_args, priors_from_args, priors_line
 from .progress import progress_for
 
 BAR = 30
@@ -24,6 +25,7 @@ def add_parser(sub):
     p.add_argument("--meters", metavar="FILE", help="meter profiles file (TOML)")
     p.add_argument("--top", metavar="K", type=int, default=5, help="hypotheses to list (default 5)")
     p.add_argument("--json", action="store_true", help="print one JSON document")
+    add_priors_args(p)
     p.set_defaults(run=run)
 
 
@@ -47,8 +49,9 @@ def run(args) -> int:
     if progress is not None:
         progress("reading files")
     circuit, meters, readings = load_inputs(args)
+    priors = priors_from_args(args)
     progress = progress or progress_for(circuit)
-    d = diagnose(circuit, readings, meters, top=args.top, progress=progress)
+    d = diagnose(circuit, readings, meters, top=args.top, progress=progress, priors=priors)
     if args.json:
         emit_json(diagnosis_json(d))
         return 0
@@ -113,6 +116,7 @@ def print_report(d) -> None:
     print(f"  {inside} other part(s) estimated within tolerance.")
     for note in d.notes:
         print(f"Note: {note}")
+    print(priors_line(d.priors))
     if d.suggestions:
         print()
         print("Next readings worth taking:")

@@ -17,6 +17,7 @@ from ..errors import FaultfindError, InputError, LogbookError
 from ..io.logbook import (ENV_VAR, PURPOSES, SAFETY_CAUTION, Logbook, default_logbook_path,
                           format_time, resolve_logbook_path)
 from ..io.report import assess, assess_session, describe_reading, report_format, write_report
+from .log_priors import add_commands as add_priors_commands
 from .output import emit_json, table
 
 __all__ = ["add_parser", "parse_compact", "compact_of", "COMPACT_KINDS"]
@@ -673,4 +674,5 @@ def add_parser(sub):
 
     cmd("path", run_path, "print where the logbook file is")
     cmd("verify", run_verify, "check the logbook file's integrity")
+    add_priors_commands(cmd, session_arg, _session)
     return p

@@ -6,7 +6,9 @@ from ..advise import load_costs, suggest, suggestion_json
 from ..io.circuit_file import load_circuit
 from ..io.meters_file import load_meters, meters_with_default
 from ..io.readings_file import load_readings
+from ..diagnose import priors_json
 from .output import describe_reading, emit_json
+from .priors_args import add_priors_args, priors_from_args, priors_line
 
 
 def add_parser(sub):
@@ -21,6 +23,7 @@ def add_parser(sub):
                    help="whether the circuit is energized now (default: as the last reading needed)")
     p.add_argument("--top", metavar="K", type=int, default=5, help="how many suggestions (default 5)")
     p.add_argument("--json", action="store_true", help="print one JSON document")
+    add_priors_args(p)
     p.set_defaults(run=run)
 
 
@@ -32,11 +35,14 @@ def run(args) -> int:
     meters = meters_with_default(load_meters(args.meters) if args.meters else None)
     readings = load_readings(args.readings, circuit, meters) if args.readings else []
     costs = load_costs(args.costs) if args.costs else None
-    sug = suggest(circuit, readings, meters, costs=costs, power=args.power, top=args.top)
+    priors = priors_from_args(args)
+    sug = suggest(circuit, readings, meters, costs=costs, power=args.power, top=args.top,
+                  priors=priors)
     if args.json:
-        emit_json({"suggestions": [suggestion_json(s) for s in sug]})
+        emit_json({"suggestions": [suggestion_json(s) for s in sug], "priors": priors_json(priors)})
         return 0
     print_suggestions(sug, circuit, bool(readings))
+    print(priors_line(priors))
     return 0
 
 

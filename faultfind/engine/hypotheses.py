@@ -36,7 +36,7 @@ from .estimate import weighted_gram
 from .evidence import Evidence
 from .oracle import oracle_readings
 from .predict import analysis_key, lifted_value, parameters, predict
-from .priors import KIND_WEIGHTS, log_prior
+from .priors import HANDBOOK
 from .updates import Group, admittance_of, batch, single
 
 __all__ = ["Fault", "Hypothesis", "Ranking", "rank", "Board", "Evaluator", "FIT_P", "HEALTHY_P"]
@@ -299,10 +299,14 @@ class Evaluator(Board):
         Validated, each with a value or OL.
     meters : dict
         Meter profiles with "default".
+    priors : Priors, optional
+        The fault priors (:mod:`.priors`); default the handbook's table.
     """
 
-    def __init__(self, circuit, readings, meters):
+    def __init__(self, circuit, readings, meters, priors=None):
         readings = list(readings)
+        #: the fault priors' table (:class:`~.priors.Priors`)
+        self.priors = HANDBOOK if priors is None else priors
         share = {}
         nominal = predict(circuit, readings, meters, share=share) if readings else None
         super().__init__(circuit, readings, meters, share)
@@ -547,14 +551,15 @@ class Evaluator(Board):
 
     def prior(self, faults):
         """Log prior of a list of faults."""
-        if not hasattr(self, "_wtotal"):
-            self._wtotal = sum(KIND_WEIGHTS.get(p.kind, 0.0) for p in self.circuit.fault_parts)
-        return log_prior(self.circuit.parts, [(self.circuit.part(f.ref), f.mode) for f in faults],
-                         self._wtotal)
+        table = getattr(self, "priors", HANDBOOK)
+        if getattr(self, "_wtable", None) is not table:
+            self._wtable, self._wtotal = table, table.total(self.circuit.fault_parts)
+        return table.log_prior(self.circuit.parts, [(self.circuit.part(f.ref), f.mode) for f in faults],
+                               self._wtotal)
 
 
 
-def rank(circuit, readings, meters, *, doubles=True) -> Ranking:
+def rank(circuit, readings, meters, *, doubles=True, priors=None) -> Ranking:
     """Score every single-fault hypothesis (and pairs when none fits).
 
     Parameters
@@ -566,12 +571,14 @@ def rank(circuit, readings, meters, *, doubles=True) -> Ranking:
         Meter profiles with "default".
     doubles : bool
         Try pairs of faults when no single fault explains the readings.
+    priors : Priors, optional
+        The fault priors; default the handbook's table (:mod:`.priors`).
 
     Returns
     -------
     Ranking
     """
-    ev = Evaluator(circuit, readings, meters)
+    ev = Evaluator(circuit, readings, meters, priors)
     return rank_with(ev, doubles=doubles)
 
 

@@ -25,8 +25,10 @@ source).
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
 
-__all__ = ["MODE_SHARES", "KIND_WEIGHTS", "P_HEALTHY", "log_prior"]
+__all__ = ["MODE_SHARES", "KIND_WEIGHTS", "P_HEALTHY", "MODE_GROUPS", "Priors", "HANDBOOK",
+           "log_prior"]
 
 #: Share of each failure mode among a kind's failures.
 MODE_SHARES = {
@@ -61,8 +63,83 @@ KIND_WEIGHTS = {
 #: Prior probability that the drawn circuit has no fault; common practice (no source).
 P_HEALTHY = 0.2
 
+#: Modes that share one failure budget: a part can only have the modes of one
+#: group (a closed switch fails open or high; an open one welds shut).  Kinds
+#: not listed have one group of all their modes.
+MODE_GROUPS = {"switch": (("open", "drift"), ("short",))}
 
-def log_prior(parts, faults, total=None) -> float:
+
+def mode_groups(kind, shares) -> tuple:
+    """The groups of :data:`MODE_GROUPS` for ``kind``, else one group of the modes in ``shares``."""
+    return MODE_GROUPS.get(kind, (tuple(shares),))
+
+
+@dataclass(frozen=True)
+class Priors:
+    """A table of fault priors: the kind weights, mode shares and ``P(healthy)``.
+
+    :data:`HANDBOOK` is the table of this module; a table learned from
+    confirmed outcomes (:func:`faultfind.engine.prior_update.learn`) has the
+    same shape.
+
+    Attributes
+    ----------
+    kind_weights : dict
+        Kind -> relative chance that a part of that kind is the failed one.
+    mode_shares : dict
+        Kind -> mode -> share of that mode among the kind's failures (within
+        its group of :data:`MODE_GROUPS`).
+    p_healthy : float
+        Prior that the drawn circuit has no fault.
+    label : str
+        Where the table comes from, for reports ("handbook", "logbook
+        bp.sqlite, scope tag:north").
+    outcomes : int
+        Confirmed outcomes (closed sessions) behind the table; 0 for the handbook.
+    """
+
+    kind_weights: dict
+    mode_shares: dict
+    p_healthy: float
+    label: str = "handbook"
+    outcomes: int = 0
+
+    def __post_init__(self):
+        if not (0.0 < self.p_healthy < 1.0):
+            raise ValueError(f"p_healthy: must be between 0 and 1, got {self.p_healthy!r}")
+        for kind, w in self.kind_weights.items():
+            if not (w >= 0.0 and math.isfinite(w)):
+                raise ValueError(f"kind_weights: {kind} has weight {w!r}, not a finite number >= 0")
+        for kind, shares in self.mode_shares.items():
+            for mode, s in shares.items():
+                if not (0.0 <= s <= 1.0):
+                    raise ValueError(f"mode_shares: {kind} {mode} has share {s!r}, not in 0..1")
+
+    def weight(self, kind) -> float:
+        """The kind's weight (0 for a kind the table does not know)."""
+        return float(self.kind_weights.get(kind, 0.0))
+
+    def share(self, kind, mode) -> float:
+        """The mode's share among the kind's failures (0 when unknown)."""
+        return float(self.mode_shares.get(kind, {}).get(mode, 0.0))
+
+    def total(self, parts) -> float:
+        """Sum of the kind weights over the parts that can fail."""
+        return sum(self.weight(p.kind) for p in parts if p.fault_modes)
+
+    def log_prior(self, parts, faults, total=None) -> float:
+        """:func:`log_prior` with this table."""
+        return log_prior(parts, faults, total, table=self)
+
+    def mass(self, part, mode, total) -> float:
+        """Prior of the single fault ``(part, mode)`` on a circuit whose weights sum to ``total``."""
+        w, s = self.weight(part.kind), self.share(part.kind, mode)
+        if w <= 0 or s <= 0 or total <= 0:
+            return 0.0
+        return (1.0 - self.p_healthy) * w / total * s
+
+
+def log_prior(parts, faults, total=None, *, table=None) -> float:
     """Log prior of a hypothesis (unnormalized across hypotheses).
 
     Parameters
@@ -73,6 +150,8 @@ def log_prior(parts, faults, total=None) -> float:
         The faulted parts; empty for the healthy circuit.
     total : float, optional
         ``sum`` of the kind weights over ``parts`` (computed when omitted).
+    table : Priors, optional
+        The table to use; default :data:`HANDBOOK`.
 
     Returns
     -------
@@ -82,15 +161,19 @@ def log_prior(parts, faults, total=None) -> float:
         double fault is the product of two single-fault priors, i.e. roughly
         independent failures).
     """
+    table = HANDBOOK if table is None else table
     if not faults:
-        return math.log(P_HEALTHY)
+        return math.log(table.p_healthy)
     if total is None:
-        total = sum(KIND_WEIGHTS.get(p.kind, 0.0) for p in parts if p.fault_modes)
+        total = table.total(parts)
     lp = 0.0
     for part, mode in faults:
-        w = KIND_WEIGHTS.get(part.kind, 0.0)
-        share = MODE_SHARES.get(part.kind, {}).get(mode, 0.0)
-        if w <= 0 or share <= 0 or total <= 0:
+        m = table.mass(part, mode, total)
+        if m <= 0:
             return -math.inf
-        lp += math.log((1.0 - P_HEALTHY) * w / total * share)
+        lp += math.log(m)
     return lp
+
+
+#: The table of this module: the handbook's mode shares, common-practice kind weights.
+HANDBOOK = Priors(KIND_WEIGHTS, MODE_SHARES, P_HEALTHY, "handbook")

@@ -184,6 +184,18 @@ _EVENTS = (
     "CREATE INDEX events_by_session ON events (session_id, at)",
 )
 
+_SESSION_TAGS = (
+    # Free tags on a session: the site or unit family it belongs to, for learning fault
+    # priors from one site's outcomes (faultfind/io/session_tags.py, docs/priors.md).
+    # Compared ignoring ASCII case.
+    """CREATE TABLE session_tags (
+        session_id  INTEGER NOT NULL REFERENCES sessions (id) ON DELETE CASCADE,
+        tag         TEXT NOT NULL COLLATE NOCASE CHECK (length(trim(tag)) > 0),
+        PRIMARY KEY (session_id, tag)
+    )""",
+    "CREATE INDEX session_tags_by_tag ON session_tags (tag, session_id)",
+)
+
 #: Every migration, oldest first; ``MIGRATIONS[i].version == i + 1``.
 MIGRATIONS: tuple[Migration, ...] = (
     Migration(1, "0001_initial", _INITIAL,
@@ -194,6 +206,8 @@ MIGRATIONS: tuple[Migration, ...] = (
               "drill results per apprentice: hidden fault, verdict, score and transcript"),
     Migration(4, "0004_session_events", _EVENTS,
               "session events: circuit isolated or energized, notes"),
+    Migration(5, "0005_session_tags", _SESSION_TAGS,
+              "session tags: the site or unit family a session belongs to"),
 )
 
 #: The schema version this faultfind writes.

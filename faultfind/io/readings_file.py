@@ -27,10 +27,12 @@ from collections.abc import Mapping
 import numpy as np
 import pandas as pd
 
+from faultfind.engine import meter as meter_model
 from faultfind.errors import ReadingsError, UnitError
+from faultfind.io.meters_file import DEFAULT_METER
 from faultfind.io.textfile import read_text
 from faultfind.model import KINDS, MODES, QUANTITIES, QUANTITY_UNITS, SETUPS, Circuit, MeterProfile, Reading
-from faultfind.units import parse_frequency, parse_value
+from faultfind.units import format_value, parse_frequency, parse_value
 
 __all__ = ["COLUMNS", "QUANTITY_UNITS", "load_readings", "parse_readings", "readings_to_frame",
            "write_readings", "reading_to_row"]
@@ -290,10 +292,10 @@ class _RowChecker:
                          "resistance")
             return None
         mode, setup = self.mode_and_setup(line, quantity, get)
-        plus, minus, part = self.probes(line, quantity, get)
+        plus, minus, part = self.probes(line, quantity, setup, get)
         frequency = self.frequency(line, mode, get("frequency"))
-        value, overrange = self.value(line, quantity, mode, get("value"))
         meter = self.meter(line, get("meter"))
+        value, overrange = self.value(line, quantity, mode, get("value"), meter)
         if self.circuit is not None and len(self.problems) == before:
             plus, minus = self.against_circuit(line, quantity, mode, plus, minus, part)
         if len(self.problems) > before:
@@ -322,7 +324,7 @@ class _RowChecker:
                          f"{_did_you_mean(mode, MODES)}: write dc or ac")
         return mode, None
 
-    def probes(self, line, quantity, get):
+    def probes(self, line, quantity, setup, get):
         plus, minus, part = (get(c) or None for c in ("plus", "minus", "part"))
         if quantity == "voltage":
             if part:
@@ -349,10 +351,29 @@ class _RowChecker:
             elif not part and not plus:
                 self.problem(line, "part", "a resistance reading needs part (across a part) or "
                              "plus (and minus) for the nodes the probes touch")
+            elif not part and setup == "lifted":
+                # 'lifted' says the reading is one part alone; which part is
+                # not for faultfind to guess from the probes' nodes.
+                self.problem(line, "setup", "a lifted reading needs the part that was lifted: "
+                             "write its reference in part instead of plus/minus, or write "
+                             "setup in-circuit for a reading between two nodes"
+                             + self.parts_between(plus, minus))
         if plus and minus and plus == minus:
             self.problem(line, "minus", f"plus and minus are the same node {plus!r}: the meter "
                          "would read nothing")
         return plus, minus, part
+
+    def parts_between(self, plus, minus) -> str:
+        """``; between A and B: R2`` -- the two-terminal parts the probes sat across."""
+        if self.circuit is None:
+            return ""
+        ends = {plus, minus or self.circuit.ground}
+        found = [p.ref for p in self.circuit.parts
+                 if KINDS[p.kind].nodes == 2 and set(p.nodes) == ends]
+        if not found:
+            return ""
+        shown = ", ".join(found[:_LIST_AT_MOST]) + (", ..." if len(found) > _LIST_AT_MOST else "")
+        return f"; between {plus} and {minus or self.circuit.ground}: {shown}"
 
     def frequency(self, line, mode, raw):
         if not raw:
@@ -369,7 +390,7 @@ class _RowChecker:
             self.problem(line, "frequency", exc.message)
             return None
 
-    def value(self, line, quantity, mode, raw):
+    def value(self, line, quantity, mode, raw, meter=None):
         if not raw:
             if self.require_values:
                 self.problem(line, "value", "no value: write the meter's display or OL")
@@ -386,12 +407,24 @@ class _RowChecker:
                 return None, 0
             sign = -1 if number < 0 else 1
         if sign < 0 and quantity == "resistance":
-            self.problem(line, "value", f"negative resistance {raw!r}: the circuit is still "
-                         "powered or a capacitor is charged; switch off, discharge and read again")
+            allowance = None if over else zero_allowance(self.profile(meter), number)
+            if allowance is None or -number > allowance:
+                beyond = ("" if allowance is None else ", further below zero than this "
+                          "meter's accuracy allows on a short (down to "
+                          f"{format_value(-allowance, 'Ω')})")
+                self.problem(line, "value", f"negative resistance {raw!r}{beyond}: the circuit "
+                             "is still powered or a capacitor is charged, so this is not a "
+                             "resistance. Switch off, isolate and lock out, discharge "
+                             "capacitors, prove the circuit dead, then read again")
         elif sign < 0 and mode == "ac":
             self.problem(line, "value", f"negative AC reading {raw!r}: an AC reading is an RMS "
                          "value and cannot be below zero")
         return number, (sign if over else 0)
+
+    def profile(self, meter) -> MeterProfile:
+        """The profile a row's meter names (the built-in default when not known here)."""
+        meters = self.meters or {}
+        return meters.get(meter or "default") or meters.get("default") or DEFAULT_METER
 
     def meter(self, line, raw):
         if not raw or raw.lower() == "default":
@@ -430,6 +463,32 @@ class _RowChecker:
             self.problem(line, "mode", "an AC reading, but the circuit has no AC source: "
                          "write dc, or add the AC source to the circuit file")
         return plus, minus
+
+
+def zero_allowance(profile: MeterProfile, value: float) -> float:
+    """How far below zero a resistance display may be and still read "about zero".
+
+    Parameters
+    ----------
+    profile : MeterProfile
+        The meter the reading was taken with.
+    value : float
+        The display in ohms (negative when this matters).
+
+    Returns
+    -------
+    float
+        ``a + r / 2``: the meter's specification limit ``a`` at the display
+        (:func:`faultfind.engine.meter.spec_limit`) plus half its display
+        step ``r``.  A meter within its specification shows a true 0 Ω
+        within that distance of zero (the bound of
+        :func:`faultfind.engine.meter.simulate`); a meter whose leads were
+        nulled (relative mode) shows such small negative values on a short.
+        A display further below zero is not a resistance.
+    """
+    a = meter_model.spec_limit(profile, "resistance", None, value)
+    r = meter_model.resolution(profile, "resistance", value)
+    return float(a + r / 2.0) * (1.0 + 1e-9)  # 1e-9: a display exactly at the bound is inside
 
 
 def _hint(name, choices, what) -> str:

@@ -46,10 +46,26 @@ async def acknowledge(pilot):
     await settle(pilot)
 
 
+async def wait_for_screen(pilot, screen_type, timeout=20.0):
+    """Pause until the app's screen is a ``screen_type`` (at most ``timeout`` s).
+
+    A busy machine can take more than a few message rounds to push a screen;
+    the caller's assertion still fails if the screen never comes.
+    """
+    loop = asyncio.get_running_loop()
+    end = loop.time() + timeout
+    while not isinstance(pilot.app.screen, screen_type) and loop.time() < end:
+        await settle(pilot, 1)
+        await asyncio.sleep(0.05)
+
+
 async def start_session(pilot, unit="BP-2"):
     """From the opening screen (circuit already named): type the unit, Enter."""
+    from faultfind.tui.screens.bench import BenchScreen
+
     await pilot.press(*unit, "enter")
     await settle(pilot)
+    await wait_for_screen(pilot, BenchScreen)
 
 
 async def to_bench(pilot, unit="BP-2"):

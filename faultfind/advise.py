@@ -68,9 +68,6 @@ LEAD_MASS = 0.8
 #: A reading telling the leading hypotheses apart by less than this (bits) is
 #: left out while another reading does better.
 LEAD_GAIN = 0.05
-#: Variance of a drifted part's log-value before the readings pin it: a
-#: standard deviation of ln 3 (a drift is a factor of a few; docs/advice.md).
-DRIFT_VAR = math.log(3.0) ** 2
 # A private meter profile with no shunt: a supply's own current, unloaded.
 _IDEAL = "\x00supply"
 
@@ -325,7 +322,7 @@ def _suggest(circuit, readings, meters, hypotheses, costs, power, top, factors, 
     mu_s, noise_s, fac, sens_s = m.scaled(C + M)
     y_obs = np.array([_scale(r, meters[r.meter or "default"], [r.value])[0] for r in seen])
     mean_s, sd_s = condition_on_taken(mu_s, noise_s, fac, sens_s, m.var,
-                                      np.arange(C, C + M), y_obs, m.free)
+                                      np.arange(C, C + M), y_obs)
     probs_eff = np.where(bad, 0.0, probs)
     probs_eff = probs_eff / probs_eff.sum()
     # the worth of a reading, counting only hypotheses the supplies could feed
@@ -403,10 +400,6 @@ class _Model:
         tl = np.array([circuit.part(r).tol_low for r in nominal.params])
         th = np.array([circuit.part(r).tol_high for r in nominal.params])
         self.var = ((np.log1p(th) - np.log1p(-tl)) / 2) ** 2 / 3
-        # a drifted part's value is known only as far as the readings pin it
-        col = {r: j for j, r in enumerate(nominal.params)}
-        self.free = [tuple((col[x.ref], DRIFT_VAR) for x in f if x.mode == "drift" and x.ref in col)
-                     for f, _ in kept]
 
     def scaled(self, n):
         """The first ``n`` rows on their Gaussian scale: mean, meter noise, tolerance factor, sensitivities."""

@@ -80,7 +80,7 @@ def expected_information_gain(prob, mu, sd):
     return np.clip(h0 - eh @ prob, 0.0, None)
 
 
-def condition_on_taken(mu, noise, factor, sens, var, taken, observed, free=None):
+def condition_on_taken(mu, noise, factor, sens, var, taken, observed):
     """Predictions of candidate readings given the readings already taken.
 
     Under each hypothesis ``k`` the readings (candidates and those taken) are
@@ -117,10 +117,6 @@ def condition_on_taken(mu, noise, factor, sens, var, taken, observed, free=None)
         Rows that are readings already taken; every other row is a candidate.
     observed : ndarray, shape (M,)
         What those readings showed, on the same scale.
-    free : sequence of K sequences of (int, float), optional
-        Per hypothesis, parameters whose log-value is not held by its
-        tolerance (a drifted part: its value is known only from the
-        readings), as (column of ``sens``, variance) replacing ``var`` there.
 
     Returns
     -------
@@ -139,28 +135,18 @@ def condition_on_taken(mu, noise, factor, sens, var, taken, observed, free=None)
     if noise.shape != (R, K) or factor.shape != (R, K) or sens.shape[0] != R \
             or var.shape != (sens.shape[1],) or observed.shape != taken.shape:
         raise ValueError("mu, noise, factor, sens, var, taken, observed: inconsistent shapes")
-    free = [()] * K if free is None else list(free)
-    if len(free) != K:
-        raise ValueError("free: one entry per hypothesis expected")
     cand = np.setdiff1d(np.arange(R), taken)
     g_cc = (sens[cand] ** 2) @ var
     mean = mu[cand].copy()
     sd2 = factor[cand] ** 2 * g_cc[:, None] + noise[cand] ** 2
-    for k, extra in enumerate(free):
-        for j, v in extra:
-            sd2[:, k] += factor[cand, k] ** 2 * (v - var[j]) * sens[cand, j] ** 2
     if taken.size:
         St = sens[taken] * var[None, :]
         G_ct = sens[cand] @ St.T                       # (C, M)
         G_tt = sens[taken] @ St.T                      # (M, M)
         for k in range(K):
             ft = factor[taken, k]
-            Gct, Gtt = G_ct, G_tt
-            for j, v in free[k]:
-                Gct = Gct + (v - var[j]) * np.outer(sens[cand, j], sens[taken, j])
-                Gtt = Gtt + (v - var[j]) * np.outer(sens[taken, j], sens[taken, j])
-            A = ft[:, None] * Gtt * ft[None, :] + np.diag(noise[taken, k] ** 2)
-            B = factor[cand, k][:, None] * Gct * ft[None, :]
+            A = ft[:, None] * G_tt * ft[None, :] + np.diag(noise[taken, k] ** 2)
+            B = factor[cand, k][:, None] * G_ct * ft[None, :]
             resid = np.nan_to_num(observed - mu[taken, k])
             X = np.linalg.solve(A, np.column_stack([resid, B.T]))
             mean[:, k] += B @ X[:, 0]

@@ -63,11 +63,6 @@ NEAR_CAP = 100
 #: current reading whose predicted value under any kept hypothesis exceeds it
 #: is never suggested.
 CURRENT_RANGE = 10.0
-#: The leading hypotheses hold this much of the probability (docs/advice.md).
-LEAD_MASS = 0.8
-#: A reading telling the leading hypotheses apart by less than this (bits) is
-#: left out while another reading does better.
-LEAD_GAIN = 0.05
 # A private meter profile with no shunt: a supply's own current, unloaded.
 _IDEAL = "\x00supply"
 
@@ -337,18 +332,6 @@ def _suggest(circuit, readings, meters, hypotheses, costs, power, top, factors, 
                if seen[t].quantity == cands[c].quantity):
             cands_ok[c] = False
     gain = np.where(cands_ok, gain, 0.0)
-    # While some reading can tell the leading hypotheses apart, one that cannot
-    # (its worth is all in the unlikely tail: a power-off reading while every
-    # leader is a live fault, a node all the leaders predict alike) is not offered.
-    lead = _leaders(fed)
-    if lead.size >= 2:
-        pl = fed[lead] / fed[lead].sum()
-        g_lead = np.concatenate([expected_information_gain(pl, mean_s[a:a + _CHUNK, lead],
-                                                           sd_s[a:a + _CHUNK, lead])
-                                 for a in range(0, C, _CHUNK)])
-        splits = cands_ok & (g_lead >= LEAD_GAIN)
-        if splits.any():
-            gain = np.where(splits, gain, 0.0)
     cost = np.array([_cost(rd, power, costs, circuit) for rd in cands])
     score = gain / cost
     # best score first; of equal worth, a reading without the meter in series first
@@ -424,13 +407,6 @@ class _Model:
             else:
                 noise[c] = np.maximum(nz, 1e-12)
         return mu_s, noise, fac, sens
-
-
-def _leaders(prob):
-    """The leading hypotheses: the most probable ones holding :data:`LEAD_MASS` (2 to 6 of them)."""
-    order = np.argsort(-prob)
-    n = int(np.searchsorted(np.cumsum(prob[order]), LEAD_MASS * prob.sum()) + 1)
-    return order[:min(max(n, 2), 6, int((prob > 0).sum()))]
 
 
 def _same(circuit, rd):

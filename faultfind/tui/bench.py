@@ -18,6 +18,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from faultfind.errors import InputError, ReadingsError
+from faultfind.io.circuit_versions import circuit_versions, diagnosis_circuit, revise_circuit
 from faultfind.model import Reading
 
 from .entry import check_cells, describe_cells, parse_entry
@@ -182,8 +183,8 @@ class Bench:
 
     def assessed(self):
         """Every logged reading against its healthy band
-        (:func:`faultfind.io.report.assess_session`)."""
-        from faultfind.io.report import assess
+        (:func:`faultfind.report.assess_session`)."""
+        from faultfind.report import assess
 
         return assess(self.circuit, self.meters, self.session.readings)
 
@@ -196,6 +197,44 @@ class Bench:
             self.book.add_event(self.session_id, "isolated" if state == "off" else "energized",
                                 "declared in the terminal UI")
         self.power = state
+
+    # -- the circuit's versions ----------------------------------------------------------
+
+    def revise_circuit(self, text: str):
+        """Make ``text`` the session's circuit (its next version in the logbook).
+
+        The readings already taken stay; the diagnosis and the advice are then
+        worked out again on the new circuit (the caller runs them).
+
+        Returns
+        -------
+        faultfind.io.circuit_versions.CircuitVersion
+
+        Raises
+        ------
+        CircuitError
+            Not a valid circuit, or a reading that counts no longer fits it.
+        LogbookError
+            The session is closed or the logbook cannot be written.
+        """
+        version = revise_circuit(self.book, self.session_id, text)
+        self.refresh()
+        self.circuit = self.session.circuit()
+        self.suggested = []
+        self.suggested_power = None
+        return version
+
+    def circuit_version(self):
+        """The version of the circuit the session is on now."""
+        return circuit_versions(self.book, self.session_id)[-1]
+
+    def stored_circuit(self):
+        """``(version, changed)`` of the stored diagnosis's circuit
+        (:func:`faultfind.io.circuit_versions.diagnosis_circuit`); ``(None, False)``
+        without a stored diagnosis."""
+        if self.stored is None:
+            return None, False
+        return diagnosis_circuit(self.book, self.session_id, self.stored)
 
     # -- readings ------------------------------------------------------------------------
 
@@ -229,7 +268,7 @@ class Bench:
         """What Enter would do with ``text``: the reading, its band, or what is wrong."""
         from faultfind.expect import expect
         from faultfind.io.logbook import LoggedReading
-        from faultfind.io.report import assess
+        from faultfind.report import assess
 
         try:
             cells = parse_entry(text, self.circuit)
@@ -358,7 +397,7 @@ class Bench:
         InputError
             An unknown suffix or a file that cannot be written.
         """
-        from faultfind.io.report import report_format, write_report
+        from faultfind.report import report_format, write_report
 
         if not isinstance(path, (str, os.PathLike)) or not os.fspath(path).strip():
             raise InputError("name the report file, e.g. report.html or report.md",

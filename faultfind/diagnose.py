@@ -11,6 +11,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field, replace
 
 import numpy as np
+from scipy.special import ndtri
 
 from .blas import threads_for
 from .engine.ambiguity import VISIBLE_CHANGE, groups_from_hypotheses, groups_from_sensitivity, merge_groups
@@ -127,11 +128,15 @@ def _explain(ev: Evaluator, h: Hypothesis, healthy: Hypothesis, limit=4):
             out.append(f"for: {_name(rd)} reads {shown} where {_fmt(ev.pred0[i], unit)} "
                        f"is expected; {label} explains it (predicts {_fmt(_shown(ev, h)[i], unit)})")
             n_for += 1
+    # a reading is "against" when it is off by more than chance allows among this many
+    # readings: 3 standard deviations, raised so that the chance of any one of n readings
+    # passing it is about 1 % (Bonferroni; 3.5 for 20 readings)
+    z_against = max(3.0, float(ndtri(1.0 - 0.005 / max(len(ev.readings), 1))))
     for i in np.argsort(-np.abs(zh)):
         rd = ev.readings[i]
         unit = UNITS[rd.quantity]
         shown = "OL" if rd.overrange else _fmt(rd.value, unit)
-        if abs(zh[i]) > 3 and len(out) < 2 * limit:
+        if abs(zh[i]) > z_against and len(out) < 2 * limit:
             out.append(f"against: {_name(rd)} reads {shown} but {label} predicts "
                        f"{_fmt(_shown(ev, h)[i], unit)}")
     for f in h.faults:

@@ -1172,7 +1172,7 @@ class Logbook:
     # diagnosis and outcome
 
     @_locked
-    def store_diagnosis(self, session_id, *, top=5, progress=None) -> StoredDiagnosis:
+    def store_diagnosis(self, session_id, *, top=5, progress=None, priors=None) -> StoredDiagnosis:
         """Diagnose the session's readings (those not struck out) and keep the result.
 
         Parameters
@@ -1183,6 +1183,8 @@ class Logbook:
         progress : callable, optional
             Passed to :func:`faultfind.diagnose.diagnose`: called as
             ``progress(stage, done, total)`` as the diagnosis runs.
+        priors : Priors, optional
+            Fault priors for the ranking (docs/priors.md); default the handbook's.
 
         Returns
         -------
@@ -1208,7 +1210,7 @@ class Logbook:
         logged = [r for r in self._readings(sid) if not r.struck]
         readings = [r.reading for r in logged]
         doc = _clean_json(diagnosis_json(diagnose(circuit, readings, meters, top=top,
-                                                         progress=progress)))
+                                                         progress=progress, priors=priors)))
         text = json.dumps(doc, ensure_ascii=False, allow_nan=False)
         last = max((r.seq for r in self._readings(sid)), default=0)
         when = _now()

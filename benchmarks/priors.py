@@ -18,7 +18,11 @@ fault), shown as the default meter would.  Top-1: the leading hypothesis is
 the planted fault (part and mode), or the healthy circuit when none was
 planted.
 
-Run ``python benchmarks/priors.py [--history N] [--jobs N] [--seed S]``.
+Run ``python benchmarks/priors.py [--history N] [--jobs N] [--seed S] [--logbook PATH]``;
+with ``--logbook`` the simulated histories are kept in that file (sessions
+tagged ``fuse-site`` and ``handbook-site``) to try the commands on, e.g.
+``faultfind log priors --logbook PATH --scope tag:fuse-site``; ``--jobs 0``
+only writes the histories.
 """
 
 from __future__ import annotations
@@ -68,7 +72,7 @@ def run_site(book, site_name, history, jobs, seed):
 
     Returns
     -------
-    (Accuracy, Learned)
+    (Accuracy or None when ``jobs`` is 0, Learned)
     """
     truth = site_table(SITES[site_name], label=site_name)
     cs = cases()
@@ -78,6 +82,8 @@ def run_site(book, site_name, history, jobs, seed):
         path, _, _ = cs[i % len(cs)]
         simulate_history(book, path, truth, 1, rng, tag=tag, unit=f"{tag}-{i % len(cs) + 1}")
     learned = from_logbook(book, f"tag:{tag}")
+    if jobs <= 0:
+        return None, learned
     tables = {"handbook": None, "learned": learned.table, "true mix": truth}
     acc = accuracy([(c, rd) for _, c, rd in cs], truth, tables, jobs, np.random.default_rng([seed, 2]))
     return acc, learned
@@ -88,17 +94,24 @@ def main(argv=None) -> int:
     ap.add_argument("--history", type=int, default=300, help="logged outcomes per site (300)")
     ap.add_argument("--jobs", type=int, default=400, help="new jobs per site (400)")
     ap.add_argument("--seed", type=int, default=17)
+    ap.add_argument("--logbook", metavar="PATH", help="keep the simulated histories in this logbook")
     args = ap.parse_args(argv)
     t0 = time.perf_counter()
     with tempfile.TemporaryDirectory() as d:
-        with Logbook(Path(d) / "sites.sqlite") as book:
+        with Logbook(args.logbook or Path(d) / "sites.sqlite") as book:
             rows = []
             for name in SITES:
                 acc, learned = run_site(book, name, args.history, args.jobs, args.seed)
+                if acc is None:
+                    print(f"{name}: {args.history} outcomes logged in {book.path} "
+                          f"(tag {name.replace(' ', '-')})")
+                    continue
                 fuse = next(r for r in learned.kinds if r.kind == "fuse")
                 se = acc.stderr_of_difference("learned", "handbook")
                 rows.append((name, acc.share("handbook"), acc.share("learned"), acc.share("true mix"),
                              acc.share("learned") - acc.share("handbook"), se, fuse.multiplier))
+    if not rows:
+        return 0
     print(f"{args.history} logged outcomes and {args.jobs} new jobs per site, seed {args.seed}, "
           f"{time.perf_counter() - t0:.0f} s")
     print("| site | handbook priors | learned priors | true mix | learned - handbook (± s.e.) "

@@ -53,3 +53,38 @@ def mesh_toml(c: Circuit) -> str:
         out.append(f'tolerance = "{p.tol_high * 100:g}%"')
         out.append("")
     return "\n".join(out)
+
+
+def grid(n_parts: int, load_every: int = 5, seed: int = 0) -> Circuit:
+    """A k x k grid of links with a load on every ``load_every``-th node: about ``n_parts`` parts.
+
+    Invented (a low-voltage distribution grid: a 24 V supply through a fuse
+    into one corner, 0.1-0.91 ohm links, 100-910 ohm loads to ground on a
+    fraction of the nodes, 1 % parts).  Nodes are ``N<i>.<j>``, links ``W<k>``, loads
+    ``LD<k>``.
+    """
+    rng = np.random.default_rng(seed)
+    # parts ~ 2 k (k - 1) links + k^2 / load_every loads
+    per = 2.0 + 1.0 / load_every
+    side = max(2, int(round(math.sqrt(n_parts / per))))
+    parts = [Part("V1", "voltage-source", ("FEED", "GND"), 24.0, 0.02, 0.02),
+             Part("FU1", "fuse", ("FEED", "N0.0"), 0.02, 0.3, 0.3)]
+
+    def r(lo, hi):
+        dec = rng.integers(lo, hi)
+        return float(E24[rng.integers(len(E24))] * 10.0 ** dec)
+
+    w = ld = 0
+    for i in range(side):
+        for j in range(side):
+            a = f"N{i}.{j}"
+            if i + 1 < side:
+                w += 1
+                parts.append(Part(f"W{w}", "resistor", (a, f"N{i + 1}.{j}"), r(-1, 0), 0.01, 0.01))
+            if j + 1 < side:
+                w += 1
+                parts.append(Part(f"W{w}", "resistor", (a, f"N{i}.{j + 1}"), r(-1, 0), 0.01, 0.01))
+            if (i * side + j) % load_every == 0:
+                ld += 1
+                parts.append(Part(f"LD{ld}", "resistor", (a, "GND"), r(2, 3), 0.01, 0.01))
+    return Circuit(f"distribution grid {side}x{side}", "GND", tuple(parts))

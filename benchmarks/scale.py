@@ -1,28 +1,41 @@
 """Scale benchmark: diagnosing 1k-, 10k- and 100k-part meshes, against the floor and re-solving.
 
-For each size a mesh scenario is written to files (:mod:`scale_case`: a 48 V
-supply through a fuse into one corner, 0.01-1 ohm links, loads to ground, 1 %
-parts, one cracked link, 100 node-voltage readings with a bench meter: 80
-around the fault, 20 spread), then, in this one process and run:
+Two families of scenarios (:mod:`scale_case`), each written to files:
 
-* **floor**: reading the same three files, assembling the network, one sparse
+* **bench**: a 48 V supply through a fuse into one corner of a square mesh,
+  0.01-1 ohm links, a load on every node, 1 % parts, one cracked link near the
+  middle, 100 node-voltage readings with a bench meter: 80 around the fault,
+  20 spread;
+* **handheld**: a 24 V grid of links fed through a fuse into one corner, loads
+  on every fifth node only, one open link a few links out from the feed, 100
+  node voltages read with the default handheld meter: 30 near the fault, 70
+  spread over the whole grid.
+
+Then, in this one process and run, for each family and size:
+
+* **floor**: reading the same files, assembling the network, one sparse
   factorization, one solve and one adjoint solve per reading -- the least any
   diagnosis of these files must do;
-* **diagnose**: the whole ``faultfind diagnose CIRCUIT READINGS --meters FILE``
+* **diagnose**: the whole ``faultfind diagnose CIRCUIT READINGS [--meters FILE]``
   (the command-line entry point, files read included, report printed to a
   buffer), its stages timed through the progress callback;
+* ``--repeat R``: floor and diagnose measured R times, interleaved; the
+  ratio reported is the median of the R ratios (each diagnose over the
+  smaller of the floors just before and after it), with their range;
 * **memory**: the same command in a fresh process, peak resident set size;
-* **re-solve**: at 10k parts (``--resolve-size``), the plain approach --
-  re-assemble, re-factor and re-solve the network for every trial of every
-  hypothesis -- timed on a random sample of hypotheses and extrapolated to the
-  number of trials the engine's search makes (said so in the output);
+* **re-solve**: at 10k parts (``--resolve-size``, bench family), the plain
+  approach -- re-assemble, re-factor and re-solve the network for every trial
+  of every hypothesis -- timed on a random sample of hypotheses and
+  extrapolated to the number of trials the engine's search makes (said so in
+  the output);
 * **checks**: the planted fault ranks first; the screened ranking equals the
   unscreened one (sizes up to 10k); the leading hypotheses' predictions equal
   a re-assembled, re-solved faulted network's.
 
-    python benchmarks/scale.py [--sizes 1000 10000 100000] [--sample 20] [--out FILE]
+    python benchmarks/scale.py [--families bench handheld] [--sizes 1000 10000 100000]
+                               [--repeat 3] [--sample 20] [--out FILE]
 
-Prints a Markdown table (and writes it to ``--out``).
+Prints a Markdown report (and writes it to ``--out``).
 """
 
 from __future__ import annotations
@@ -34,6 +47,7 @@ import math
 import os
 import pathlib
 import platform
+import re
 import subprocess
 import sys
 import tempfile
@@ -43,7 +57,7 @@ import numpy as np
 
 sys.path.insert(0, str(pathlib.Path(__file__).resolve().parent))
 
-from scale_case import write  # noqa: E402
+from scale_case import FAMILIES, write  # noqa: E402
 
 from faultfind.cli.main import main as cli_main  # noqa: E402
 from faultfind.diagnose import diagnose  # noqa: E402
@@ -59,6 +73,7 @@ from faultfind.io.readings_file import load_readings  # noqa: E402
 #: Trial values one drift fit evaluates: the grid, four refinement stages of
 #: five points, the final value (:meth:`Evaluator.fit_drifts`).
 DRIFT_TRIALS = _GRID + 4 * 5 + 1
+DEFAULT_SIZES = {"bench": [1000, 10000, 100000], "handheld": [10000, 100000]}
 
 
 def floor(paths):
@@ -66,7 +81,7 @@ def floor(paths):
     cpath, rpath, mpath = paths
     t = time.perf_counter()
     c = load_circuit(cpath)
-    m = meters_with_default(load_meters(mpath))
+    m = meters_with_default(load_meters(mpath) if mpath else None)
     rds = load_readings(rpath, c, m)
     net = assemble(c, "dc", None)
     lu = Factorization(net.A)
@@ -76,9 +91,20 @@ def floor(paths):
     return time.perf_counter() - t
 
 
+def _args(paths):
+    cpath, rpath, mpath = paths
+    return ["diagnose", str(cpath), str(rpath)] + (["--meters", str(mpath)] if mpath else [])
+
+
+def _load(paths):
+    cpath, rpath, mpath = paths
+    c = load_circuit(cpath)
+    m = meters_with_default(load_meters(mpath) if mpath else None)
+    return c, load_readings(rpath, c, m), m
+
+
 def whole(paths):
     """Seconds for the whole ``faultfind diagnose`` in this process, and its stage times."""
-    cpath, rpath, mpath = paths
     stages = []
 
     import faultfind.cli.diagnose as cd
@@ -100,7 +126,7 @@ def whole(paths):
     try:
         t = time.perf_counter()
         with contextlib.redirect_stdout(buf):
-            code = cli_main(["diagnose", str(cpath), str(rpath), "--meters", str(mpath)])
+            code = cli_main(_args(paths))
         total = time.perf_counter() - t
     finally:
         cd.diagnose = real
@@ -115,7 +141,6 @@ def whole(paths):
 
 def peak_memory(paths):
     """Peak RSS (MiB) and wall time of ``faultfind diagnose`` in a fresh process."""
-    cpath, rpath, mpath = paths
     # VmHWM of /proc/self/status: the peak of this process's own memory
     # (ru_maxrss would carry the parent's peak over the exec on Linux)
     code = ("import resource, sys, io, contextlib, time\n"
@@ -133,8 +158,7 @@ def peak_memory(paths):
             "kb = kb or resource.getrusage(resource.RUSAGE_SELF).ru_maxrss\n"
             "print(kb, time.perf_counter() - t)\n")
     t = time.perf_counter()
-    out = subprocess.run([sys.executable, "-c", code, "diagnose", str(cpath), str(rpath),
-                          "--meters", str(mpath)], capture_output=True, text=True, check=True,
+    out = subprocess.run([sys.executable, "-c", code] + _args(paths), capture_output=True, text=True, check=True,
                          env=dict(os.environ, FAULTFIND_PROGRESS="0"))
     wall = time.perf_counter() - t
     kb, inproc = out.stdout.split()
@@ -143,10 +167,7 @@ def peak_memory(paths):
 
 def resolve_ratio(paths, sample, rng):
     """Engine ranking time against re-solving per hypothesis trial (sampled, extrapolated)."""
-    cpath, rpath, mpath = paths
-    c = load_circuit(cpath)
-    m = meters_with_default(load_meters(mpath))
-    rds = load_readings(rpath, c, m)
+    c, rds, m = _load(paths)
     out = {}
     for scr in (True, False):
         t = time.perf_counter()
@@ -179,10 +200,7 @@ def resolve_ratio(paths, sample, rng):
 
 def checks(paths, fault, screen_compare):
     """The planted fault first; screened == unscreened; predictions == re-solved network."""
-    cpath, rpath, mpath = paths
-    c = load_circuit(cpath)
-    m = meters_with_default(load_meters(mpath))
-    rds = load_readings(rpath, c, m)
+    c, rds, m = _load(paths)
     d = diagnose(c, rds, m, advise=False, top=5)
     top = d.hypotheses[0]
     first = bool(top.faults) and top.faults[0].ref == fault[0] and top.faults[0].mode == fault[1]
@@ -202,84 +220,127 @@ def checks(paths, fault, screen_compare):
     return first, same, worst, top.label
 
 
+def _screened(text):
+    """"N of M" from the report's note on the screen, or "-"."""
+    m = re.search(r"large circuit: (\d+) of (\d+) parts evaluated in full", text)
+    return f"{int(m.group(1)):,} of {int(m.group(2)):,}" if m else "-"
+
+
+def measure(family, n, work, repeat, resolve_size, sample, rng):
+    """Every figure of one family at one size (a dict)."""
+    cp, rp, mp, fault, nparts = write(n, work / f"{family}-{n}", family=family)
+    paths = (cp, rp, mp)
+    whole(paths)                      # warm the imports and caches once
+    fl_prev = floor(paths)
+    ratios, totals, floors, runs = [], [], [], []
+    for _ in range(repeat):
+        tot, stages, text = whole(paths)
+        fl_next = floor(paths)        # the floor again, after: the smaller of the two
+        fl = min(fl_prev, fl_next)
+        ratios.append(tot / fl)
+        totals.append(tot)
+        floors.append(fl)
+        runs.append((stages, text))
+        fl_prev = fl_next
+    k = int(np.argsort(ratios)[len(ratios) // 2])     # the median run
+    stages, text = runs[k]
+    mem, wall, inproc = peak_memory(paths)
+    first, same, worst, top = checks(paths, fault, screen_compare=n <= 10000)
+    out = dict(family=family, parts=nparts, floor=floors[k], whole=totals[k], ratio=ratios[k],
+               rmin=min(ratios), rmax=max(ratios), mem=mem, wall=wall, first=first, same=same,
+               worst=worst, top=top, stages=stages, screened=_screened(text), resolve=None)
+    if family == "bench" and n == resolve_size:
+        out["resolve"] = resolve_ratio(paths, sample, rng)
+    return out
+
+
+def report(rows, resolve_size):
+    """The Markdown report of :func:`measure`'s rows."""
+    lines = [f"Machine: {platform.machine()}, {os.cpu_count()} cores, Python {platform.python_version()}, "
+             f"numpy {np.__version__}; {time.strftime('%Y-%m-%d %H:%M')}; load average before the "
+             f"run {os.getloadavg()[0]:.1f}." if hasattr(os, "getloadavg") else "", ""]
+    lines.append("| family | parts | floor (s) | whole diagnose (s) | ratio | ratio range | peak memory (MiB) "
+                 "| fresh process (s) | parts evaluated in full | planted fault first | screened = unscreened "
+                 "| max rel. diff. vs re-solve |")
+    lines.append("|:--|---:|---:|---:|---:|:--|---:|---:|:--|:--|:--|---:|")
+    for r in rows:
+        lines.append(f"| {r['family']} | {r['parts']:,} | {r['floor']:.2f} | {r['whole']:.2f} | {r['ratio']:.2f} | "
+                     f"{r['rmin']:.2f}-{r['rmax']:.2f} | {r['mem']:.0f} | {r['wall']:.2f} | {r['screened']} | "
+                     f"{'yes' if r['first'] else 'NO (' + r['top'] + ')'} | "
+                     f"{'-' if r['same'] is None else ('yes' if r['same'] else 'NO')} | {r['worst']:.1e} |")
+    lines.append("")
+    names = []
+    for r in rows:
+        for k in r["stages"]:
+            if k not in names and k != "done":
+                names.append(k)
+    lines.append("Stages of the whole diagnose (s):")
+    lines.append("")
+    lines.append("| family | parts | " + " | ".join(names) + " |")
+    lines.append("|:--|---:|" + "---:|" * len(names))
+    for r in rows:
+        st = r["stages"]
+        lines.append(f"| {r['family']} | {r['parts']:,} | " + " | ".join(f"{st.get(k, 0.0):.2f}" for k in names) + " |")
+    for fam in FAMILIES:
+        fr = [r for r in rows if r["family"] == fam]
+        if len(fr) >= 2:
+            s0, s1 = fr[0], fr[-1]
+            ex = []
+            for k in names:
+                a, b = s0["stages"].get(k, 0), s1["stages"].get(k, 0)
+                if a > 0 and b > 0:
+                    ex.append(f"{k} {math.log(b / a) / math.log(s1['parts'] / s0['parts']):.2f}")
+            lines.append("")
+            lines.append(f"Growth exponent, {fam} family, from {s0['parts']:,} to {s1['parts']:,} parts "
+                         "(time ~ parts^e): " + ", ".join(ex) + ".")
+    for r in rows:
+        q = r["resolve"]
+        if not q:
+            continue
+        lines.append("")
+        lines.append(f"Re-solving per hypothesis at {resolve_size:,} parts (extrapolated from a random sample "
+                     f"of {q['sample']} hypotheses: re-assemble, re-factor and solve the faulted network, median "
+                     f"{q['per_trial'] * 1e3:.1f} ms each; {q['hypotheses']:,} hypotheses, {q['trials']:,} trials "
+                     f"counting {DRIFT_TRIALS} per drift fit): {q['resolve_total']:.0f} s.  The engine's ranking "
+                     f"(setup included): {q['engine_screened']:.2f} s screened, {q['engine_all']:.2f} s evaluating "
+                     f"every part.  Ratio: {q['resolve_total'] / q['engine_screened']:.0f}x screened, "
+                     f"{q['resolve_total'] / q['engine_all']:.0f}x every part.  Counting one re-solve per "
+                     f"hypothesis only (no drift fit): {q['per_trial'] * q['hypotheses']:.0f} s, "
+                     f"{q['per_trial'] * q['hypotheses'] / q['engine_screened']:.0f}x screened.  The re-solves "
+                     f"leave out the meters' loading (exact loading needs one re-solve per reading).")
+    return "\n".join(lines)
+
+
 def main(argv=None):
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    ap.add_argument("--sizes", type=int, nargs="+", default=[1000, 10000, 100000])
+    ap.add_argument("--families", nargs="+", choices=FAMILIES, default=list(FAMILIES))
+    ap.add_argument("--sizes", type=int, nargs="+",
+                    help="parts (default: 1,000, 10,000 and 100,000 for the bench family; 10,000 and "
+                         "100,000 for the handheld one, whose open link a handheld cannot see on a "
+                         "1,000-part grid)")
+    ap.add_argument("--repeat", type=int, default=1, help="floor and diagnose measurements per size")
     ap.add_argument("--resolve-size", type=int, default=10000)
     ap.add_argument("--sample", type=int, default=20, help="hypotheses re-solved for the extrapolation")
     ap.add_argument("--seed", type=int, default=2026)
     ap.add_argument("--out", help="also write the Markdown report here")
     a = ap.parse_args(argv)
+    if a.repeat < 1:
+        ap.error("--repeat: at least 1")
     rng = np.random.default_rng(a.seed)
-    rows, stage_rows, lines = [], [], []
-    tmp = tempfile.TemporaryDirectory(prefix="faultfind-scale-")
-    work = pathlib.Path(tmp.name)
-    resolve = None
-    for n in a.sizes:
-        cp, rp, mp, fault, nparts = write(n, work / str(n))
-        paths = (cp, rp, mp)
-        whole(paths)                      # warm the imports and caches once
-        fl = floor(paths)
-        tot, stages, text = whole(paths)
-        fl2 = floor(paths)                # the floor again, after: the smaller of the two
-        fl = min(fl, fl2)
-        mem, wall, inproc = peak_memory(paths)
-        first, same, worst, top = checks(paths, fault, screen_compare=n <= 10000)
-        rows.append((nparts, fl, tot, tot / fl, mem, wall, first, same, worst, top))
-        stage_rows.append((nparts, stages))
-        print(f"{nparts} parts: floor {fl:.2f} s, diagnose {tot:.2f} s ({tot / fl:.2f}x), "
-              f"peak {mem:.0f} MiB, top {top}", flush=True)
-        if n == a.resolve_size:
-            resolve = resolve_ratio(paths, a.sample, rng)
-    lines.append(f"Machine: {platform.machine()}, {os.cpu_count()} cores, Python {platform.python_version()}, "
-                 f"numpy {np.__version__}; {time.strftime('%Y-%m-%d')}.")
-    lines.append("")
-    lines.append("| parts | floor (s) | whole diagnose (s) | ratio | peak memory (MiB) | fresh process (s) "
-                 "| planted fault first | screened = unscreened | max rel. diff. vs re-solve |")
-    lines.append("|---:|---:|---:|---:|---:|---:|:--|:--|---:|")
-    for nparts, fl, tot, r, mem, wall, first, same, worst, top in rows:
-        lines.append(f"| {nparts:,} | {fl:.2f} | {tot:.2f} | {r:.2f} | {mem:.0f} | {wall:.2f} | "
-                     f"{'yes' if first else 'NO (' + top + ')'} | "
-                     f"{'-' if same is None else ('yes' if same else 'NO')} | {worst:.1e} |")
-    lines.append("")
-    names = []
-    for _, st in stage_rows:
-        for k in st:
-            if k not in names and k != "done":
-                names.append(k)
-    lines.append("Stages of the whole diagnose (s):")
-    lines.append("")
-    lines.append("| parts | " + " | ".join(names) + " |")
-    lines.append("|---:|" + "---:|" * len(names))
-    for nparts, st in stage_rows:
-        lines.append(f"| {nparts:,} | " + " | ".join(f"{st.get(k, 0.0):.2f}" for k in names) + " |")
-    if len(stage_rows) >= 2:
-        (n0, s0), (n1, s1) = stage_rows[0], stage_rows[-1]
-        ex = []
-        for k in names:
-            if s0.get(k, 0) > 0 and s1.get(k, 0) > 0:
-                ex.append(f"{k} {math.log(s1[k] / s0[k]) / math.log(n1 / n0):.2f}")
-        lines.append("")
-        lines.append(f"Growth exponent from {n0:,} to {n1:,} parts (time ~ parts^e): " + ", ".join(ex) + ".")
-    if resolve:
-        r = resolve
-        lines.append("")
-        lines.append(f"Re-solving per hypothesis at {a.resolve_size:,} parts (extrapolated from a random sample "
-                     f"of {r['sample']} hypotheses: re-assemble, re-factor and solve the faulted network, median "
-                     f"{r['per_trial'] * 1e3:.1f} ms each; {r['hypotheses']:,} hypotheses, {r['trials']:,} trials "
-                     f"counting {DRIFT_TRIALS} per drift fit): {r['resolve_total']:.0f} s.  The engine's ranking "
-                     f"(setup included): {r['engine_screened']:.2f} s screened, {r['engine_all']:.2f} s evaluating "
-                     f"every part.  Ratio: {r['resolve_total'] / r['engine_screened']:.0f}x screened, "
-                     f"{r['resolve_total'] / r['engine_all']:.0f}x every part.  Counting one re-solve per "
-                     f"hypothesis only (no drift fit): {r['per_trial'] * r['hypotheses']:.0f} s, "
-                     f"{r['per_trial'] * r['hypotheses'] / r['engine_screened']:.0f}x screened.  The re-solves "
-                     f"leave out the meters' loading (exact loading needs one re-solve per reading).")
-    tmp.cleanup()
-    report = "\n".join(lines)
+    rows = []
+    with tempfile.TemporaryDirectory(prefix="faultfind-scale-") as tmp:
+        for family in a.families:
+            for n in a.sizes or DEFAULT_SIZES[family]:
+                r = measure(family, n, pathlib.Path(tmp), a.repeat, a.resolve_size, a.sample, rng)
+                rows.append(r)
+                print(f"{family} {r['parts']} parts: floor {r['floor']:.2f} s, diagnose {r['whole']:.2f} s "
+                      f"({r['ratio']:.2f}x, {r['rmin']:.2f}-{r['rmax']:.2f}), peak {r['mem']:.0f} MiB, "
+                      f"top {r['top']}, evaluated {r['screened']}", flush=True)
+    text = report(rows, a.resolve_size)
     print()
-    print(report)
+    print(text)
     if a.out:
-        pathlib.Path(a.out).write_text(report + "\n", encoding="utf-8")
+        pathlib.Path(a.out).write_text(text + "\n", encoding="utf-8")
 
 
 if __name__ == "__main__":

@@ -1,5 +1,8 @@
-"""Scale scenarios: a resistor mesh with one injected fault and 100 node readings.
+"""Scale scenarios: resistor meshes with one injected fault and 100 node readings.
 
+Two families (``--family``):
+
+**bench**
 The mesh is :func:`mesh.mesh` (a heater array / power-distribution mesh: a
 48 V supply through a fuse into one corner, 0.01-1 ohm links, 100 ohm-9.1 kohm
 loads to ground, 1 % parts; invented).  One link near the middle of the mesh
@@ -10,7 +13,14 @@ over the mesh, with a bench meter (6 1/2 digits; the handheld default's
 are what that meter would show on a board whose healthy parts are drawn inside
 their tolerance.
 
-    python benchmarks/scale_case.py N OUTDIR   # writes circuit.toml, readings.csv, meters.toml
+**handheld**: :func:`mesh.grid` (a 24 V distribution grid: a k x k grid of
+0.1-0.91 ohm links fed through a fuse into one corner, 100-910 ohm loads on
+every fifth node, 1 % parts; invented).  One link a few links out from the
+feed is open; 100 node voltages read with the default handheld meter (no
+meters file): 30 nearest the fault, 70 spread over the whole grid.
+
+    python benchmarks/scale_case.py N OUTDIR [--family bench|handheld]
+    # writes circuit.toml, readings.csv (and meters.toml for the bench family)
 """
 
 from __future__ import annotations
@@ -25,7 +35,7 @@ import numpy as np
 
 sys.path.insert(0, str(pathlib.Path(__file__).resolve().parent))
 
-from mesh import mesh, mesh_toml  # noqa: E402
+from mesh import grid, mesh, mesh_toml  # noqa: E402
 
 from faultfind.engine.meter import simulate as meter_display  # noqa: E402
 from faultfind.engine.predict import predict  # noqa: E402
@@ -36,6 +46,13 @@ from faultfind.units import format_value  # noqa: E402
 
 N_CLUSTER = 80
 N_SPREAD = 20
+#: The handheld family's readings: near the fault, and spread over the grid.
+GRID_NEAR = 30
+GRID_SPREAD = 70
+#: The handheld family's open link: from node (i, j) to (i + 1, j), i and j
+#: counted from the feed corner.
+GRID_FAULT = (3, 1)
+FAMILIES = ("bench", "handheld")
 
 #: A bench multimeter of the 6 1/2-digit class (typical published figures, from memory).
 METERS_TOML = """[meter.bench]
@@ -95,14 +112,55 @@ def scenario(n_parts: int, seed: int = 0):
     return c, (fault, "open"), out
 
 
-def write(n_parts: int, outdir, seed: int = 0):
-    """Write ``circuit.toml``, ``readings.csv`` and ``meters.toml`` under ``outdir``.
+def _grid_side(circuit):
+    return max(int(n[1:].split(".")[0]) for n in circuit.nodes if n.startswith("N")) + 1
 
-    Returns (circuit path, readings path, meters path, fault, number of parts).
+
+def grid_scenario(n_parts: int, seed: int = 0):
+    """The handheld family: circuit, planted fault ``(ref, "open")``, readings (with values)."""
+    c = grid(n_parts, seed=seed)
+    side = _grid_side(c)
+    fi, fj = GRID_FAULT
+    fault = next(p.ref for p in c.parts if p.nodes == (f"N{fi}.{fj}", f"N{fi + 1}.{fj}"))
+    nodes = [(f"N{i}.{j}", i, j) for i in range(side) for j in range(side)]
+    d = np.array([math.hypot(i - fi - 0.5, j - fj) for _, i, j in nodes])
+    order = np.argsort(d, kind="stable")
+    near = [nodes[k][0] for k in order[:GRID_NEAR]]
+    taken = set(near)
+    # the spread: a jittered lattice over the whole grid
+    rng = np.random.default_rng(seed + 7)
+    m = int(math.ceil(math.sqrt(GRID_SPREAD)))
+    spread = []
+    for a in range(m):
+        for b in range(m):
+            i = min(side - 1, int((a + rng.random()) * side / m))
+            j = min(side - 1, int((b + rng.random()) * side / m))
+            n = f"N{i}.{j}"
+            if n not in taken and len(spread) < GRID_SPREAD:
+                taken.add(n)
+                spread.append(n)
+    rds = [Reading("voltage", "dc", n, c.ground, label=f"TP {n}") for n in near + spread]
+    meters = meters_with_default(None)
+    rng = np.random.default_rng(seed + 1)
+    board = draw_board(c, rng)
+    true = predict(board, rds, meters, overrides={fault: "open"}).value
+    out = []
+    for rd, t in zip(rds, true):
+        v, ol = meter_display(meters["default"], "voltage", "dc", float(t), rng)
+        out.append((rd, "OL" if ol else format_value(v, QUANTITY_UNITS["voltage"], digits=6)))
+    return c, (fault, "open"), out
+
+
+def write(n_parts: int, outdir, seed: int = 0, family: str = "bench"):
+    """Write ``circuit.toml``, ``readings.csv`` (and ``meters.toml``) under ``outdir``.
+
+    Returns (circuit path, readings path, meters path or None, fault, number of parts).
     """
+    if family not in FAMILIES:
+        raise ValueError(f"family: one of {', '.join(FAMILIES)}, got {family!r}")
     outdir = pathlib.Path(outdir)
     outdir.mkdir(parents=True, exist_ok=True)
-    c, fault, rows = scenario(n_parts, seed)
+    c, fault, rows = (scenario if family == "bench" else grid_scenario)(n_parts, seed)
     cpath = outdir / "circuit.toml"
     cpath.write_text(mesh_toml(c) + "\n", encoding="utf-8")
     rpath = outdir / "readings.csv"
@@ -110,9 +168,11 @@ def write(n_parts: int, outdir, seed: int = 0):
         w = csv.writer(fh)
         w.writerow(["quantity", "mode", "plus", "minus", "part", "setup", "value", "meter", "label"])
         for rd, shown in rows:
-            w.writerow(["voltage", "dc", rd.plus, rd.minus, "", "", shown, "bench", rd.label])
-    mpath = outdir / "meters.toml"
-    mpath.write_text(METERS_TOML, encoding="utf-8")
+            w.writerow(["voltage", "dc", rd.plus, rd.minus, "", "", shown, rd.meter or "", rd.label])
+    mpath = None
+    if family == "bench":
+        mpath = outdir / "meters.toml"
+        mpath.write_text(METERS_TOML, encoding="utf-8")
     return cpath, rpath, mpath, fault, len(c.parts)
 
 
@@ -121,8 +181,9 @@ def main(argv=None):
     ap.add_argument("n", type=int)
     ap.add_argument("outdir")
     ap.add_argument("--seed", type=int, default=0)
+    ap.add_argument("--family", choices=FAMILIES, default="bench")
     a = ap.parse_args(argv)
-    cp, rp, mp, fault, n = write(a.n, a.outdir, a.seed)
+    cp, rp, mp, fault, n = write(a.n, a.outdir, a.seed, a.family)
     print(f"{n} parts; fault {fault[0]} {fault[1]}; {cp} {rp} {mp}")
 
 

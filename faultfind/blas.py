@@ -6,6 +6,14 @@ worker threads, and on a two-core laptop the hand-offs cost more than the
 arithmetic: the 200-part benchmark ran 95 ms on one thread against 145 ms on
 two.  The sparse factorization (SuperLU) does not use BLAS threads at all.
 
+Large networks are no exception: their dense products (100 readings x
+100,000 parts) are memory-bound and gain little from a second thread, while
+on a machine whose cores are busy with other work OpenBLAS's waiting threads
+cost far more than they save -- on the 100,000-part scale benchmark, with the
+two cores shared by other jobs, a diagnosis took 99-105 s with the library's
+threads against 51-57 s on one (docs/performance.md).  So the diagnosis and
+the advice run on one BLAS thread whatever the size.
+
 This module finds the OpenBLAS libraries numpy and SciPy have loaded (the
 ones bundled with their wheels) and sets their thread count for the duration
 of a ``with`` block, then restores it.  Where it cannot find them (another
@@ -20,14 +28,12 @@ import contextlib
 import ctypes
 import threading
 
-__all__ = ["one_thread", "threads_for", "ONE_THREAD_BELOW"]
+__all__ = ["one_thread", "threads_for"]
 
 _SETTERS = ("scipy_openblas_set_num_threads64_", "scipy_openblas_set_num_threads",
             "openblas_set_num_threads64_", "openblas_set_num_threads")
 _GETTERS = ("scipy_openblas_get_num_threads64_", "scipy_openblas_get_num_threads",
             "openblas_get_num_threads64_", "openblas_get_num_threads")
-#: Circuits with fewer parts are worked on with one BLAS thread (:func:`threads_for`).
-ONE_THREAD_BELOW = 5000
 _lock = threading.Lock()
 _found = None
 _depth = 0
@@ -82,7 +88,13 @@ def one_thread():
 
 
 def threads_for(n_parts):
-    """The BLAS threading for work on a circuit of ``n_parts`` parts: one thread for
-    a board (many tiny dense products), the library's own for a large network (a
-    few large products that use the threads well)."""
-    return one_thread() if n_parts < ONE_THREAD_BELOW else contextlib.nullcontext()
+    """The BLAS threading for work on a circuit of ``n_parts`` parts: one thread.
+
+    A board's many tiny products lose to the thread hand-offs; a large
+    network's few big ones are memory-bound and, on a machine shared with
+    other work, lose far more to threads waiting for a core (module
+    docstring).  ``n_parts`` is kept so that callers state the size.
+    """
+    if n_parts < 0:
+        raise ValueError(f"n_parts: must be at least 0, got {n_parts}")
+    return one_thread()

@@ -66,7 +66,7 @@ _MINUS_SIGN = "\u2212"
 # A unit as written -> canonical symbol.  Lower-cased spellings are looked up
 # via _unit_symbol, which knows which units are case-insensitive.
 _UNIT_RE = r"(?P<unit>Ω|[Oo][Hh][Mm][Ss]?|F|H|[Vv]|[Aa]|[Hh][Zz])"
-_NUMBER_RE = r"(?:[0-9]+\.?[0-9]*|\.[0-9]+)(?:[eE][+-]?[0-9]+)?"
+_NUMBER_RE = r"(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][+-]?[0-9]+)?"  # linear: no nested digit runs
 
 _DECIMAL = re.compile(
     rf"^(?P<sign>[+-]?)(?P<num>{_NUMBER_RE})\s*(?P<prefix>[pnuµmkKMG]?){_UNIT_RE}?$"
@@ -191,7 +191,10 @@ def parse_value(text, unit=None, *, what="value") -> float:
 def _read(text, what: str) -> tuple[float, str | None]:
     """The value of ``text`` and the unit it carries (None when it carries none)."""
     if _is_real(text):
-        value = float(text)
+        try:
+            value = float(text)
+        except OverflowError:  # an int beyond the float range
+            value = math.inf
         if not math.isfinite(value):
             raise UnitError(f"{what} {text!r} is not a finite number")
         return value, None

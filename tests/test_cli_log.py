@@ -290,7 +290,7 @@ def test_options_may_sit_between_session_and_reading(book_path, capsys):
 
 
 def test_add_still_acknowledges_when_the_band_cannot_be_computed(book_path, capsys, monkeypatch):
-    from faultfind.cli import log as log_cmd
+    from faultfind.cli.log import sessions as log_cmd
     from faultfind.errors import SolveError
 
     def broken(*args):

@@ -14,9 +14,10 @@ import pytest
 
 from faultfind.errors import CircuitError, InputError, LogbookError, MeterError, ReadingsError
 from faultfind.io import migrations as mig
-from faultfind.io.logbook import (ENV_VAR, SAFETY_CAUTION, Logbook, default_logbook_path,
-                                  format_time, parse_time, resolve_logbook_path)
+from faultfind.io.logbook import (ENV_VAR, SAFETY_CAUTION, default_logbook_path, format_time,
+                                  parse_time, resolve_logbook_path)
 from faultfind.io.readings_file import load_readings, parse_readings
+from faultfind.logbook import Logbook
 
 ROOT = Path(__file__).resolve().parent.parent
 BOOSTER = ROOT / "field_cases" / "booster_pump_panel"
@@ -521,7 +522,7 @@ def test_ac_case_end_to_end(book):
 def test_power_steps_are_logged_and_reported(tmp_path):
     """Isolating and re-energizing are steps of the session: logged with their
     time and shown in the work-order report (issue: every step is logged)."""
-    from faultfind.io import report as rep
+    from faultfind import report as rep
     from faultfind.io.logbook import Logbook
     from faultfind.io.circuit_file import load_circuit
     from faultfind.errors import LogbookError

@@ -10,7 +10,7 @@ order them.  Bad priors files: exit 2 naming file and line (cli.md).
 from __future__ import annotations
 
 from faultfind.cli.main import main
-from faultfind.io.logbook import Logbook
+from faultfind.logbook import Logbook
 from faultfind.learned_priors import from_logbook
 from faultfind.tui.bench import Bench
 
@@ -43,3 +43,23 @@ def test_ui_refuses_a_bad_priors_file_before_opening(tmp_path, capsys):
     assert f"{bad}:3" in err and "short" in err
     assert main(["ui", CIRCUIT, "--scope", "tag:", "--logbook", str(tmp_path / "l.sqlite")]) == 2
     assert "--scope" in capsys.readouterr().err
+
+
+def test_the_work_order_report_names_learned_priors(tmp_path):
+    from faultfind.report import html_report, markdown_report
+
+    with Logbook(tmp_path / "lb.sqlite") as book:
+        for _ in range(3):
+            s = book.start_session(CIRCUIT, unit="BP-2")
+            book.close_session(s.id, [("F1", "open")])
+        learned = from_logbook(book, "all").table
+        plain = Bench.start(book, CIRCUIT, unit="BP-2")
+        plain.add("V RUN 0.0001")
+        plain.diagnose()
+        bench = Bench.start(book, CIRCUIT, unit="BP-2", priors=learned)
+        bench.add("V RUN 0.0001")
+        bench.diagnose()
+        words = "Fault priors learned from logbook lb.sqlite, all sessions (3 closed session(s))"
+        assert words in markdown_report(book.get_session(bench.session_id))
+        assert words in html_report(book.get_session(bench.session_id))
+        assert "Fault priors" not in markdown_report(book.get_session(plain.session_id))

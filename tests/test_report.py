@@ -9,8 +9,8 @@ from pathlib import Path
 import pytest
 
 from faultfind.errors import InputError
-from faultfind.io.logbook import SAFETY_CAUTION, Logbook
-from faultfind.io.report import (STATUS, assess_session, chart_svg, html_report,
+from faultfind.logbook import SAFETY_CAUTION, Logbook
+from faultfind.report import (STATUS, assess_session, chart_svg, html_report,
                                  markdown_report, report_format, write_report)
 
 ROOT = Path(__file__).resolve().parent.parent

@@ -299,3 +299,107 @@ def test_one_reading_on_a_large_grid_stays_within_the_budget(monkeypatch):
     assert scr.screening is not None and scr.screening.evaluated <= 48 + 64
     assert scr.screening.unresolved
     assert scr.hypotheses[0].label == full.hypotheses[0].label
+
+
+# ------------------------------------- the handheld shape: spread readings, sparse loads
+
+def sparse_grid(side, seed, load_every=5):
+    """An invented distribution grid: a 24 V feed through a fuse into one corner,
+    links between neighbours, a load on every ``load_every``-th node only."""
+    rng = np.random.default_rng(seed)
+    parts = [Part("PS1", "voltage-source", ("SUP", GROUND), 24.0, 0.02, 0.02),
+             Part("F1", "fuse", ("SUP", "G0_0"), 0.02, 0.3, 0.3)]
+    k = 0
+    for i in range(side):
+        for j in range(side):
+            a = f"G{i}_{j}"
+            for b in ([f"G{i + 1}_{j}"] if i + 1 < side else []) + ([f"G{i}_{j + 1}"] if j + 1 < side else []):
+                k += 1
+                parts.append(Part(f"R{k}", "resistor", (a, b), float(rng.choice([0.1, 0.22, 0.47, 0.82])),
+                                  0.01, 0.01))
+            if (i * side + j) % load_every == 0:
+                k += 1
+                parts.append(Part(f"RL{k}", "resistor", (a, GROUND), float(rng.choice([10.0, 22.0, 47.0])),
+                                  0.01, 0.01))
+    return Circuit(f"sparse grid {side}x{side}", GROUND, tuple(parts))
+
+
+def spread_readings(c, side, near, n_near, n_spread, seed):
+    """Node voltages with the default (handheld) meter: the ``n_near`` nodes nearest
+    to ``near`` and ``n_spread`` drawn over the rest of the grid."""
+    ni, nj = near
+    nodes = [(f"G{i}_{j}", i, j) for i in range(side) for j in range(side)]
+    order = sorted(nodes, key=lambda t: (abs(t[1] - ni) + abs(t[2] - nj), t[0]))
+    picked = [n for n, _, _ in order[:n_near]]
+    rest = [n for n, _, _ in nodes if n not in picked]
+    rng = np.random.default_rng(seed)
+    picked += [rest[k] for k in sorted(rng.choice(len(rest), n_spread, replace=False))]
+    return [Reading("voltage", "dc", n, GROUND) for n in picked]
+
+
+def _link_between(c, a, b):
+    return next(p.ref for p in c.parts if p.nodes == (a, b))
+
+
+@pytest.mark.parametrize("seed,fault", [(71, ("G2_1", "G3_1", "open")), (72, ("G1_2", "G1_3", "drift")),
+                                        (73, ("load", 3, "short")), (74, ("F1", None, "open")),
+                                        (75, None)])
+def test_screened_ranking_equals_the_full_one_with_a_handheld_and_spread_readings(
+        seed, fault, monkeypatch, found):
+    """The handheld's coarser uncertainty lets more parts survive the screen; the
+    readings spread over the grid see every part a little: the screened ranking
+    must still be the full one (reference: every part evaluated)."""
+    side = 8
+    c = sparse_grid(side, seed)
+    near = (2, 1)
+    if fault is not None:
+        a, b, mode = fault
+        ref = load(c, b) if a == "load" else "F1" if a == "F1" else _link_between(c, a, b)
+        node = next(n for n in c.part(ref).nodes if n.startswith("G"))
+        near = tuple(int(x) for x in node[1:].split("_"))     # the cluster around the fault
+        fault = (ref, mode, c.part(ref).value * 20.0 if mode == "drift" else None)
+    m = meters_with_default()
+    rds = spread_readings(c, side, near, 8, 12, seed)
+    sim = simulate_readings(c, rds, m, [fault] if fault else [], rng=seed)
+    monkeypatch.setattr(hy, "SCREEN_CHUNK", 8)
+    a_ = rank_with(Evaluator(c, sim, m), screen=True)
+    b_ = rank_with(Evaluator(c, sim, m), screen=False)
+    assert a_.screening is not None and b_.screening is None
+    assert a_.verdict == b_.verdict
+    top_a = [(h.label, round(h.probability, 6)) for h in a_.hypotheses if h.probability > 1e-6]
+    top_b = [(h.label, round(h.probability, 6)) for h in b_.hypotheses if h.probability > 1e-6]
+    assert top_a == top_b
+    found.append(b_.verdict)
+    if fault is not None and b_.verdict == "fault":
+        assert b_.hypotheses[0].faults[0].ref == fault[0]
+
+
+def test_parts_skipped_in_a_chunk_count_as_pruned_not_evaluated(monkeypatch):
+    """The note "N of M parts evaluated in full": N counts only the parts whose
+    hypotheses were scored, not those of a screening chunk skipped because their
+    bound had already fallen below the leader (those are pruned, their mass counted)."""
+    c = grid(10, 31)
+    m = bench_meter()
+    rds = node_readings(c)
+    ref = load(c, 45)
+    sim = simulate_readings(c, rds, m, [(ref, "drift", c.part(ref).value / 10)], rng=31)
+    seen = []
+    real = hy._first_pass
+
+    def record(ev, parts):
+        seen.extend(p.ref for p in parts)
+        return real(ev, parts)
+
+    monkeypatch.setattr(hy, "_first_pass", record)
+    monkeypatch.setattr(hy, "SCREEN_CHUNK", 64)     # chunks of 16, then 32: the leader is in the first
+    monkeypatch.setattr(hy, "SCREEN_MARGIN", 40.0)  # the bounds cross the cut inside the second chunk
+    rk = rank_with(Evaluator(c, sim, m), screen=True)
+    scr = rk.screening
+    n = len([p for p in c.parts if p.fault_modes])
+    assert len(seen) == len(set(seen))
+    assert scr.evaluated == len(seen)
+    assert scr.evaluated + scr.pruned + len(scr.unresolved) == n
+    # the second chunk was cut short: fewer parts evaluated than the chunks looked at
+    ev = Evaluator(c, sim, m)
+    must = len(line_bounds(ev, ev.ev, ev.healthy_prediction()).must)
+    assert must + 16 < scr.evaluated < must + 16 + 32

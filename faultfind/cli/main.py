@@ -17,13 +17,15 @@ from . import check as check_cmd
 from . import diagnose as diagnose_cmd
 from . import drill as drill_cmd
 from . import expect as expect_cmd
+from . import import_netlist as import_cmd
 from . import log as log_cmd
 from . import suggest as suggest_cmd
 from . import ui as ui_cmd
 
 __all__ = ["main", "build_parser"]
 
-COMMANDS = (check_cmd, expect_cmd, diagnose_cmd, suggest_cmd, log_cmd, drill_cmd, ui_cmd)
+COMMANDS = (check_cmd, import_cmd, expect_cmd, diagnose_cmd, suggest_cmd, log_cmd, drill_cmd,
+            ui_cmd)
 
 
 class _Parser(argparse.ArgumentParser):

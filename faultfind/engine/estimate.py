@@ -35,11 +35,19 @@ COLUMN_BLOCK = 8192
 def weighted_gram(S, w, block=COLUMN_BLOCK):
     """``(S * w) @ S.T`` for a wide ``S`` (readings x parts), in column blocks."""
     S = np.asarray(S)
+    w = np.asarray(w)
     n, m = S.shape
     out = np.zeros((n, n), dtype=np.result_type(S, w))
+    # real S, w >= 0 (variances): X X^T with X = S sqrt(w), a symmetric
+    # rank-k update (half the work of a general product)
+    sym = not np.iscomplexobj(S) and not np.iscomplexobj(w) and bool(np.all(w >= 0))
     for a in range(0, m, block):
         Sa = S[:, a:a + block]
-        out += (Sa * w[a:a + block]) @ Sa.T
+        if sym:
+            X = Sa * np.sqrt(w[a:a + block])
+            out += X @ X.T
+        else:
+            out += (Sa * w[a:a + block]) @ Sa.T
     return out
 
 
@@ -89,7 +97,7 @@ def map_estimate(params, nominal, centre, var_p, S, y, pred, u, use, fixed):
     dict
         ref -> Estimate.
     """
-    free = np.array([r not in fixed for r in params], dtype=bool)
+    free = np.fromiter((r not in fixed for r in params), dtype=bool, count=len(params))
     theta = centre.copy()
     var = var_p.copy()
     if use.any() and free.any():
@@ -115,13 +123,17 @@ def map_estimate(params, nominal, centre, var_p, S, y, pred, u, use, fixed):
         except np.linalg.LinAlgError:
             pass
     sd = np.sqrt(np.clip(var, 0, None))
+    nominal = np.asarray(nominal, dtype=float)
+    # the values and bounds of every part at once; Python floats for the objects
+    nom = nominal.tolist()
+    val = (nominal * np.exp(theta)).tolist()
+    low = (nominal * np.exp(theta - 1.96 * sd)).tolist()
+    high = (nominal * np.exp(theta + 1.96 * sd)).tolist()
     out = {}
     for j, ref in enumerate(params):
         if ref in fixed:
             v, lo, hi, mode = fixed[ref]
-            out[ref] = Estimate(ref, float(nominal[j]), v, lo, hi, mode)
-            continue
-        out[ref] = Estimate(ref, float(nominal[j]), float(nominal[j] * np.exp(theta[j])),
-                            float(nominal[j] * np.exp(theta[j] - 1.96 * sd[j])),
-                            float(nominal[j] * np.exp(theta[j] + 1.96 * sd[j])))
+            out[ref] = Estimate(ref, nom[j], v, lo, hi, mode)
+        else:
+            out[ref] = Estimate(ref, nom[j], val[j], low[j], high[j])
     return out

@@ -675,24 +675,30 @@ def _screened_first(ev: Evaluator, parts, healthy, progress=None):
     must = [by_ref[r] for r in lb.must if r in by_ref]
     first = _first_pass(ev, must) if must else []
     lead = max([healthy.log_post] + [h.log_post for h, _ in first])
-    done = 0
+    done = 0            # positions of `order` looked at
+    n_eval = 0          # parts among them evaluated in full
+    skipped = []        # parts of a chunk whose bound had fallen below the leader
     total = min(len(order), SCREEN_BUDGET)
     chunk = max(1, SCREEN_CHUNK // 4)   # small first: the leader is usually among the first few
     while done < len(order) and done < SCREEN_BUDGET and ub[order[done]] >= lead - SCREEN_MARGIN:
         step = order[done:done + chunk]
-        step = step[ub[step] >= lead - SCREEN_MARGIN]
+        live = ub[step] >= lead - SCREEN_MARGIN
+        skipped.append(step[~live])
+        step = step[live]
         got = _first_pass(ev, [by_ref[lb.refs[k]] for k in step])
         first += got
+        n_eval += int(step.size)
         lead = max([lead] + [h.log_post for h, _ in got])
         done += chunk
         chunk = min(2 * chunk, SCREEN_CHUNK)
         if progress is not None:
             progress("screening", min(done, total), total)
     rest = order[done:]
-    pruned = rest[ub[rest] < lead - SCREEN_MARGIN]
+    # the leader only rises: a part skipped in a chunk stays below it (pruned)
+    pruned = np.concatenate(skipped + [rest[ub[rest] < lead - SCREEN_MARGIN]]).astype(np.int64)
     unres = rest[ub[rest] >= lead - SCREEN_MARGIN]
     n_modes = np.array([len(by_ref[r].fault_modes) for r in lb.refs], dtype=float)
-    scr = Screening(evaluated=len(must) + min(done, len(order)), pruned=int(pruned.size),
+    scr = Screening(evaluated=len(must) + n_eval, pruned=int(pruned.size),
                     pruned_logmass=float(logsumexp(ub[pruned] + np.log(n_modes[pruned]))) if pruned.size else -np.inf,
                     unresolved=[lb.refs[k] for k in unres],
                     unresolved_logmass=float(logsumexp(ub[unres] + np.log(n_modes[unres]))) if unres.size else -np.inf)

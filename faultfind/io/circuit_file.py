@@ -11,6 +11,7 @@ import difflib
 import math
 import os
 import re
+import sys
 import tomllib
 
 from faultfind.engine.topology import dangling_nodes, floating_nodes, voltage_loops
@@ -54,6 +55,9 @@ _POSITIVE = frozenset(("resistor", "capacitor", "inductor", "fuse", "switch"))
 _HEADER_RE = re.compile(r"""^[ \t]*\[\[[ \t]*(?:part|"part"|'part')[ \t]*\]\]""")
 _TOML_POS_RE = re.compile(r"\s*\(at line (\d+), column (\d+)\)\s*$")
 _TOML_END_RE = re.compile(r"\s*\(at end of document\)\s*$")
+_LONG_NUMBER_RE = re.compile(r"[0-9_]{%d,}" % (sys.get_int_max_str_digits() + 1))
+# Messages quote a value up to this many characters; a longer one is cut.
+_SHOW_AT_MOST = 60
 
 
 def load_circuit(path) -> Circuit:
@@ -128,7 +132,9 @@ class _Reader:
     """One pass over one file's text; holds the file name and line map for messages."""
 
     def __init__(self, text: str, source: str):
-        self.text = text[1:] if text.startswith("\ufeff") else text
+        text = text[1:] if text.startswith("\ufeff") else text
+        # Line ends: CRLF (Windows) is TOML already; a lone CR (old Mac) is read as one too.
+        self.text = text.replace("\r\n", "\n").replace("\r", "\n") if "\r" in text else text
         self.source = source
         self.lines = self.text.split("\n")
         # Values repeat from part to part ("4k7", "5%"): parse each text once.
@@ -160,6 +166,15 @@ class _Reader:
                 return i
         return None
 
+    def deepest_line(self):
+        """Line holding the most opening brackets and braces (the deep nesting)."""
+        counts = [line.count("[") + line.count("{") for line in self.lines]
+        return 1 + max(range(len(counts)), key=counts.__getitem__) if counts else None
+
+    def first_line(self, pattern):
+        """First line matching ``pattern`` (None if none does)."""
+        return next((i for i, line in enumerate(self.lines, 1) if pattern.search(line)), None)
+
     def part_lines(self, count):
         lines = [i for i, line in enumerate(self.lines, 1) if _HEADER_RE.match(line)]
         return lines if len(lines) == count else [None] * count
@@ -172,6 +187,16 @@ class _Reader:
                 doc = tomllib.loads(self.text)
         except tomllib.TOMLDecodeError as err:
             self.syntax_error(str(err))
+        except RecursionError:  # tomllib recurses once per level of nested arrays/tables
+            self.fail("TOML nested too deeply (arrays or inline tables inside one another "
+                      "hundreds of levels deep): this is not a circuit file",
+                      line=self.deepest_line())
+        except ValueError as err:  # an integer too long for int() (sys.int_info)
+            if "digits" not in str(err):
+                raise
+            self.fail(f"a number with more than {sys.get_int_max_str_digits():,} digits: "
+                      "this is not a value a circuit file can hold",
+                      line=self.first_line(_LONG_NUMBER_RE))
         for key in doc:
             if key not in TOP_KEYS:
                 hint = _did_you_mean(key, TOP_KEYS)
@@ -181,7 +206,7 @@ class _Reader:
         if fmt is None:
             self.fail("missing 'format' (write format = 1 at the top)", key="format")
         if type(fmt) is not int or fmt != 1:
-            self.fail(f"format must be 1 (the only version this faultfind reads), not {fmt!r}",
+            self.fail(f"format must be 1 (the only version this faultfind reads), not {_show(fmt)}",
                       line=self.top_line("format"), key="format")
         title = self.text_key(doc, "title")
         notes = self.text_key(doc, "notes")
@@ -190,7 +215,7 @@ class _Reader:
         ground = doc["ground"]
         if not _good_name(ground):
             self.fail(f"ground must be a node name (non-empty text without leading or "
-                      f"trailing spaces), not {ground!r}", line=self.top_line("ground"),
+                      f"trailing spaces), not {_show(ground)}", line=self.top_line("ground"),
                       key="ground")
         frequency = self.frequency(doc)
 
@@ -230,7 +255,7 @@ class _Reader:
     def text_key(self, doc, key):
         value = doc.get(key, "")
         if not isinstance(value, str):
-            self.fail(f"{key} must be text in quotes, not {value!r}", line=self.top_line(key),
+            self.fail(f"{key} must be text in quotes, not {_show(value)}", line=self.top_line(key),
                       key=key)
         return value
 
@@ -241,37 +266,41 @@ class _Reader:
         line = self.top_line("frequency")
         value = self.number(raw, lambda t: units.parse_frequency(t), line=line, key="frequency")
         if not value > 0:
-            self.fail(f"frequency must be above 0 Hz, not {raw!r}", line=line, key="frequency")
+            self.fail(f"frequency must be above 0 Hz, not {_show(raw)}", line=line, key="frequency")
         return value
 
     def number(self, raw, parse, *, line, key, part=None):
         """A TOML number taken as is, or a string through ``parse``; finite or an error."""
         if isinstance(raw, bool) or not isinstance(raw, (int, float, str)):
-            self.fail(f"{key} must be a number or text such as \"4k7\", not {raw!r}",
+            self.fail(f"{key} must be a number or text such as \"4k7\", not {_show(raw)}",
                       line=line, part=part, key=key)
         if isinstance(raw, str):
             try:
                 value = parse(raw)
             except UnitError as err:
-                self.fail(err.message, line=line, part=part, key=key)
+                self.fail(_unit_message(err, raw, key), line=line, part=part, key=key)
         else:
-            value = float(raw)
+            try:
+                value = float(raw)
+            except OverflowError:  # an integer beyond the float range (above 1e308)
+                value = math.inf
         if not math.isfinite(value):
-            self.fail(f"{key} must be a finite number, not {raw!r}", line=line, part=part, key=key)
+            self.fail(f"{key} must be a finite number, not {_show(raw)}", line=line, part=part,
+                      key=key)
         return value
 
     # -- one part -----------------------------------------------------------
     def part(self, table, index, line, ground) -> Part:
         if not isinstance(table, dict):
-            self.fail(f"part #{index + 1} must be a table of keys, not {table!r}", line=line,
+            self.fail(f"part #{index + 1} must be a table of keys, not {_show(table)}", line=line,
                       key="part")
         if "ref" not in table:
             self.fail(f"part #{index + 1} has no 'ref' (its reference designator)", line=line,
                       key="ref")
         ref = table["ref"]
         if not _good_name(ref):
-            self.fail(f"ref must be non-empty text without leading or trailing spaces, not {ref!r}",
-                      line=line, key="ref")
+            self.fail("ref must be non-empty text without leading or trailing spaces, not "
+                      f"{_show(ref)}", line=line, key="ref")
 
         def fail(message, key):
             self.fail(message, line=line, part=ref, key=key)
@@ -280,7 +309,7 @@ class _Reader:
             fail("missing 'kind' (one of " + ", ".join(KINDS) + ")", "kind")
         kind = table["kind"]
         if not isinstance(kind, str) or kind not in KINDS:
-            fail(f"unknown kind {kind!r}{_did_you_mean(kind, KINDS)}; the kinds are "
+            fail(f"unknown kind {_show(kind)}{_did_you_mean(kind, KINDS)}; the kinds are "
                  + ", ".join(KINDS), "kind")
         info = KINDS[kind]
         allowed = _ALLOWED[kind]
@@ -297,7 +326,7 @@ class _Reader:
         nodes = self.nodes(table, info, ground, fail)
         fields = dict(ref=ref, kind=kind, nodes=nodes, line=line, label=table.get("label", ""))
         if not isinstance(fields["label"], str):
-            fail(f"label must be text in quotes, not {fields['label']!r}", "label")
+            fail(f"label must be text in quotes, not {_show(fields['label'])}", "label")
 
         if kind != "opamp":
             for key in ("off_state", "waveform", "state"):
@@ -312,8 +341,9 @@ class _Reader:
                 r = self.number(table["resistance"], lambda t: units.parse_value(
                     t, "Ω", what="resistance"), line=line, part=ref, key="resistance")
                 if not r > 0:
-                    fail(f"resistance (winding) must be above 0 Ω, not {table['resistance']!r}; "
-                         "leave it out for an ideal winding", "resistance")
+                    fail("resistance (winding) must be above 0 Ω, not "
+                         f"{_show(table['resistance'])}; leave it out for an ideal winding",
+                         "resistance")
                 fields["resistance"] = r
         if "gain" in table:
             fields["gain"] = self.gain(table["gain"], fail)
@@ -328,14 +358,14 @@ class _Reader:
         what = (f"{info.nodes} node names" if info.name != "opamp" else
                 "3 node names [non-inverting input, inverting input, output]")
         if not isinstance(nodes, list):
-            fail(f"nodes must be a list of {what}, not {nodes!r}", "nodes")
+            fail(f"nodes must be a list of {what}, not {_show(nodes)}", "nodes")
         if len(nodes) != info.nodes:
             fail(f"{_a(info.name)} takes {what}; this one lists {len(nodes)}", "nodes")
         for n in nodes:
             if not _good_name(n):
                 hint = f' (write "{n}" in quotes)' if isinstance(n, (int, float)) else ""
-                fail(f"node {n!r} is not a node name: non-empty text without leading or trailing "
-                     f"spaces{hint}", "nodes")
+                fail(f"node {_show(n)} is not a node name: non-empty text without leading or "
+                     f"trailing spaces{hint}", "nodes")
         if info.nodes == 2 and nodes[0] == nodes[1]:
             fail(f"both ends are on node '{nodes[0]}' (the part is shorted by its own wiring)",
                  "nodes")
@@ -347,7 +377,8 @@ class _Reader:
     def enum(self, raw, key, fail):
         choices = _ENUMS[key]
         if raw not in choices:
-            fail(f"{key} must be " + " or ".join(f'"{c}"' for c in choices) + f", not {raw!r}", key)
+            fail(f"{key} must be " + " or ".join(f'"{c}"' for c in choices)
+                 + f", not {_show(raw)}", key)
         return raw
 
     def source_extras(self, table, fields, fail):
@@ -368,9 +399,9 @@ class _Reader:
         value = self.number(raw, lambda t: self.cached(units.parse_value, t, info.unit),
                             line=fields["line"], part=fields["ref"], key="value")
         if kind in _POSITIVE and not value > 0:
-            fail(f"{_a(kind)}'s value must be above 0 {info.unit}, not {raw!r}", "value")
+            fail(f"{_a(kind)}'s value must be above 0 {info.unit}, not {_show(raw)}", "value")
         if waveform == "ac" and value < 0:
-            fail(f"an AC source's value is its RMS, which cannot be negative ({raw!r}); "
+            fail(f"an AC source's value is its RMS, which cannot be negative ({_show(raw)}); "
                  "use phase = \"180 deg\" to invert it", "value")
         return value
 
@@ -380,27 +411,31 @@ class _Reader:
             return info.default_tolerance
         raw = table["tolerance"]
         if not isinstance(raw, str):
-            fail(f"tolerance must be text such as \"5%\" or \"±0.2 V\", not {raw!r}", "tolerance")
+            fail(f"tolerance must be text such as \"5%\" or \"±0.2 V\", not {_show(raw)}",
+                 "tolerance")
         try:
             low, high = self.cached(units.parse_tolerance, raw, value, info.unit)
         except UnitError as err:
-            fail(err.message, "tolerance")
+            fail(_unit_message(err, raw, "tolerance"), "tolerance")
         if not (math.isfinite(low) and math.isfinite(high) and low >= 0 and high >= 0):
-            fail(f"tolerance {raw!r} does not give finite limits of 0 or more", "tolerance")
+            fail(f"tolerance {_show(raw)} does not give finite limits of 0 or more", "tolerance")
         if kind in _POSITIVE and low >= 1:
-            fail(f"tolerance {raw!r} reaches 100 % or more below nominal, i.e. a value of "
+            fail(f"tolerance {_show(raw)} reaches 100 % or more below nominal, i.e. a value of "
                  "0 or less", "tolerance")
         return float(low), float(high)
 
     def gain(self, raw, fail):
         if isinstance(raw, bool) or not isinstance(raw, (int, float, str)):
-            fail(f"gain must be a plain number such as 2e5, not {raw!r}", "gain")
+            fail(f"gain must be a plain number such as 2e5, not {_show(raw)}", "gain")
         try:
             gain = float(raw)
+        except OverflowError:
+            gain = math.inf
         except ValueError:
-            fail(f"gain must be a plain number such as 2e5 (no unit, no dB), not {raw!r}", "gain")
+            fail(f"gain must be a plain number such as 2e5 (no unit, no dB), not {_show(raw)}",
+                 "gain")
         if not (math.isfinite(gain) and gain > 0):
-            fail(f"gain must be a finite number above 0, not {raw!r}", "gain")
+            fail(f"gain must be a finite number above 0, not {_show(raw)}", "gain")
         return gain
 
     def current_limit(self, raw, fields, fail):
@@ -408,7 +443,7 @@ class _Reader:
         limit = self.number(raw, lambda t: units.parse_value(t, "A", what="current_limit"),
                             line=fields["line"], part=fields["ref"], key="current_limit")
         if not limit > 0:
-            fail(f"current_limit must be above 0 A, not {raw!r}; leave it out for a supply "
+            fail(f"current_limit must be above 0 A, not {_show(raw)}; leave it out for a supply "
                  "whose limit is not known", "current_limit")
         return limit
 
@@ -490,8 +525,23 @@ def _good_name(name) -> bool:
     return isinstance(name, str) and name != "" and name == name.strip()
 
 
+def _unit_message(err, raw: str, key: str) -> str:
+    """A UnitError's message, or a short one when it would quote a very long text."""
+    if len(raw) <= _SHOW_AT_MOST:
+        return err.message
+    return f"cannot read {key} {_show(raw)}: not a number with a unit"
+
+
+def _show(value) -> str:
+    """``repr(value)`` for a message, cut to about :data:`_SHOW_AT_MOST` characters."""
+    shown = repr(value)
+    if len(shown) <= _SHOW_AT_MOST:
+        return shown
+    return f"{shown[:_SHOW_AT_MOST - 4]}... ({len(shown):,} characters)"
+
+
 def _did_you_mean(word, choices) -> str:
-    if not isinstance(word, str):
+    if not isinstance(word, str) or len(word) > 40:  # difflib is quadratic in the length
         return ""
     close = difflib.get_close_matches(word, list(choices), n=1)
     return f" (did you mean '{close[0]}'?)" if close else ""

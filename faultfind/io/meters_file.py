@@ -19,6 +19,7 @@ import math
 import numbers
 import os
 import re
+import sys
 import tomllib
 
 from faultfind.errors import InputError, MeterError
@@ -113,36 +114,57 @@ def _line_finder(text: str):
     return find
 
 
+def _deepest_line(text: str) -> int:
+    """Line holding the most opening brackets and braces (the deep nesting)."""
+    counts = [ln.count("[") + ln.count("{") for ln in text.split("\n")]
+    return 1 + max(range(len(counts)), key=counts.__getitem__)
+
+
+def _as_float(raw) -> float:
+    """``float(raw)``; inf for an integer beyond the float range (1e308)."""
+    try:
+        return float(raw)
+    except OverflowError:
+        return math.inf
+
+
+def _show(raw) -> str:
+    """``repr(raw)`` for a message, cut to about 60 characters."""
+    shown = repr(raw)
+    return shown if len(shown) <= 60 else f"{shown[:56]}... ({len(shown):,} characters)"
+
+
 def _parse_counts(raw, what: str) -> int:
     if isinstance(raw, bool):
-        raise MeterError(f"{what} must be a positive integer, got {raw!r}")
+        raise MeterError(f"{what} must be a positive integer, got {_show(raw)}")
     if isinstance(raw, numbers.Real):
-        number = float(raw)
+        number = _as_float(raw)
     elif isinstance(raw, str):
         number = parse_value(raw, what=what)
     else:
-        raise MeterError(f"{what} must be a positive integer, got {raw!r}")
+        raise MeterError(f"{what} must be a positive integer, got {_show(raw)}")
     if not math.isfinite(number) or number != int(number) or number < 1:
-        raise MeterError(f"{what} must be a positive integer, got {raw!r}")
+        raise MeterError(f"{what} must be a positive integer, got {_show(raw)}")
     return int(number)
 
 
 def _parse_positive(raw, unit: str, what: str) -> float:
     if isinstance(raw, bool) or not isinstance(raw, (numbers.Real, str)):
-        raise MeterError(f"{what} must be a number or a string such as \"10M\", got {raw!r}")
-    number = float(parse_value(raw, unit, what=what))
+        raise MeterError(f"{what} must be a number or a string such as \"10M\", got "
+                         f"{_show(raw)}")
+    number = _as_float(parse_value(raw, unit, what=what))
     if not math.isfinite(number) or number <= 0:
-        raise MeterError(f"{what} must be positive and finite, got {raw!r}")
+        raise MeterError(f"{what} must be positive and finite, got {_show(raw)}")
     return number
 
 
 def _parse_accuracy(raw, what: str) -> Accuracy:
     if not isinstance(raw, str):
-        raise MeterError(f"{what} must be a string such as \"0.5% + 2\", got {raw!r}")
+        raise MeterError(f"{what} must be a string such as \"0.5% + 2\", got {_show(raw)}")
     percent, counts = parse_accuracy(raw)
     percent, counts = float(percent), float(counts)
     if not (math.isfinite(percent) and math.isfinite(counts)) or percent < 0 or counts < 0:
-        raise MeterError(f"{what} must have a non-negative percent and counts, got {raw!r}")
+        raise MeterError(f"{what} must have a non-negative percent and counts, got {_show(raw)}")
     return Accuracy(percent, counts)
 
 
@@ -163,7 +185,10 @@ def _parse_profile(name: str, table: dict, source: str, find_line) -> MeterProfi
             else:
                 values[key] = _parse_positive(raw, unit, what)
         except InputError as exc:
-            raise MeterError(exc.message, **where) from None
+            message = exc.message
+            if len(repr(raw)) > 60:  # do not quote a long value whole, twice
+                message = f"cannot read {key} {_show(raw)}: not a value"
+            raise MeterError(message, **where) from None
     return dataclasses.replace(DEFAULT_METER, name=name, **values)
 
 
@@ -199,12 +224,29 @@ def parse_meters(text, source="<string>") -> dict[str, MeterProfile]:
     if not isinstance(text, str):
         raise MeterError(f"expected the file's text as str, got {type(text).__name__}",
                          file=source)
+    text = text.removeprefix("\ufeff")
+    if "\r" in text:  # CRLF is TOML already; a lone CR (old Mac) ends a line too
+        text = text.replace("\r\n", "\n").replace("\r", "\n")
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         m = _TOML_LINE.search(str(exc))
+        last = max(1, text.count("\n") + (not text.endswith("\n")))  # "at end of document"
         raise MeterError(f"TOML syntax error: {exc}", file=source,
-                         line=int(m.group(1)) if m else None) from None
+                         line=int(m.group(1)) if m else last) from None
+    except RecursionError:  # tomllib recurses once per level of nesting
+        raise MeterError("TOML nested too deeply (arrays or tables inside one another "
+                         "hundreds of levels deep): this is not a meter profile file",
+                         file=source, line=_deepest_line(text)) from None
+    except ValueError as exc:  # an integer too long for int() (sys.int_info)
+        if "digits" not in str(exc):
+            raise
+        long_number = re.compile(r"[0-9_]{%d,}" % (sys.get_int_max_str_digits() + 1))
+        line = next((i for i, ln in enumerate(text.split("\n"), 1) if long_number.search(ln)),
+                    1)
+        raise MeterError(f"a number with more than {sys.get_int_max_str_digits():,} digits: "
+                         "not a value a meter profile can hold", file=source,
+                         line=line) from None
     find_line = _line_finder(text)
     for key in data:
         if key != "meter":
@@ -221,7 +263,7 @@ def parse_meters(text, source="<string>") -> dict[str, MeterProfile]:
             raise MeterError("a meter name must not be empty", file=source,
                              line=find_line(name), key="meter")
         if not isinstance(table, dict):
-            raise MeterError(f"meter {name!r} must be a table [meter.{name}], got {table!r}",
+            raise MeterError(f"meter {name!r} must be a table [meter.{name}], got {_show(table)}",
                              file=source, line=find_line(name), part=name)
         profiles[name] = _parse_profile(name, table, source, find_line)
     return profiles
@@ -257,8 +299,8 @@ def load_meters(path) -> dict[str, MeterProfile]:
     try:
         text = raw.decode("utf-8")
     except UnicodeDecodeError as exc:
-        raise MeterError(f"not UTF-8 text ({exc.reason} at byte {exc.start})",
-                         file=os.fspath(path)) from None
+        raise MeterError(f"not UTF-8 text ({exc.reason} at byte {exc.start}): save it as UTF-8",
+                         file=os.fspath(path), line=raw.count(b"\n", 0, exc.start) + 1) from None
     return parse_meters(text, source=os.fspath(path))
 
 

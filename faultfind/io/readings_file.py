@@ -7,18 +7,18 @@ One row a reading, as a technician writes them down::
     current,dc,,,R1,,2.45 mA,
     resistance,,,,F1,,OL,fuse check
 
-The file is read with pandas as text only (nothing is turned into NaN or a
-number behind the reader's back), then every row is checked.  All problems
-of all rows are gathered into one :class:`~faultfind.errors.ReadingsError`,
-so a file is fixed in one go.  docs/readings-files.md is the user's guide to
-the format as this module reads it.
+The file is split into cells by :mod:`faultfind.io.readings_table` (the csv
+module, text only: nothing is turned into NaN or a number behind the
+reader's back; a CSV error names its line), then every row is checked here.
+All problems of all rows are gathered into one
+:class:`~faultfind.errors.ReadingsError`, so a file is fixed in one go.
+docs/readings-files.md is the user's guide to the format as this module
+reads it.
 """
 
 from __future__ import annotations
 
-import csv
 import difflib
-import io
 import math
 import os
 import re
@@ -30,16 +30,20 @@ import pandas as pd
 from faultfind.engine import meter as meter_model
 from faultfind.errors import ReadingsError, UnitError
 from faultfind.io.meters_file import DEFAULT_METER
+from faultfind.io.readings_table import (CLOSE_CHOICES_AT_MOST as _CLOSE_CHOICES_AT_MOST,
+                                         CLOSE_WORD_AT_MOST as _CLOSE_WORD_AT_MOST, COLUMNS,
+                                         SHOW_AT_MOST as _SHOW_AT_MOST)
+from faultfind.io.readings_table import did_you_mean as _did_you_mean
+from faultfind.io.readings_table import read_table as _read_table
+from faultfind.io.readings_table import show as _show
 from faultfind.io.textfile import read_text
-from faultfind.model import KINDS, MODES, QUANTITIES, QUANTITY_UNITS, SETUPS, Circuit, MeterProfile, Reading
+from faultfind.model import (KINDS, MODES, QUANTITIES, QUANTITY_UNITS, SETUPS, Circuit,
+                             MeterProfile, Reading)
 from faultfind.units import format_value, parse_frequency, parse_value
 
 __all__ = ["COLUMNS", "QUANTITY_UNITS", "load_readings", "parse_readings", "readings_to_frame",
-           "write_readings", "reading_to_row"]
+           "write_readings", "reading_to_row", "zero_allowance"]
 
-#: Columns a readings file may have, in the order faultfind writes them.
-COLUMNS = ("quantity", "mode", "plus", "minus", "part", "setup", "value", "frequency", "meter",
-           "label")
 
 #: Unit of each quantity's value.
 
@@ -49,7 +53,8 @@ _ALWAYS = ("quantity", "mode", "plus", "minus", "part", "setup", "value", "label
 _OVERRANGE = re.compile(r"^([+-]?)\s*O\.?L\.?$", re.IGNORECASE)
 # Nodes or parts listed in full in a message when there are at most this many.
 _LIST_AT_MOST = 12
-_HEADER_EXAMPLE = "quantity,mode,plus,minus,part,setup,value,label"
+# Problems listed one a line in a message (all are kept in ``problems``).
+_PROBLEMS_LISTED = 50
 
 
 def load_readings(path, circuit=None, meters=None, *, require_values=True) -> list[Reading]:
@@ -138,106 +143,12 @@ def parse_readings(text, source="<string>", circuit=None, meters=None, *,
     names, rows = _read_table(text.removeprefix("\ufeff"), source)
     checker = _RowChecker(source, circuit, meters, bool(require_values))
     readings = []
-    for line, cells, extra in rows:
-        reading = checker.row(line, cells, extra)
+    for line, cells, extra, split in rows:
+        reading = checker.row(line, cells, extra, split)
         if reading is not None:
             readings.append(reading)
     checker.raise_problems()
     return readings
-
-
-# -- the table ---------------------------------------------------------------------------
-
-
-def _read_table(text: str, source: str):
-    """Header names and ``(line, {column: cell}, extra cells)`` per non-blank row."""
-    if not text.strip():
-        raise ReadingsError(f"the file is empty: a readings file starts with a header line "
-                            f"such as '{_HEADER_EXAMPLE}'", file=source, line=1)
-    try:
-        width = max(len(r) for r in csv.reader(io.StringIO(text)))
-        frame = pd.read_csv(io.StringIO(text), header=None, names=list(range(width)), dtype=str,
-                            keep_default_na=False, skip_blank_lines=False)
-    except (csv.Error, pd.errors.ParserError, ValueError) as exc:
-        line = _unclosed_quote_line(text)
-        if line is not None:
-            raise ReadingsError('a quote (") opened on this line is never closed',
-                                file=source, line=line) from None
-        raise ReadingsError(f"not a readable CSV file: {exc}", file=source) from None
-    records = frame.to_numpy(dtype=object, na_value="").tolist()
-    lines, line = [], 1
-    for record in records:
-        lines.append(line)
-        line += 1 + sum(str(cell).count("\n") for cell in record)
-    stripped = [[str(cell).strip() for cell in record] for record in records]
-    body = [(ln, r) for ln, r in zip(lines, stripped) if any(r)]
-    if not body:
-        raise ReadingsError("the file has no header line", file=source, line=1)
-    (header_line, header), body = body[0], body[1:]
-    names = _check_header(header, header_line, source)
-    names += [None] * (len(header) - len(names))
-    rows = []
-    for ln, record in body:
-        cells = {n: c for n, c in zip(names, record) if n is not None}
-        extra = [c for n, c in zip(names, record) if n is None and c]
-        rows.append((ln, cells, extra))
-    return names, rows
-
-
-def _check_header(header, line, source):
-    """Column names (lower case; None for an unnamed column), or ReadingsError."""
-    while header and not header[-1]:
-        header = header[:-1]
-    if len(header) == 1 and (";" in header[0] or "\t" in header[0]):
-        sep = "semicolons" if ";" in header[0] else "tabs"
-        raise ReadingsError(f"the header is one column {header[0]!r}: the fields seem separated "
-                            f"by {sep}; faultfind reads comma-separated files: save it as CSV "
-                            "with commas", file=source, line=line)
-    names = [h.lower() or None for h in header]
-    if "quantity" not in names and any(n in QUANTITIES for n in names):
-        raise ReadingsError(f"no header: the first line must name the columns, e.g. "
-                            f"'{_HEADER_EXAMPLE}'; this line looks like a reading",
-                            file=source, line=line)
-    unknown = [h for h, n in zip(header, names) if n is not None and n not in COLUMNS]
-    if unknown:
-        what = "; ".join(f"{h!r}{_did_you_mean(h.lower(), COLUMNS)}" for h in unknown)
-        raise ReadingsError(f"unknown column{'s' if len(unknown) > 1 else ''} {what}: the "
-                            f"columns are {', '.join(COLUMNS)}", file=source, line=line,
-                            key=unknown[0])
-    repeated = sorted({n for n in names if n is not None and names.count(n) > 1})
-    if repeated:
-        raise ReadingsError(f"column {repeated[0]!r} appears more than once in the header",
-                            file=source, line=line, key=repeated[0])
-    if "quantity" not in names:
-        raise ReadingsError("the header has no 'quantity' column (it is required); the "
-                            f"columns are {', '.join(COLUMNS)}", file=source, line=line,
-                            key="quantity")
-    return names
-
-
-def _unclosed_quote_line(text: str) -> int | None:
-    """Line on which a quoted field opens and never closes (RFC 4180 quoting), else None."""
-    quoted, opened, line, at_start, i = False, None, 1, True, 0
-    while i < len(text):
-        ch = text[i]
-        if quoted and ch == '"':
-            if text[i + 1:i + 2] == '"':  # a doubled quote inside the field
-                i += 1
-            else:
-                quoted = False
-        elif not quoted and ch == '"' and at_start:
-            quoted, opened = True, line
-        if ch == "\n":
-            line += 1
-        if not quoted:
-            at_start = ch in ",\n\r" or (at_start and ch in " \t")
-        i += 1
-    return opened if quoted else None
-
-
-def _did_you_mean(word, choices) -> str:
-    close = difflib.get_close_matches(word, list(choices), n=1)
-    return f" (did you mean {close[0]!r}?)" if close else ""
 
 
 # -- the rows ----------------------------------------------------------------------------
@@ -266,7 +177,10 @@ class _RowChecker:
         else:
             lines = sorted({e.line for e in found})
             listing = "\n".join(f"  line {e.line}" + (f" ({e.key})" if e.key else "")
-                                + f": {e.message}" for e in found)
+                                + f": {e.message}" for e in found[:_PROBLEMS_LISTED])
+            if len(found) > _PROBLEMS_LISTED:
+                listing += (f"\n  ... and {len(found) - _PROBLEMS_LISTED:,} more problems (the "
+                            "first ones listed; the error's problems attribute has them all)")
             err = ReadingsError(f"{len(found)} problems on {len(lines)} line"
                                 f"{'s' if len(lines) > 1 else ''}; fix them all, then load "
                                 f"the file again:\n{listing}", file=self.source,
@@ -274,20 +188,34 @@ class _RowChecker:
         err.problems = found
         raise err
 
-    def row(self, line, cells, extra) -> Reading | None:
+    def row(self, line, cells, extra, split=None) -> Reading | None:
         """The reading of one row, or None after recording its problems."""
         before = len(self.problems)
         get = lambda column: cells.get(column, "")  # noqa: E731
+        if split:
+            whole, fraction = split
+            self.problem(line, "value", f"the value {_show(whole)} is followed by "
+                         f"{_show(fraction)} and the row has more cells than the header: a "
+                         f"decimal comma? write {whole}.{fraction} with a decimal point "
+                         "(faultfind does not guess which comma was meant)")
+            return None
         if extra:
+            shown = ", ".join(_show(c) for c in extra[:_LIST_AT_MOST])
             self.problem(line, None, f"{len(extra)} cell(s) in columns the header does not "
-                         f"name ({', '.join(map(repr, extra))}): name the column in the header "
-                         "or remove them")
+                         f"name ({shown}{', ...' if len(extra) > _LIST_AT_MOST else ''}): "
+                         "name the column in the header or remove them")
         quantity = get("quantity").lower()
         if not quantity:
             self.problem(line, "quantity", "no quantity: write voltage, current or resistance")
             return None
+        for sep, name in ((";", "semicolons"), ("\t", "tabs")):
+            if sep in quantity and quantity.split(sep)[0].strip() in QUANTITIES:
+                self.problem(line, "quantity", f"the row {_show(get('quantity'))} seems "
+                             f"separated by {name}: faultfind reads comma-separated rows "
+                             "with a decimal point; save the file as CSV with commas")
+                return None
         if quantity not in QUANTITIES:
-            self.problem(line, "quantity", f"unknown quantity {get('quantity')!r}"
+            self.problem(line, "quantity", f"unknown quantity {_show(get('quantity'))}"
                          f"{_did_you_mean(quantity, QUANTITIES)}: write voltage, current or "
                          "resistance")
             return None
@@ -308,19 +236,19 @@ class _RowChecker:
         mode, setup = get("mode").lower(), get("setup").lower()
         if quantity == "resistance":
             if mode:
-                self.problem(line, "mode", f"mode {get('mode')!r} on a resistance reading: an "
-                             "ohmmeter reading is neither dc nor ac; leave mode empty")
+                self.problem(line, "mode", f"mode {_show(get('mode'))} on a resistance reading: "
+                             "an ohmmeter reading is neither dc nor ac; leave mode empty")
             setup = setup or "in-circuit"
             if setup not in SETUPS:
-                self.problem(line, "setup", f"unknown setup {get('setup')!r}"
+                self.problem(line, "setup", f"unknown setup {_show(get('setup'))}"
                              f"{_did_you_mean(setup, SETUPS)}: write in-circuit or lifted")
             return None, setup
         if setup:
-            self.problem(line, "setup", f"setup {get('setup')!r} on a {quantity} reading: setup "
-                         "is for resistance readings only; leave it empty")
+            self.problem(line, "setup", f"setup {_show(get('setup'))} on a {quantity} reading: "
+                         "setup is for resistance readings only; leave it empty")
         mode = mode or "dc"
         if mode not in MODES:
-            self.problem(line, "mode", f"unknown mode {get('mode')!r}"
+            self.problem(line, "mode", f"unknown mode {_show(get('mode'))}"
                          f"{_did_you_mean(mode, MODES)}: write dc or ac")
         return mode, None
 
@@ -359,8 +287,8 @@ class _RowChecker:
                              "setup in-circuit for a reading between two nodes"
                              + self.parts_between(plus, minus))
         if plus and minus and plus == minus:
-            self.problem(line, "minus", f"plus and minus are the same node {plus!r}: the meter "
-                         "would read nothing")
+            self.problem(line, "minus", f"plus and minus are the same node {_show(plus)}: the "
+                         "meter would read nothing")
         return plus, minus, part
 
     def parts_between(self, plus, minus) -> str:
@@ -387,7 +315,7 @@ class _RowChecker:
         try:
             return parse_frequency(raw)
         except UnitError as exc:
-            self.problem(line, "frequency", exc.message)
+            self.problem(line, "frequency", _unit_message(exc, raw, "frequency"))
             return None
 
     def value(self, line, quantity, mode, raw, meter=None):
@@ -403,7 +331,7 @@ class _RowChecker:
             try:
                 number = parse_value(raw, QUANTITY_UNITS[quantity])
             except UnitError as exc:
-                self.problem(line, "value", exc.message)
+                self.problem(line, "value", _unit_message(exc, raw, "value"))
                 return None, 0
             sign = -1 if number < 0 else 1
         if sign < 0 and quantity == "resistance":
@@ -412,13 +340,13 @@ class _RowChecker:
                 beyond = ("" if allowance is None else ", further below zero than this "
                           "meter's accuracy allows on a short (down to "
                           f"{format_value(-allowance, 'Ω')})")
-                self.problem(line, "value", f"negative resistance {raw!r}{beyond}: the circuit "
-                             "is still powered or a capacitor is charged, so this is not a "
+                self.problem(line, "value", f"negative resistance {_show(raw)}{beyond}: the "
+                             "circuit is still powered or a capacitor is charged, so this is not a "
                              "resistance. Switch off, isolate and lock out, discharge "
                              "capacitors, prove the circuit dead, then read again")
         elif sign < 0 and mode == "ac":
-            self.problem(line, "value", f"negative AC reading {raw!r}: an AC reading is an RMS "
-                         "value and cannot be below zero")
+            self.problem(line, "value", f"negative AC reading {_show(raw)}: an AC reading is an "
+                         "RMS value and cannot be below zero")
         return number, (sign if over else 0)
 
     def profile(self, meter) -> MeterProfile:
@@ -432,7 +360,7 @@ class _RowChecker:
         if self.meters is not None and raw not in self.meters:
             named = [m for m in self.meters if m != "default"]
             have = ", ".join(named) if named else "none besides the default"
-            self.problem(line, "meter", f"unknown meter {raw!r}{_did_you_mean(raw, named)}: "
+            self.problem(line, "meter", f"unknown meter {_show(raw)}{_did_you_mean(raw, named)}: "
                          f"the meter profiles are {have}")
         return raw
 
@@ -443,16 +371,16 @@ class _RowChecker:
             if minus is None:
                 minus = circuit.ground
                 if plus == minus:
-                    self.problem(line, "plus", f"plus is the ground node {plus!r} and minus is "
-                                 "empty (ground): the meter would read nothing")
+                    self.problem(line, "plus", f"plus is the ground node {_show(plus)} and minus "
+                                 "is empty (ground): the meter would read nothing")
             for column, node in (("plus", plus), ("minus", minus)):
                 if not circuit.has_node(node):
-                    self.problem(line, column, f"node {node!r} is not in the circuit"
+                    self.problem(line, column, f"node {_show(node)} is not in the circuit"
                                  + _hint(node, circuit.nodes, "nodes"))
         if part is not None:
             if not circuit.has_part(part):
                 refs = [p.ref for p in circuit.parts]
-                self.problem(line, "part", f"part {part!r} is not in the circuit"
+                self.problem(line, "part", f"part {_show(part)} is not in the circuit"
                              + _hint(part, refs, "parts"))
             elif KINDS[circuit.part(part).kind].nodes != 2:
                 kind = circuit.part(part).kind
@@ -491,14 +419,22 @@ def zero_allowance(profile: MeterProfile, value: float) -> float:
     return float(a + r / 2.0) * (1.0 + 1e-9)  # 1e-9: a display exactly at the bound is inside
 
 
+def _unit_message(exc, raw, what) -> str:
+    """A UnitError's message, or a short one when it would quote a very long cell."""
+    if len(raw) <= _SHOW_AT_MOST:
+        return exc.message
+    return f"cannot read {what} {_show(raw)}: not a number with a unit"
+
+
 def _hint(name, choices, what) -> str:
     """``; did you mean 'A'?`` and/or the full list when it is short."""
     choices = list(choices)
     bits = []
     same = [c for c in choices if c.lower() == name.lower()]
-    close = same or difflib.get_close_matches(name, choices, n=1)
+    close = same or (len(name) <= _CLOSE_WORD_AT_MOST and len(choices) <= _CLOSE_CHOICES_AT_MOST
+                     and difflib.get_close_matches(name, choices, n=1))
     if close:
-        bits.append(f"did you mean {close[0]!r}?" + (" (names are case-sensitive)"
+        bits.append(f"did you mean {_show(close[0])}?" + (" (names are case-sensitive)"
                                                       if same else ""))
     if len(choices) <= _LIST_AT_MOST:
         bits.append(f"the circuit's {what} are {', '.join(choices)}")
@@ -525,8 +461,8 @@ def _check_readings(readings) -> list[Reading]:
         if not isinstance(r, Reading):
             raise TypeError(f"readings[{i}] is a {type(r).__name__}, not a Reading")
         if r.quantity not in QUANTITIES:
-            raise ReadingsError(f"readings[{i}] has quantity {r.quantity!r}: expected voltage, "
-                                "current or resistance", line=r.line, key="quantity")
+            raise ReadingsError(f"readings[{i}] has quantity {_show(r.quantity)}: expected "
+                                "voltage, current or resistance", line=r.line, key="quantity")
     return items
 
 
@@ -645,7 +581,7 @@ def reading_to_row(reading) -> dict:
         raise TypeError(f"reading must be a faultfind.model.Reading, not "
                         f"{type(reading).__name__}")
     if reading.quantity not in QUANTITIES:
-        raise ReadingsError(f"quantity {reading.quantity!r}: expected voltage, current or "
+        raise ReadingsError(f"quantity {_show(reading.quantity)}: expected voltage, current or "
                             "resistance", line=reading.line, key="quantity")
     resistance = reading.quantity == "resistance"
     return {

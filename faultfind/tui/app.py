@@ -104,7 +104,7 @@ class FaultfindApp(App[int]):
         self.export_dir = Path(export_dir) if export_dir is not None else None
         self.acknowledged_at: str | None = None
         self.book = None
-        self._quitting = False  # faultfind.io.logbook.Logbook once opened
+        self._quitting = False  # faultfind.logbook.Logbook once opened
 
     # -- start-up ------------------------------------------------------------------------
 
@@ -126,6 +126,16 @@ class FaultfindApp(App[int]):
             return
         self.push_screen(OpeningScreen())
 
+    def show_opening(self) -> None:
+        """Replace the current screen by a new opening screen (another session).
+
+        Screens reach the opening screen through the app, so that no screen
+        module imports the opening screen (which imports the bench screen).
+        """
+        from .screens.opening import OpeningScreen
+
+        self.switch_screen(OpeningScreen())
+
     # -- the logbook ---------------------------------------------------------------------
 
     @property
@@ -136,11 +146,11 @@ class FaultfindApp(App[int]):
         return resolve_logbook_path(self.logbook_arg)
 
     def open_logbook(self, *, create: bool):
-        """The open :class:`~faultfind.io.logbook.Logbook`, or None when there is
+        """The open :class:`~faultfind.logbook.Logbook`, or None when there is
         none yet and ``create`` is False.  Raises LogbookError."""
         if self.book is not None:
             return self.book
-        from faultfind.io.logbook import Logbook
+        from faultfind.logbook import Logbook
 
         path = self.logbook_path
         if not create and not path.exists():
@@ -181,5 +191,5 @@ def _warm_up() -> None:
     import faultfind.advise  # noqa: F401
     import faultfind.diagnose  # noqa: F401
     import faultfind.expect  # noqa: F401
-    import faultfind.io.logbook  # noqa: F401
-    import faultfind.io.report  # noqa: F401
+    import faultfind.logbook  # noqa: F401
+    import faultfind.report  # noqa: F401

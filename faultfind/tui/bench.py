@@ -186,8 +186,8 @@ class Bench:
 
     def assessed(self):
         """Every logged reading against its healthy band
-        (:func:`faultfind.io.report.assess_session`)."""
-        from faultfind.io.report import assess
+        (:func:`faultfind.report.assess_session`)."""
+        from faultfind.report import assess
 
         return assess(self.circuit, self.meters, self.session.readings)
 
@@ -233,7 +233,7 @@ class Bench:
         """What Enter would do with ``text``: the reading, its band, or what is wrong."""
         from faultfind.expect import expect
         from faultfind.io.logbook import LoggedReading
-        from faultfind.io.report import assess
+        from faultfind.report import assess
 
         try:
             cells = parse_entry(text, self.circuit)
@@ -364,7 +364,7 @@ class Bench:
         InputError
             An unknown suffix or a file that cannot be written.
         """
-        from faultfind.io.report import report_format, write_report
+        from faultfind.report import report_format, write_report
 
         if not isinstance(path, (str, os.PathLike)) or not os.fspath(path).strip():
             raise InputError("name the report file, e.g. report.html or report.md",

@@ -170,7 +170,7 @@ def test_stage_words():
 
 
 def test_bench_diagnose_refuses_a_progress_that_cannot_be_called(tmp_path):
-    from faultfind.io.logbook import Logbook
+    from faultfind.logbook import Logbook
     from faultfind.tui.bench import Bench
 
     with Logbook(tmp_path / "l.sqlite") as book:
@@ -184,7 +184,7 @@ def test_bench_diagnose_refuses_a_progress_that_cannot_be_called(tmp_path):
 
 
 def test_logbook_passes_progress_to_the_diagnosis(tmp_path):
-    from faultfind.io.logbook import Logbook
+    from faultfind.logbook import Logbook
 
     calls = []
     with Logbook(tmp_path / "l.sqlite") as book:

@@ -557,6 +557,4 @@ class BenchScreen(Screen):
         self.app.push_screen(HelpScreen(self))
 
     def action_new_session(self) -> None:
-        from .opening import OpeningScreen
-
-        self.app.switch_screen(OpeningScreen())
+        self.app.show_opening()  # through the app: opening.py imports this module

@@ -78,7 +78,7 @@ class HistoryScreen(ModalScreen[None]):
     @work(thread=True, exclusive=True, group="detail")
     def _detail(self, sid: int) -> None:
         from faultfind.io.logbook import format_time
-        from faultfind.io.report import assess_session, describe_reading
+        from faultfind.report import assess_session, describe_reading
 
         try:
             s = self.bench.book.get_session(sid)

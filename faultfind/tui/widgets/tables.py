@@ -27,7 +27,7 @@ class ReadingsTable(DataTable):
         self.add_column("label", key="label")
 
     def show(self, assessed) -> None:
-        """Rows from :func:`faultfind.io.report.assess` results, newest last."""
+        """Rows from :func:`faultfind.report.assess` results, newest last."""
         from faultfind.io.report import describe_reading
 
         self.clear()

@@ -64,4 +64,5 @@ class Logbook(_io.Logbook):
         readings = [r.reading for r in logged]
         doc = _clean_json(diagnosis_json(diagnose(circuit, readings, meters, top=top,
                                                          progress=progress, priors=priors)))
-        return self._add_diagnosis(sid, doc, len(readings))
+        # the circuit text it ran on, even if the circuit is revised meanwhile
+        return self._add_diagnosis(sid, doc, len(readings), row["circuit_sha256"])

@@ -143,6 +143,10 @@ def _diagnosis_parts(session, circuit):
                      f"(up to #{last}); it does not include them")
     if struck_after:
         stale.append(f"{len(struck_after)} reading(s) it used were struck out afterwards")
+    used = getattr(d, "circuit_sha256", None)
+    if used and used != session.circuit_sha256:
+        stale.append(f"it was made on circuit version {d.circuit_version or '?'} ({used[:8]}); "
+                     f"the session's circuit changed since (now {session.circuit_sha256[:8]})")
     hyps = [(i + 1, _hypothesis_text(circuit, h), h["probability"])
             for i, h in enumerate(doc.get("hypotheses", []))]
     return SimpleNamespace(stored=d, doc=doc, stale=stale, hypotheses=hyps)

@@ -21,6 +21,7 @@ import pytest
 from faultfind.cli.main import main
 from faultfind.errors import LogbookError
 from faultfind.io import migrations as mig
+from faultfind.io.circuit_versions import circuit_versions
 from faultfind.io.logbook import Logbook
 from faultfind.io.session_tags import tags_of
 
@@ -203,6 +204,9 @@ def _fill(conn, version):
             "INSERT INTO readings (session_id, seq, taken_at, quantity, part, setup, raw, "
             "overrange, origin) VALUES (1, 2, '2025-01-02T03:06:00.000+00:00', 'resistance', "
             "'F1', 'in-circuit', 'OL', 1, 'entered')")
+        conn.execute("INSERT INTO diagnoses (session_id, created_at, reading_count, last_seq, "
+                     "verdict, version, document) VALUES (1, '2025-01-02T03:07:00.000+00:00', "
+                     "2, 2, 'fault', '0.1', '{\"verdict\": \"fault\"}')")
         conn.execute("INSERT INTO outcomes (session_id, recorded_at, action) VALUES "
                      "(1, '2025-01-02T04:00:00.000+00:00', 'replaced F1')")
         conn.execute("INSERT INTO outcome_faults VALUES (1, 'F1', 'open')")
@@ -244,6 +248,12 @@ def test_migration_from_every_earlier_version(tmp_path, version):
             assert s.outcome.faults == (("F1", "open"),) and s.outcome.action == "replaced F1"
             assert s.technician == "A. Rivera"
             assert tags_of(book, 1) == (["north-pumps"] if version >= 5 else [])
+            assert s.diagnoses[0].verdict == "fault"
+            if version < 6:  # 0006: diagnoses from before it ran on the session's one circuit
+                assert (s.diagnoses[0].circuit_version, s.diagnoses[0].circuit_sha256) == \
+                    (1, "0" * 64)
+                (v1,) = circuit_versions(book, 1)
+                assert (v1.version, v1.sha256, v1.text) == (1, "0" * 64, s.circuit_text)
             assert book.backup is not None
             with sqlite3.connect(book.backup) as old:  # the copy is the file as it was
                 assert list(old.iterdump()) == before

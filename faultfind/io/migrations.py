@@ -23,6 +23,8 @@ import sqlite3
 from dataclasses import dataclass
 from datetime import datetime, timezone
 
+from faultfind.io.circuit_versions import MIGRATION_0006
+
 __all__ = ["Migration", "MIGRATIONS", "LATEST_VERSION", "APPLICATION_ID", "schema_version",
            "application_id", "pending", "migrate"]
 
@@ -208,6 +210,8 @@ MIGRATIONS: tuple[Migration, ...] = (
               "session events: circuit isolated or energized, notes"),
     Migration(5, "0005_session_tags", _SESSION_TAGS,
               "session tags: the site or unit family a session belongs to"),
+    Migration(6, "0006_circuit_versions", MIGRATION_0006,
+              "versions of a session's circuit; the circuit version of each diagnosis"),
 )
 
 #: The schema version this faultfind writes.

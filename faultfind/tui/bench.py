@@ -18,6 +18,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from faultfind.errors import InputError, ReadingsError
+from faultfind.io.circuit_versions import circuit_versions, diagnosis_circuit, revise_circuit
 from faultfind.model import Reading
 
 from .entry import check_cells, describe_cells, parse_entry
@@ -200,6 +201,44 @@ class Bench:
             self.book.add_event(self.session_id, "isolated" if state == "off" else "energized",
                                 "declared in the terminal UI")
         self.power = state
+
+    # -- the circuit's versions ----------------------------------------------------------
+
+    def revise_circuit(self, text: str):
+        """Make ``text`` the session's circuit (its next version in the logbook).
+
+        The readings already taken stay; the diagnosis and the advice are then
+        worked out again on the new circuit (the caller runs them).
+
+        Returns
+        -------
+        faultfind.io.circuit_versions.CircuitVersion
+
+        Raises
+        ------
+        CircuitError
+            Not a valid circuit, or a reading that counts no longer fits it.
+        LogbookError
+            The session is closed or the logbook cannot be written.
+        """
+        version = revise_circuit(self.book, self.session_id, text)
+        self.refresh()
+        self.circuit = self.session.circuit()
+        self.suggested = []
+        self.suggested_power = None
+        return version
+
+    def circuit_version(self):
+        """The version of the circuit the session is on now."""
+        return circuit_versions(self.book, self.session_id)[-1]
+
+    def stored_circuit(self):
+        """``(version, changed)`` of the stored diagnosis's circuit
+        (:func:`faultfind.io.circuit_versions.diagnosis_circuit`); ``(None, False)``
+        without a stored diagnosis."""
+        if self.stored is None:
+            return None, False
+        return diagnosis_circuit(self.book, self.session_id, self.stored)
 
     # -- readings ------------------------------------------------------------------------
 

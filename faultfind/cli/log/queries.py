@@ -49,6 +49,11 @@ def run_show(args) -> int:
               f"{d.verdict}; most probable {what} ({best['probability'] * 100:.0f} %)")
         if d.last_seq < max((r.seq for r in s.readings), default=0):
             print("  readings were added since: run faultfind log diagnose again")
+        if d.circuit_sha256:
+            changed = d.circuit_sha256 != s.circuit_sha256
+            print(f"  made on circuit version {d.circuit_version or '?'} "
+                  f"({d.circuit_sha256[:8]})" + ("; the circuit changed since: run faultfind "
+                                                 "log diagnose again" if changed else ""))
     if s.outcome is not None:
         o = s.outcome
         print(f"Outcome: {_outcome_text(o)}" + (f"; confirmed by {o.confirmed_by}"

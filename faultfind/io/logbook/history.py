@@ -72,10 +72,11 @@ class History:
         row = self._session_row(sid)
         summary = self._summaries("WHERE s.id = ?", (sid,))[0]
         diagnoses = tuple(
-            StoredDiagnosis(i, at, n, last, verdict, version, json.loads(doc))
-            for i, at, n, last, verdict, version, doc in self._conn.execute(
-                "SELECT id, created_at, reading_count, last_seq, verdict, version, document "
-                "FROM diagnoses WHERE session_id = ? ORDER BY id", (sid,)))
+            StoredDiagnosis(i, at, n, last, verdict, version, json.loads(doc), sha, number)
+            for i, at, n, last, verdict, version, doc, sha, number in self._conn.execute(
+                "SELECT id, created_at, reading_count, last_seq, verdict, version, document, "
+                "circuit_sha256, circuit_version FROM diagnoses WHERE session_id = ? "
+                "ORDER BY id", (sid,)))
         fields = {f: getattr(summary, f) for f in SessionSummary.__dataclass_fields__}
         return Session(**fields, circuit_text=row["circuit_text"],
                        meters_name=row["meters_name"], meters_text=row["meters_text"],

@@ -10,6 +10,7 @@ import json
 
 from faultfind import __version__
 from faultfind.errors import InputError
+from faultfind.io.circuit_versions import used_version
 from faultfind.io.logbook.checks import _text
 from faultfind.io.logbook.connection import _locked
 from faultfind.io.logbook.records import Session, StoredDiagnosis
@@ -21,19 +22,24 @@ __all__ = ["Outcomes"]
 class Outcomes:
     """Stored diagnoses and outcomes (a part of :class:`~faultfind.io.logbook.Logbook`)."""
 
-    def _add_diagnosis(self, sid, doc, reading_count) -> StoredDiagnosis:
+    def _add_diagnosis(self, sid, doc, reading_count, circuit_sha256=None) -> StoredDiagnosis:
         """Keep a diagnosis document (``faultfind diagnose --json``) of open session ``sid``
-        made from ``reading_count`` readings; returned once committed."""
+        made from ``reading_count`` readings on the circuit text whose SHA-256 is
+        ``circuit_sha256`` (default: the session's now); returned once committed."""
         text = json.dumps(doc, ensure_ascii=False, allow_nan=False)
         last = max((r.seq for r in self._readings(sid)), default=0)
         when = _now()
         with self._write() as c:
-            self._session_row(sid, open_only=True)
+            row = self._session_row(sid, open_only=True)
+            sha = row["circuit_sha256"] if circuit_sha256 is None else circuit_sha256
+            number = used_version(c, sid, sha)
             cur = c.execute("INSERT INTO diagnoses (session_id, created_at, reading_count, "
-                            "last_seq, verdict, version, document) VALUES (?,?,?,?,?,?,?)",
-                            (sid, when, reading_count, last, doc["verdict"], __version__, text))
+                            "last_seq, verdict, version, document, circuit_sha256, "
+                            "circuit_version) VALUES (?,?,?,?,?,?,?,?,?)",
+                            (sid, when, reading_count, last, doc["verdict"], __version__, text,
+                             sha, number))
         return StoredDiagnosis(cur.lastrowid, when, reading_count, last, doc["verdict"],
-                               __version__, doc)
+                               __version__, doc, sha, number)
 
     def _faults(self, faults, circuit) -> list:
         if isinstance(faults, (str, bytes)) or not hasattr(faults, "__iter__"):

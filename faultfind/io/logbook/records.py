@@ -68,6 +68,10 @@ class StoredDiagnosis:
         faultfind version that ran it.
     document : dict
         The ``faultfind diagnose --json`` document (cli.md).
+    circuit_sha256 : str or None
+        SHA-256 of the circuit text it ran on (faultfind/io/circuit_versions.py).
+    circuit_version : int or None
+        That circuit's version in the session (1: the one it started on).
     """
 
     id: int
@@ -77,10 +81,13 @@ class StoredDiagnosis:
     verdict: str
     version: str
     document: dict
+    circuit_sha256: str | None = None
+    circuit_version: int | None = None
 
     def to_json(self) -> dict:
         return dict(id=self.id, created_at=self.created_at, reading_count=self.reading_count,
                     last_seq=self.last_seq, verdict=self.verdict, version=self.version,
+                    circuit_sha256=self.circuit_sha256, circuit_version=self.circuit_version,
                     diagnosis=self.document)
 
 

@@ -84,6 +84,9 @@ class BenchScreen(Screen):
         Binding("x", "export", "report",
                 tooltip="export the work-order report (HTML with a chart, or Markdown)"),
         Binding("h", "history", "history", tooltip="earlier sessions of this unit"),
+        Binding("e", "edit_circuit", "edit circuit", show=False,
+                tooltip="edit the session's circuit; the readings taken are diagnosed again "
+                        "on the new version"),
         Binding("f1,question_mark", "help", "help", tooltip="this help"),
         Binding("k", "strike", "strike out", show=False,
                 tooltip="strike out the reading selected in tab 2 (it is kept, with a "
@@ -197,8 +200,9 @@ class BenchScreen(Screen):
         b = self.bench
         doc = self._doc()
         n = len(b.readings())
+        note = self._circuit_note() if doc else ""
         for view in self.query(FindingsView):
-            view.show(doc, b.circuit, n)
+            view.show(doc, b.circuit, n, circuit_note=note)
         self.query_one("#parts-table", PartsTable).show(b.circuit, doc)
         self.query_one("#checks-view", ChecksView).show(doc)
         alert = self.query_one("#alert", Static)
@@ -209,6 +213,18 @@ class BenchScreen(Screen):
         else:
             alert.display = False
         self.show_status()
+
+    def _circuit_note(self) -> str:
+        """Which circuit version the findings were worked out on, and whether it changed."""
+        from faultfind.io.circuit_versions import version_label
+
+        used, changed = self.bench.stored_circuit()
+        label = used.short if used is not None else version_label(None, None)
+        if not changed:
+            return tag("muted", f"diagnosed on circuit {label}")
+        now = self.bench.circuit_version()
+        return tag("warn", f"⚠ diagnosed on circuit {label}; the circuit changed since "
+                           f"(now {now.short}): diagnosing again")
 
     def show_next(self) -> None:
         b = self.bench
@@ -230,7 +246,8 @@ class BenchScreen(Screen):
             return False
         s = b.stored
         last = max(lr.seq for lr in b.session.readings)
-        return s is None or s.last_seq < last or s.reading_count != len(live)
+        return (s is None or s.last_seq < last or s.reading_count != len(live)
+                or getattr(s, "circuit_sha256", None) != b.session.circuit_sha256)
 
     def analyse(self, *, diagnose: bool = True) -> None:
         """Run the diagnosis (when ``diagnose``) and the advice again, in a worker.
@@ -533,7 +550,8 @@ class BenchScreen(Screen):
 
     # -- small things --------------------------------------------------------------------
 
-    _OPEN_ONLY = ("new_reading", "take_next", "power", "close_out", "strike", "rediagnose")
+    _OPEN_ONLY = ("new_reading", "take_next", "power", "close_out", "strike", "rediagnose",
+                  "edit_circuit")
 
     def check_action(self, action: str, parameters) -> bool | None:
         """A closed session's keys for readings and close-out leave the footer."""
@@ -555,6 +573,29 @@ class BenchScreen(Screen):
         from .help import HelpScreen
 
         self.app.push_screen(HelpScreen(self))
+
+    def action_edit_circuit(self) -> None:
+        from .editor import EditorScreen, session_draft
+
+        if self._closed_say():
+            return
+        before = self.bench.session.circuit_sha256
+        self.app.push_screen(EditorScreen(session_draft(self.bench), apply=self._apply_circuit,
+                                          where=f"session {self.bench.session_id}"),
+                             lambda _: self._circuit_edited(before))
+
+    def _apply_circuit(self, text: str) -> None:
+        """The editor's save, in its worker: the circuit's next version, never while a
+        diagnosis of the old one is being stored."""
+        with self._analysis_lock:
+            self.bench.revise_circuit(text)
+
+    def _circuit_edited(self, before: str) -> None:
+        if self.bench.session.circuit_sha256 == before:
+            return
+        self.entry.input.suggester.circuit = self.bench.circuit
+        self.show_all()
+        self.analyse(diagnose=True)
 
     def action_new_session(self) -> None:
         self.app.show_opening()  # through the app: opening.py imports this module

@@ -36,6 +36,10 @@ class OpeningScreen(Screen):
                 tooltip="start the session (Enter in any field does too)"),
         Binding("ctrl+l", "focus_list", "list", show=False,
                 tooltip="back to the list of sessions and field cases"),
+        Binding("ctrl+n", "new_circuit", "new circuit",
+                tooltip="draw a new circuit in the circuit editor"),
+        Binding("f4", "edit_circuit", "edit circuit",
+                tooltip="edit the circuit file named above in the circuit editor"),
     ]
 
     def __init__(self) -> None:
@@ -236,6 +240,23 @@ class OpeningScreen(Screen):
 
     def action_focus_list(self) -> None:
         self.query_one("#choices", OptionList).focus()
+
+    def action_new_circuit(self) -> None:
+        from .editor import open_editor
+
+        open_editor(self.app, None, self._circuit_saved)
+
+    def action_edit_circuit(self) -> None:
+        from .editor import open_editor
+
+        open_editor(self.app, self.query_one("#circuit", Input).value.strip() or None,
+                    self._circuit_saved)
+
+    def _circuit_saved(self, path) -> None:
+        if path:
+            self.query_one("#circuit", Input).value = path
+            self.query_one("#unit", Input).focus()
+            self._say(f"Saved {path}. Now name the unit (asset tag) and press Enter.", "muted")
 
 
 def _one_line(text: str) -> str:

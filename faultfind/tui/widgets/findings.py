@@ -77,8 +77,11 @@ class FindingsView(VerticalScroll):
         yield Static(id="findings-body")
         yield ItemList(classes="findings-why")
 
-    def show(self, doc, circuit, n_readings: int) -> None:
+    def show(self, doc, circuit, n_readings: int, circuit_note: str = "") -> None:
+        """Redraw; ``circuit_note`` (markup) says which circuit version the findings used."""
         head, rows = findings_markup(doc, circuit, n_readings)
+        if circuit_note and doc is not None and n_readings:
+            head = f"{head}\n{circuit_note}"
         self.query_one("#findings-body", Static).update(head)
         self.query_one(ItemList).set_items(rows)
 

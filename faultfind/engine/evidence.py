@@ -128,8 +128,8 @@ class Evidence:
         ``weak`` (k, n) or (n,) marks the readings on cut-off nodes (None:
         none); ``base`` is each reading's variance without the stray voltage
         (default: the meter's alone).  A weak numeric reading whose residual
-        exceeds its base spread gains the excess as stray variance, at most
-        the allowance squared, and pays :data:`~.stray.STRAY_PENALTY`.
+        exceeds 3 times its base spread gains the excess as stray variance,
+        at most the allowance squared, and pays :data:`~.stray.STRAY_PENALTY`.
 
         Returns
         -------
@@ -145,7 +145,7 @@ class Evidence:
         base = self.u[None, :] ** 2 if base is None else np.atleast_2d(base)
         with np.errstate(invalid="ignore"):
             r2 = np.where(w, (self.y[None, :] - np.where(w, P, 0.0)) ** 2, 0.0)
-        used = w & (r2 > base)
+        used = w & (r2 > 9.0 * base)      # beyond 3 standard deviations: the allowance is used
         var = np.where(used, np.minimum(r2 - base, self.stray_max[None, :] ** 2), 0.0)
         return var, 2.0 * STRAY_PENALTY * used.sum(axis=1)
 

@@ -75,7 +75,7 @@ if __package__ in (None, ""):  # run as a script: make the repository importable
 
 from benchmarks.circuits import as_generator, random_circuit, technician_readings  # noqa: E402
 from faultfind.diagnose import describe_fault, diagnose  # noqa: E402
-from faultfind.engine.hypotheses import DRIFT_RANGE, SOURCE_RANGE  # noqa: E402
+from faultfind.engine.shorts import short_range  # noqa: E402
 from faultfind.engine.meter import resolution, spec_limit  # noqa: E402
 from faultfind.engine.oracle import oracle_readings  # noqa: E402
 from faultfind.engine.priors import KIND_WEIGHTS, P_HEALTHY, log_prior  # noqa: E402
@@ -265,11 +265,16 @@ def indistinct(pa, pb, sd) -> bool:
 
 def _predictions(ev, part, mode, value=None):
     """Predicted displays of one fault (rows: one, or a drift grid when value is None)."""
+    if mode == "short" and value is None:
+        # an exact short and shorts of resistance up to where a drift starts (.shorts)
+        lo, hi = short_range(part)
+        return np.vstack([ev.predict_fault(part, "short"),
+                          ev.predict_many([(part, "short", np.exp(np.linspace(lo, hi, 13)))])[0]])
     if mode != "drift":
         return ev.predict_fault(part, mode)
     if value is not None:
         return ev.predict_fault(part, "drift", np.array([value / part.value]))
-    lo, hi = SOURCE_RANGE if part.is_source else DRIFT_RANGE
+    lo, hi = np.exp(ev.drift_range(part)[:2])   # the engine's search range (a resistor: down to 1 %)
     if part.kind in ("fuse", "switch"):
         lo = 1.0
     f = np.exp(np.linspace(math.log(lo), math.log(hi), _DRIFT_GRID))

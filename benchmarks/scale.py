@@ -21,7 +21,8 @@ Then, in this one process and run, for each family and size:
   buffer), its stages timed through the progress callback;
 * ``--repeat R``: floor and diagnose measured R times, interleaved; the
   ratio reported is the median of the R ratios (each diagnose over the
-  smaller of the floors just before and after it), with their range;
+  smaller of the floors just before and after it; for an even R the higher
+  of the middle two), with their range;
 * **memory**: the same command in a fresh process, peak resident set size;
 * **re-solve**: at 10k parts (``--resolve-size``, bench family), the plain
   approach -- re-assemble, re-factor and re-solve the network for every trial

@@ -13,12 +13,12 @@ from __future__ import annotations
 
 import math
 import tomllib
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
 from .blas import threads_for
-from .engine.advise import expected_information_gain
+from .engine.advise import condition_on_taken, expected_information_gain
 from .engine.hypotheses import Board, Fault, rank
 from .engine.meter import standard_uncertainty
 from .engine.predict import predict
@@ -58,6 +58,13 @@ _CHUNK = 60
 CANDIDATE_LIMIT = 3000
 #: How many candidate readings are weighed then, at most.
 NEAR_CAP = 100
+#: Top current range of the meter, in amperes: the fused 10 A input of a
+#: typical handheld or bench multimeter (common practice, from memory).  A
+#: current reading whose predicted value under any kept hypothesis exceeds it
+#: is never suggested.
+CURRENT_RANGE = 10.0
+# A private meter profile with no shunt: a supply's own current, unloaded.
+_IDEAL = "\x00supply"
 
 
 @dataclass(frozen=True)
@@ -112,10 +119,6 @@ def load_costs(path) -> dict:
 
 def _power(rd: Reading) -> str:
     return "off" if rd.quantity == "resistance" else "on"
-
-
-def _key(rd: Reading):
-    return (rd.quantity, rd.mode, rd.plus, rd.minus, rd.part, rd.setup, rd.frequency)
 
 
 def candidate_readings(circuit: Circuit, suspects=(), frequencies=None, *, nodes=None,
@@ -287,75 +290,165 @@ def _suggest(circuit, readings, meters, hypotheses, costs, power, top, factors, 
         for x in f:
             if x.ref not in suspects:
                 suspects.append(x.ref)
-    taken = {_key(r) for r in readings}
+    taken = {_same(circuit, r) for r in readings}
     if 4 * len(circuit.parts) > CANDIDATE_LIMIT and suspects:
         near, nparts = near_suspects(circuit, suspects)
         cands = candidate_readings(circuit, suspects, nodes=near, parts=nparts)
     else:
         cands = candidate_readings(circuit, suspects)
-    cands = [c for c in cands if _key(c) not in taken]
+    cands = [c for c in cands if _same(circuit, c) not in taken]
     if not cands or len(kept) < 2:
         return []
-    share = dict(factors or {})
-    nominal = predict(circuit, cands, meters, share=share)
-    board = Board(circuit, cands, meters, share)
-    singles = [(i, f[0]) for i, (f, _) in enumerate(kept) if len(f) == 1]
-    items = [(circuit.part(x.ref), x.mode,
-              None if x.mode != "drift" else np.array([x.value / circuit.part(x.ref).value]))
-             for _, x in singles]
-    mu = np.zeros((len(cands), len(kept)))
-    for (i, _), P in zip(singles, board.predict_many(items)):
-        mu[:, i] = P[0]
-    for i, (f, _) in enumerate(kept):
-        if len(f) == 0:
-            mu[:, i] = nominal.value
-        elif len(f) > 1:
-            mu[:, i] = board.predict_faults(list(f))
-    bad = np.isnan(mu).any(axis=0)
-    # tolerance spread of each candidate on the healthy circuit (linear), rescaled per hypothesis
-    tl = np.array([circuit.part(r).tol_low for r in nominal.params])
-    th = np.array([circuit.part(r).tol_high for r in nominal.params])
-    half = (np.log1p(th) - np.log1p(-tl)) / 2
-    sig0 = np.sqrt((np.nan_to_num(nominal.sensitivity) ** 2) @ (half ** 2 / 3))
-    p0 = np.abs(np.where(np.isfinite(nominal.value), nominal.value, 0.0))
-    with np.errstate(divide="ignore", invalid="ignore"):
-        sc = np.where(p0[:, None] > 0, np.clip(np.abs(np.nan_to_num(mu, posinf=0)) / p0[:, None], 0, 10), 0.0)
-    mu_s = np.zeros_like(mu)
-    sd_s = np.zeros_like(mu)
-    for c, rd in enumerate(cands):
-        meter = meters[rd.meter or "default"]
-        col = np.where(np.isfinite(mu[c]), np.abs(mu[c]), 0.0)
-        um = np.asarray(standard_uncertainty(meter, rd.quantity, rd.mode, col), dtype=float)
-        sd = np.sqrt(um ** 2 + (sc[c] * sig0[c]) ** 2 + (0.01 * col * (p0[c] == 0)) ** 2)
-        mu_s[c] = _scale(rd, meter, mu[c])
-        if rd.quantity == "resistance":
-            r = np.where(np.isfinite(mu[c]), np.maximum(np.abs(mu[c]), 1e-3), np.inf)
-            sd_s[c] = np.where(np.isfinite(r), sd / (r * math.log(10)), 0.02)
-            sd_s[c] = np.maximum(sd_s[c], 0.002)
-        else:
-            sd_s[c] = np.maximum(sd, 1e-12)
+    seen = [r for r in readings if r.value is not None and r.overrange == 0
+            and math.isfinite(r.value)]
+    supplies = [p for p in circuit.parts if p.kind == "voltage-source" and p.current_limit]
+    feeds = [Reading("current", p.waveform, part=p.ref, meter=_IDEAL) for p in supplies]
+    rows = cands + seen + feeds
+    C, M = len(cands), len(seen)
+    meters = dict(meters, **{_IDEAL: replace(meters["default"], current_shunt=0.0)})
+    m = _Model(circuit, rows, meters, kept, factors)
+    mu = m.mu
+    drawn = _undeliverable(supplies, mu[C + M:])
+    bad = np.isnan(mu[:C]).any(axis=0)
+    cands_ok = np.ones(C, dtype=bool)
+    for c, rd in enumerate(cands):   # never a current beyond the meter's range
+        if rd.quantity == "current":
+            cands_ok[c] = not np.any(np.abs(np.nan_to_num(mu[c, ~bad])) > CURRENT_RANGE)
+    mu_s, noise_s, fac, sens_s = m.scaled(C + M)
+    y_obs = np.array([_scale(r, meters[r.meter or "default"], [r.value])[0] for r in seen])
+    mean_s, sd_s = condition_on_taken(mu_s, noise_s, fac, sens_s, m.var,
+                                      np.arange(C, C + M), y_obs)
     probs_eff = np.where(bad, 0.0, probs)
     probs_eff = probs_eff / probs_eff.sum()
-    gain = np.concatenate([expected_information_gain(probs_eff, mu_s[a:a + _CHUNK], sd_s[a:a + _CHUNK])
-                           for a in range(0, len(cands), _CHUNK)])
+    # the worth of a reading, counting only hypotheses the supplies could feed
+    fed = np.where(np.array([k in drawn for k in range(len(kept))]), 0.0, probs_eff)
+    if fed.sum() <= 0:
+        return []
+    gain = np.concatenate([expected_information_gain(fed / fed.sum(), mean_s[a:a + _CHUNK],
+                                                     sd_s[a:a + _CHUNK])
+                           for a in range(0, C, _CHUNK)]) * fed.sum()
+    for c in range(C):   # a reading that repeats one taken, another way, tells nothing new
+        if any(_coincide(mu_s[c], noise_s[c], mu_s[C + t], fed) for t in range(M)
+               if seen[t].quantity == cands[c].quantity):
+            cands_ok[c] = False
+    gain = np.where(cands_ok, gain, 0.0)
     cost = np.array([_cost(rd, power, costs, circuit) for rd in cands])
     score = gain / cost
-    order = np.argsort(-score)
+    # best score first; of equal worth, a reading without the meter in series first
+    order = np.lexsort((np.array([rd.quantity == "current" for rd in cands]), -np.round(score, 9)))
     caution_on = _live_caution(circuit)
-    out = []
-    for c in order[: max(top, 0)]:
-        if gain[c] <= 1e-6:
+    out, listed = [], []
+    for c in order:
+        if len(out) >= max(top, 0) or gain[c] <= 1e-6:
             break
+        if any(_coincide(mean_s[c], sd_s[c], mean_s[o], fed) for o in listed
+               if cands[o].quantity == cands[c].quantity):
+            continue   # the same reading as one listed above (e.g. two parts in series)
+        listed.append(c)
         rd = cands[c]
         pw = _power(rd)
         caution = caution_on if pw == "on" else _off_caution(rd)
         if rd.quantity == "current":
             caution += ("; the meter goes in series: break the circuit with power off first "
                         "(or use a clamp meter), then restore power")
-        out.append(Suggestion(rd, pw, float(score[c]), float(gain[c]), float(cost[c]),
-                              _why(circuit, rd, kept, probs_eff, mu[c], mu_s[c], sd_s[c], power),
-                              caution))
+        why = _why(circuit, rd, kept, fed / fed.sum(), mu[c], mean_s[c], sd_s[c], power)
+        why += _limit_note(circuit, kept, probs_eff, drawn)
+        out.append(Suggestion(rd, pw, float(score[c]), float(gain[c]), float(cost[c]), why, caution))
     return out
+
+
+class _Model:
+    """Predictions of readings under the kept hypotheses, with what their spread needs."""
+
+    def __init__(self, circuit, rows, meters, kept, factors):
+        self.circuit, self.rows, self.meters = circuit, rows, meters
+        share = dict(factors or {})
+        nominal = predict(circuit, rows, meters, share=share)
+        board = Board(circuit, rows, meters, share)
+        singles = [(i, f[0]) for i, (f, _) in enumerate(kept) if len(f) == 1]
+        items = [(circuit.part(x.ref), x.mode,
+                  None if x.mode != "drift" else np.array([x.value / circuit.part(x.ref).value]))
+                 for _, x in singles]
+        mu = np.zeros((len(rows), len(kept)))
+        for (i, _), P in zip(singles, board.predict_many(items)):
+            mu[:, i] = P[0]
+        for i, (f, _) in enumerate(kept):
+            if len(f) == 0:
+                mu[:, i] = nominal.value
+            elif len(f) > 1:
+                mu[:, i] = board.predict_faults(list(f))
+        self.mu = mu
+        self.nominal = nominal
+        # each part's log-value: rectangular inside its tolerance (GUM 4.3.7)
+        tl = np.array([circuit.part(r).tol_low for r in nominal.params])
+        th = np.array([circuit.part(r).tol_high for r in nominal.params])
+        self.var = ((np.log1p(th) - np.log1p(-tl)) / 2) ** 2 / 3
+
+    def scaled(self, n):
+        """The first ``n`` rows on their Gaussian scale: mean, meter noise, tolerance factor, sensitivities."""
+        rows, mu = self.rows[:n], self.mu[:n]
+        S = np.nan_to_num(self.nominal.sensitivity[:n], posinf=0.0, neginf=0.0)
+        p0 = np.abs(np.where(np.isfinite(self.nominal.value[:n]), self.nominal.value[:n], 0.0))
+        with np.errstate(divide="ignore", invalid="ignore"):
+            sc = np.where(p0[:, None] > 0, np.clip(np.abs(np.nan_to_num(mu, posinf=0)) / p0[:, None], 0, 10), 0.0)
+        mu_s, noise, fac, sens = np.zeros_like(mu), np.zeros_like(mu), sc.copy(), S.copy()
+        for c, rd in enumerate(rows):
+            meter = self.meters[rd.meter or "default"]
+            col = np.where(np.isfinite(mu[c]), np.abs(mu[c]), 0.0)
+            um = np.asarray(standard_uncertainty(meter, rd.quantity, rd.mode, col), dtype=float)
+            nz = np.sqrt(um ** 2 + (0.01 * col * (p0[c] == 0)) ** 2)
+            mu_s[c] = _scale(rd, meter, mu[c])
+            if rd.quantity == "resistance":
+                # log10 scale: the tolerance term is relative, the same under every hypothesis
+                r = np.where(np.isfinite(mu[c]), np.maximum(np.abs(mu[c]), 1e-3), np.inf)
+                noise[c] = np.where(np.isfinite(r), np.maximum(nz / (r * math.log(10)), 0.002), 0.02)
+                fac[c] = np.where(np.isfinite(r), 1.0, 0.0)
+                sens[c] = S[c] / (max(p0[c], 1e-3) * math.log(10)) if p0[c] > 0 else 0.0
+            else:
+                noise[c] = np.maximum(nz, 1e-12)
+        return mu_s, noise, fac, sens
+
+
+def _same(circuit, rd):
+    """What a reading measures, so that one written another way is the same reading."""
+    if rd.quantity == "resistance" and rd.setup != "lifted":
+        plus, minus = circuit.part(rd.part).nodes[:2] if rd.part is not None else (rd.plus, rd.minus)
+        return ("resistance", frozenset((plus, minus)))
+    freq = rd.frequency if rd.frequency != circuit.frequency else None
+    if rd.quantity == "voltage":
+        return ("voltage", rd.mode, frozenset((rd.plus, rd.minus)), freq)
+    return (rd.quantity, rd.mode, rd.part, rd.setup, freq)
+
+
+def _coincide(a, na, b, weight):
+    """True when two readings' predictions agree (or are opposite) under every weighted hypothesis."""
+    on = weight > 0
+    tol = 0.1 * na[on]
+    return bool(np.all(np.abs(a[on] - b[on]) <= tol) or np.all(np.abs(a[on] + b[on]) <= tol))
+
+
+def _undeliverable(supplies, currents):
+    """Hypotheses under which a current-limited supply would have to deliver more than its limit.
+
+    Returns a dict: hypothesis index to a list of (source, predicted current).
+    """
+    out = {}
+    for j, p in enumerate(supplies):
+        for k in np.flatnonzero(np.abs(np.nan_to_num(currents[j])) > p.current_limit):
+            out.setdefault(int(k), []).append((p, float(abs(currents[j][k]))))
+    return out
+
+
+def _limit_note(circuit, kept, probs, drawn):
+    notes = []
+    for k in np.argsort(-probs)[:6]:
+        if probs[k] >= 0.01 and int(k) in drawn:
+            for p, amps in drawn[int(k)]:
+                notes.append(f"if {_label(circuit, kept[k][0])}, {p.ref} would have to deliver "
+                             f"{format_value(amps, 'A')}, above its {format_value(p.current_limit, 'A')} "
+                             "limit: the supply would not deliver it (it folds back or trips, or a "
+                             "fuse blows), so that case is not counted here")
+    return ("; " + "; ".join(notes)) if notes else ""
 
 
 def _cost(rd, power, costs, circuit):

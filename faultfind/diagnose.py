@@ -8,14 +8,15 @@ values from the E-series, and the JSON document of cli.md.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
+from scipy.special import ndtri
 
 from .blas import threads_for
-from .engine.ambiguity import groups_from_hypotheses, groups_from_sensitivity, merge_groups
+from .engine.ambiguity import VISIBLE_CHANGE, groups_from_hypotheses, groups_from_sensitivity, merge_groups
 from .engine.estimate import limit_value, map_estimate
-from .engine.hypotheses import DRIFT_RANGE, Evaluator, Hypothesis, rank_with
+from .engine.hypotheses import DRIFT_RANGE, Board, Evaluator, Hypothesis, rank_with
 from .engine.predict import predict
 from .eseries import nearest, series_for_tolerance
 from .io.meters_file import meters_with_default
@@ -96,8 +97,18 @@ def describe_fault(circuit, f) -> str:
         pct = (f.value / p.value - 1.0) * 100.0
         return f"{f.ref} drifted to {format_value(f.value, p.info.unit)} ({pct:+.0f} %)"
     if f.mode == "short" and p.kind == "switch":
-        return f"{f.ref} short (welded contacts)"
+        return f"{f.ref} short (welded contacts)" + (f" (about {format_value(f.value, 'Ω')})" if f.value else "")
+    if f.mode == "short" and f.value:
+        return f"{f.ref} short (about {format_value(f.value, 'Ω')})"
     return f"{f.ref} {f.mode}"
+
+
+def _shown(ev: Evaluator, h: Hypothesis):
+    """The predictions shown for ``h``: the healthy circuit's are the nominal-value
+    predictions, the numbers ``faultfind expect`` and the suggestions show (its
+    score also carries the mean shift of asymmetric log tolerances,
+    docs/estimate.md)."""
+    return ev.pred0 if not h.faults else h.predicted
 
 
 def _explain(ev: Evaluator, h: Hypothesis, healthy: Hypothesis, limit=4):
@@ -105,7 +116,7 @@ def _explain(ev: Evaluator, h: Hypothesis, healthy: Hypothesis, limit=4):
     e = ev.ev
     drop = ev.drop_cols(h.faults)
     z0 = e.residuals(healthy.predicted)
-    zh = e.residuals(h.predicted, drop)
+    zh = e.residuals(h.predicted, drop, ev.weak(h.faults))
     label = " + ".join(describe_fault(ev.circuit, f) for f in h.faults) or "a healthy circuit"
     order = np.argsort(-np.abs(z0))
     n_for = 0
@@ -114,16 +125,20 @@ def _explain(ev: Evaluator, h: Hypothesis, healthy: Hypothesis, limit=4):
         unit = UNITS[rd.quantity]
         shown = "OL" if rd.overrange else _fmt(rd.value, unit)
         if abs(z0[i]) > 3 and abs(zh[i]) <= 2 and n_for < limit:
-            out.append(f"for: {_name(rd)} reads {shown} where {_fmt(healthy.predicted[i], unit)} "
-                       f"is expected; {label} explains it (predicts {_fmt(h.predicted[i], unit)})")
+            out.append(f"for: {_name(rd)} reads {shown} where {_fmt(ev.pred0[i], unit)} "
+                       f"is expected; {label} explains it (predicts {_fmt(_shown(ev, h)[i], unit)})")
             n_for += 1
+    # a reading is "against" when it is off by more than chance allows among this many
+    # readings: 3 standard deviations, raised so that the chance of any one of n readings
+    # passing it is about 1 % (Bonferroni; 3.5 for 20 readings)
+    z_against = max(3.0, float(ndtri(1.0 - 0.005 / max(len(ev.readings), 1))))
     for i in np.argsort(-np.abs(zh)):
         rd = ev.readings[i]
         unit = UNITS[rd.quantity]
         shown = "OL" if rd.overrange else _fmt(rd.value, unit)
-        if abs(zh[i]) > 3 and len(out) < 2 * limit:
+        if abs(zh[i]) > z_against and len(out) < 2 * limit:
             out.append(f"against: {_name(rd)} reads {shown} but {label} predicts "
-                       f"{_fmt(h.predicted[i], unit)}")
+                       f"{_fmt(_shown(ev, h)[i], unit)}")
     for f in h.faults:
         p = ev.circuit.part(f.ref)
         if f.mode == "drift" and f.value and getattr(f, "seen", True):
@@ -135,15 +150,64 @@ def _explain(ev: Evaluator, h: Hypothesis, healthy: Hypothesis, limit=4):
                            f"{format_value(nearest(f.value, series), p.info.unit)} part ({series}): "
                            f"check a wrong value was not fitted; replace with "
                            f"{format_value(p.value, p.info.unit)}")
+    out += _protection(ev, h)
     if not out:
         out.append(f"{label} fits every reading within its uncertainty")
+    return out
+
+
+#: A fault puts a fuse "in practice blown" when its cold resistance would drop
+#: at least this much (V): small cartridge fuses drop about 0.1-0.2 V at their
+#: rated current (from memory), so 0.5 V is about three times the rating.
+FUSE_BLOW_DROP = 0.5
+
+
+def _protection(ev: Evaluator, h: Hypothesis):
+    """Where the fault would in practice blow a fuse or trip a supply (DC only).
+
+    The fault's currents through every fuse and supply, from the healthy
+    factors (an ammeter of negligible shunt), against the fuse's cold
+    resistance (:data:`FUSE_BLOW_DROP`) and the supply's ``current_limit``.
+    """
+    c = ev.circuit
+    if not h.faults:
+        return []
+    parts = [p for p in c.parts if (p.kind == "fuse" or (p.kind == "voltage-source" and p.current_limit))
+             and p.waveform != "ac" and not any(f.ref == p.ref and f.mode == "open" for f in h.faults)]
+    if not parts:
+        return []
+    meter = replace(ev.meters["default"], current_shunt=1e-9)
+    rds = [Reading("current", "dc", part=p.ref) for p in parts]
+    try:
+        key = tuple(p.ref for p in parts)
+        cache = ev.__dict__.setdefault("_protection_boards", {})
+        b = cache.get(key)
+        if b is None:
+            b = cache[key] = Board(c, rds, {"default": meter}, share=None)   # one factorization
+        now = np.abs(b.predict_faults(list(h.faults)))
+        before = np.abs(b.predict_faults([]))
+    except (ValueError, ArithmeticError, np.linalg.LinAlgError):
+        return []
+    out = []
+    for p, i1, i0 in zip(parts, now, before):
+        if not np.isfinite(i1) or i1 <= 2 * i0:
+            continue
+        if p.kind == "fuse" and i1 * p.value >= FUSE_BLOW_DROP:
+            out.append(f"in practice: this fault puts about {_fmt(i1, 'A')} through {p.ref} "
+                       f"({_fmt(i0, 'A')} when healthy), which would blow it; if {p.ref} is found "
+                       f"open, check {', '.join(f.ref for f in h.faults)} before fitting a new one")
+        elif p.kind == "voltage-source" and i1 > p.current_limit:
+            out.append(f"in practice: this fault would draw about {_fmt(i1, 'A')} from {p.ref}, above its "
+                       f"{_fmt(p.current_limit, 'A')} limit: {p.ref} current-limits or trips"
+                       + ("; the predictions shown are those of the supply in current limit"
+                          if p.ref in getattr(h, "limited", ()) else ""))
     return out
 
 
 def _recheck(ev: Evaluator, best: Hypothesis):
     """What to re-check when no hypothesis explains the readings."""
     e = ev.ev
-    z = e.residuals(best.predicted, ev.drop_cols(best.faults))
+    z = e.residuals(best.predicted, ev.drop_cols(best.faults), ev.weak(best.faults))
     out = []
     healthy_all = None
     for i in np.argsort(-np.abs(z))[:3]:
@@ -152,7 +216,7 @@ def _recheck(ev: Evaluator, best: Hypothesis):
         rd = ev.readings[i]
         unit = UNITS[rd.quantity]
         sd = np.sqrt(e.u[i] ** 2 + max(e.T0[i, i], 0))
-        y, p = rd.value, best.predicted[i]
+        y, p = rd.value, _shown(ev, best)[i]
         p_ok = ev.pred0[i] if i < len(ev.pred0) else np.nan
         hints = []
         if y is not None and np.isfinite(p):
@@ -264,20 +328,21 @@ def _diagnose(circuit, readings, meters, top, doubles, advise, costs, power, pro
     shown = []
     for h in listed:
         h2 = Hypothesis(h.faults, h.predicted, h.chi2, h.log_like, h.log_prior, h.log_post,
-                        h.probability / total if total > 0 else 1.0 / len(listed), h.drift_sd, h.exact)
+                        h.probability / total if total > 0 else 1.0 / len(listed), h.drift_sd, h.exact,
+                        h.occam, h.limited)
         shown.append(h2)
     best = ranking.hypotheses[0]
     tick("grouping", None, None)
     with np.errstate(over="ignore"):
         sd = np.sqrt(ev.ev.u ** 2 + np.clip(np.diag(ev.ev.T0), 0, None))
-    groups = groups_from_hypotheses(ranking.hypotheses, sd)
-    sd_s = np.where(np.isfinite(sd) & (sd > 0), sd, np.where(sd > 0, np.finfo(float).max, 1.0))
-    sgroups, unseen = groups_from_sensitivity(list(ev.params), ev.S0, sd_s, ev.ev.var_p)
-    all_groups = merge_groups([set(g) for g in groups] + [set(g) for g in sgroups])
     explanations = [_explain(ev, h, ranking.healthy) for h in ranking.hypotheses[:3]]
-    recheck = _recheck(ev, best) if ranking.verdict == "inconsistent" else []
+    verdict = ranking.verdict
+    if verdict == "fault" and any(line.startswith("against:") for line in explanations[0]):
+        verdict = "inconsistent"   # never headline a finding some reading speaks against
+    all_groups, unseen = _groups(ev, ranking, best, sd, verdict)
+    recheck = _recheck(ev, best) if verdict == "inconsistent" else []
     notes = []
-    if ranking.verdict == "no-fault":
+    if verdict == "no-fault":
         hidden = [h for h in ranking.hypotheses[1:6] if h.faults and h.probability >= 0.05]
         if hidden:
             notes.append("the readings fit a healthy circuit, but they cannot rule out: "
@@ -309,8 +374,46 @@ def _diagnose(circuit, readings, meters, top, doubles, advise, costs, power, pro
     tick("estimating", None, None)
     estimates = _estimates(ev, best)
     tick("done", None, None)
-    return Diagnosis(circuit, readings, ranking.verdict, shown, tail, estimates, all_groups,
+    return Diagnosis(circuit, readings, verdict, shown, tail, estimates, all_groups,
                      unseen, explanations, recheck, notes, suggestions, ev)
+
+
+#: A finding is settled when the verdict is a fault and its hypothesis holds at
+#: least this probability: no ambiguity group then names its parts.
+SETTLED_P = 0.9
+
+
+def _groups(ev: Evaluator, ranking, best: Hypothesis, sd, verdict):
+    """Ambiguity groups and unseen parts, consistent with the finding.
+
+    Hypothesis groups (coinciding predictions) and sensitivity groups; the
+    sensitivities are those of the best hypothesis' circuit (the ones its
+    estimates use), whose faulted parts have a fixed value and are neither
+    grouped nor unseen.  When the finding is settled (:data:`SETTLED_P`),
+    its parts are taken out of every group: the readings and the priors
+    together have told them apart.
+    """
+    groups = groups_from_hypotheses(ranking.hypotheses, sd)
+    sd_s = np.where(np.isfinite(sd) & (sd > 0), sd, np.where(sd > 0, np.finfo(float).max, 1.0))
+    S = ev.S0
+    fixed = {f.ref for f in best.faults}
+    if best.faults:
+        Sf = ev.faulted_sensitivity(best.faults)
+        if Sf is not None:
+            S = np.nan_to_num(Sf, nan=0.0, posinf=0.0, neginf=0.0)
+    sgroups, unseen = groups_from_sensitivity(list(ev.params), S, sd_s, ev.ev.var_p)
+    unseen = [r for r in unseen if r not in fixed]
+    settled = verdict == "fault" and best.probability >= SETTLED_P
+    drop = set(fixed)
+    if settled:
+        # beside a settled finding, only parts a fault would visibly move are worth naming
+        z = np.sqrt(((S / sd_s[:, None]) ** 2).sum(axis=0))
+        drop |= {r for r, zj in zip(ev.params, z) if VISIBLE_CHANGE * zj < 1.0}
+    sgroups = [[r for r in g if r not in drop] for g in sgroups]
+    all_groups = merge_groups([set(g) for g in groups] + [set(g) for g in sgroups])
+    if settled:
+        all_groups = merge_groups([set(g) - fixed for g in all_groups])
+    return all_groups, unseen
 
 
 def _estimates(ev: Evaluator, h: Hypothesis) -> dict:
@@ -330,6 +433,9 @@ def _estimates(ev: Evaluator, h: Hypothesis) -> dict:
             fixed[f.ref] = (f.value, float(lo), float(hi), "drift")
         else:
             v = limit_value(p, f.mode)
+            if f.mode == "short" and f.value and p.kind in ("resistor", "fuse", "switch"):
+                # a short of resistance r across the part: the part reads r in parallel with itself
+                v = f.value if p.kind == "switch" and p.state == "open" else p.value * f.value / (p.value + f.value)
             fixed[f.ref] = (v, v, v, f.mode)
     params = list(ev.params)
     nominal = np.array([circuit.part(r).value for r in params])

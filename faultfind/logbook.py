@@ -25,7 +25,7 @@ class Logbook(_io.Logbook):
     also diagnose a session: :meth:`store_diagnosis`."""
 
     @_locked
-    def store_diagnosis(self, session_id, *, top=5, progress=None) -> StoredDiagnosis:
+    def store_diagnosis(self, session_id, *, top=5, progress=None, priors=None) -> StoredDiagnosis:
         """Diagnose the session's readings (those not struck out) and keep the result.
 
         Parameters
@@ -36,6 +36,8 @@ class Logbook(_io.Logbook):
         progress : callable, optional
             Passed to :func:`faultfind.diagnose.diagnose`: called as
             ``progress(stage, done, total)`` as the diagnosis runs.
+        priors : Priors, optional
+            Fault priors for the ranking (docs/priors.md); default the handbook's.
 
         Returns
         -------
@@ -61,6 +63,6 @@ class Logbook(_io.Logbook):
         logged = [r for r in self._readings(sid) if not r.struck]
         readings = [r.reading for r in logged]
         doc = _clean_json(diagnosis_json(diagnose(circuit, readings, meters, top=top,
-                                                         progress=progress)))
+                                                         progress=progress, priors=priors)))
         # the circuit text it ran on, even if the circuit is revised meanwhile
         return self._add_diagnosis(sid, doc, len(readings), row["circuit_sha256"])

@@ -152,6 +152,15 @@ def _diagnosis_parts(session, circuit):
     return SimpleNamespace(stored=d, doc=doc, stale=stale, hypotheses=hyps)
 
 
+def _priors_text(doc) -> str | None:
+    """``Fault priors learned from ...`` when the diagnosis used learned priors (docs/priors.md)."""
+    pr = doc.get("priors") or {}
+    if not pr or pr.get("source") == "handbook":
+        return None
+    return (f"Fault priors learned from {pr.get('source')} "
+            f"({pr.get('outcomes', 0)} closed session(s)), not the handbook's")
+
+
 def _next_readings(session, doc) -> list[str]:
     """The stored diagnosis' suggestions in words (only while the session is open)."""
     if not session.is_open:
@@ -290,6 +299,8 @@ def markdown_report(session, *, generated_at=None) -> str:
                    f"{format_time(d.created_at)} by faultfind {_md(d.version)}.")
         for s in dp.stale:
             out.append(f"\n> Note: {s}.")
+        if _priors_text(dp.doc):
+            out.append(f"\n{_md(_priors_text(dp.doc))}.")
         out += ["", "| # | hypothesis | probability |", "|---:|---|---:|"]
         for i, text, p in dp.hypotheses:
             out.append(f"| {i} | {_md(text)} | {p * 100:.1f} % |")
@@ -425,6 +436,8 @@ def html_report(session, *, generated_at=None) -> str:
                    f'{d.reading_count} reading(s), diagnosed {e(format_time(d.created_at))} by '
                    f'faultfind {e(d.version)}.</p>')
         out += [f'<p class="warn">Note: {e(s)}.</p>' for s in dp.stale]
+        if _priors_text(dp.doc):
+            out.append(f'<p>{e(_priors_text(dp.doc))}.</p>')
         out.append('<table><tr><th>#</th><th>hypothesis</th><th>probability</th></tr>')
         for i, text, p in dp.hypotheses:
             out.append(f'<tr><td class="num">{i}</td><td>{e(text)}</td><td>'

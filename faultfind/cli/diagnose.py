@@ -68,7 +68,10 @@ def print_report(d) -> None:
     print(f"{len(d.readings)} readings.  Verdict: {head}"
           + (f": {what} ({best.probability * 100:.0f} %)" if d.verdict == "fault" else ""))
     print()
-    print("Findings, most probable first (probabilities over this list):")
+    if d.verdict == "inconsistent":
+        print("Closest explanations; none fits every reading (probabilities over this list):")
+    else:
+        print("Findings, most probable first (probabilities over this list):")
     rows = []
     for i, h in enumerate(d.hypotheses, 1):
         label = " + ".join(describe_fault(c, f) for f in h.faults) or "healthy (no fault)"

@@ -29,6 +29,7 @@ from ..io.circuit_file import load_circuit
 from ..io.logbook import ENV_VAR, Logbook, format_time, resolve_logbook_path
 from ..io.meters_file import load_meters, meters_with_default
 from .output import emit_json, table
+from .priors_args import add_priors_args, priors_from_args, priors_line
 
 __all__ = ["add_parser", "run_drill", "run_summary", "run_delete"]
 
@@ -104,10 +105,11 @@ def run_drill(args) -> int:
     if not args.apprentice.strip():
         raise InputError("name the apprentice", key="--apprentice")
     given = _read_commands(args.commands) if args.commands else None
+    priors = priors_from_args(args)
     if not args.no_log:  # a logbook that cannot be opened is found before the drill starts
         Logbook(args.logbook, create=True).close()
     drill = Drill(circuit, args.apprentice, seed=args.seed, fault=fault, meters=meters,
-                  costs=costs, caution_acknowledged=args.caution_acknowledged)
+                  costs=costs, caution_acknowledged=args.caution_acknowledged, priors=priors)
     out = sys.stderr if args.json else sys.stdout
     print(drill.caution, file=out)
     print(file=out)
@@ -117,6 +119,8 @@ def run_drill(args) -> int:
           "the board is energized, as the unit was found", file=out)
     for note in drill.notes:
         print(f"  note for the trainer: {note}", file=out)
+    if priors is not None:
+        print(f"  {priors_line(priors)}", file=out)
     if drill.acknowledged:
         print("  safety caution acknowledged (--caution-acknowledged)", file=out)
     else:
@@ -293,6 +297,7 @@ def add_parser(sub):
     q.add_argument("--no-log", action="store_true", help="do not save the result to the logbook")
     q.add_argument("--strict", action="store_true",
                    help="stop with exit status 2 at the first command not understood")
+    add_priors_args(q, logbook=False)
     q.set_defaults(run=run_drill)
 
     q = subs.add_parser("summary", parents=[common],

@@ -15,6 +15,7 @@ import sys
 
 from ..errors import InputError
 from ..io.logbook import ENV_VAR
+from .priors_args import add_priors_args, priors_from_args
 
 __all__ = ["add_parser", "run", "needs_terminal"]
 
@@ -34,6 +35,7 @@ def add_parser(sub):
                    help="with --drill: repeatable drill (default: a new one, shown)")
     p.add_argument("--fault", metavar="REF:MODE[:VALUE]",
                    help="with --drill: the trainer's fault (default: drawn at random)")
+    add_priors_args(p, logbook=False)
     p.set_defaults(run=run)
 
 
@@ -64,6 +66,7 @@ def run(args) -> int:
             parse_fault(drill["fault"], loaded)
     if meters is not None:
         load_meters(meters)
+    priors = priors_from_args(args)   # a bad file or scope: exit 2 before the UI opens
     path = resolve_logbook_path(logbook)
     if path.is_dir():
         raise InputError("is a folder, not a logbook file", file=str(path), key="--logbook")
@@ -73,7 +76,7 @@ def run(args) -> int:
                          "work without it", key="ui")
     from ..tui.app import FaultfindApp
 
-    app = FaultfindApp(circuit, logbook=logbook, meters=meters, drill=drill)
+    app = FaultfindApp(circuit, logbook=logbook, meters=meters, drill=drill, priors=priors)
     code = app.run()
     return code or 0
 

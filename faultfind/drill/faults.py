@@ -11,7 +11,7 @@ import numpy as np
 from ..advise import candidate_readings
 from ..engine.meter import spec_limit
 from ..engine.oracle import oracle_readings
-from ..engine.priors import KIND_WEIGHTS, MODE_SHARES
+from ..engine.priors import HANDBOOK
 from ..errors import InputError
 from ..expect import expect
 from ..io.meters_file import meters_with_default
@@ -214,7 +214,7 @@ def _detectable(circuit, fault, meters, probes) -> bool:
     return any(_outside(e, v, meters, rd) for rd, e, v in zip(cands, bands, values))
 
 
-def draw_fault(circuit: Circuit, rng, meters=None) -> DrillFault:
+def draw_fault(circuit: Circuit, rng, meters=None, priors=None) -> DrillFault:
     """One fault from the failure-mode priors that some reading would show.
 
     Parameters
@@ -222,12 +222,15 @@ def draw_fault(circuit: Circuit, rng, meters=None) -> DrillFault:
     circuit : Circuit
     rng : numpy Generator or int
     meters : dict, optional
+    priors : Priors, optional
+        The failure priors to draw from (e.g. learned from a site's outcomes,
+        docs/priors.md); default the handbook's.
 
     Returns
     -------
     DrillFault
-        Part and mode drawn with the weights of :mod:`faultfind.engine.priors`
-        (kind weight times mode share); a drift's value clearly outside the
+        Part and mode drawn with the weights of the priors (kind weight times
+        mode share, :mod:`faultfind.engine.priors`); a drift's value clearly outside the
         tolerance (passive parts x1.5..x5 or /1.5../5 beyond it, fuses and
         contacts x20..x200, supplies 50..80 % of nominal), three significant
         digits.  A fault no candidate reading (node voltages, currents,
@@ -242,8 +245,8 @@ def draw_fault(circuit: Circuit, rng, meters=None) -> DrillFault:
     rng = np.random.default_rng(rng)
     meters = meters_with_default(meters)
     opts = [(p, m) for p in circuit.parts for m in p.fault_modes]
-    w = np.array([KIND_WEIGHTS.get(p.kind, 0.0) * MODE_SHARES.get(p.kind, {}).get(m, 0.0)
-                  for p, m in opts])
+    table = HANDBOOK if priors is None else priors
+    w = np.array([table.weight(p.kind) * table.share(p.kind, m) for p, m in opts])
     probes = _probes(circuit, meters)
     while w.sum() > 0:
         i = int(rng.choice(len(opts), p=w / w.sum()))

@@ -9,7 +9,7 @@ import numpy as np
 from ..advise import candidate_readings
 from ..engine.meter import spec_limit
 from ..engine.hypotheses import rank
-from ..engine.priors import KIND_WEIGHTS, MODE_SHARES, P_HEALTHY
+from ..engine.priors import HANDBOOK
 from ..expect import expect
 from ..units import format_value
 from .faults import DrillFault, _faulted, _outside
@@ -69,21 +69,22 @@ def _score(drill, named: DrillFault) -> DrillResult:
     return DrillResult(**{**partial.__dict__, "explanation": _explain(drill, partial)})
 
 
-def _prior_masses(circuit) -> dict:
-    total = sum(KIND_WEIGHTS.get(p.kind, 0.0) for p in circuit.parts if p.fault_modes)
-    m = {(): P_HEALTHY}
+def _prior_masses(circuit, priors=None) -> dict:
+    table = HANDBOOK if priors is None else priors
+    total = table.total(circuit.parts)
+    m = {(): table.p_healthy}
     for p in circuit.parts:
         for mode in p.fault_modes:
-            share = KIND_WEIGHTS.get(p.kind, 0.0) * MODE_SHARES.get(p.kind, {}).get(mode, 0.0)
-            if share > 0 and total > 0:
-                m[((p.ref, mode),)] = (1 - P_HEALTHY) * share / total
+            mass = table.mass(p, mode, total)
+            if mass > 0:
+                m[((p.ref, mode),)] = mass
     s = sum(m.values())
     return {k: v / s for k, v in m.items()}
 
 
-def _masses(readings, circuit, meters) -> dict:
+def _masses(readings, circuit, meters, priors=None) -> dict:
     out: dict = {}
-    for h in rank(circuit, readings, meters).hypotheses:
+    for h in rank(circuit, readings, meters, priors=priors).hypotheses:
         key = tuple(sorted((f.ref, f.mode) for f in h.faults))
         out[key] = out.get(key, 0.0) + float(h.probability)
     return out
@@ -117,7 +118,9 @@ def _explain(drill, r: DrillResult) -> Explanation:
     c, meters, rds, fault = drill.circuit, drill.meters, drill.readings, r.fault
     bands = expect(c, rds, meters) if rds else []
     fpred = _faulted(c, rds, meters, fault) if rds else np.array([])
-    masses = [_prior_masses(c)] + [_masses(rds[:k + 1], c, meters) for k in range(len(rds))]
+    priors = getattr(drill, "priors", None)
+    masses = [_prior_masses(c, priors)] + [_masses(rds[:k + 1], c, meters, priors)
+                                           for k in range(len(rds))]
     flabel = fault.describe(c)
     notes = []
     for i, (rd, e) in enumerate(zip(rds, bands)):

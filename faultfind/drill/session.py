@@ -86,6 +86,9 @@ class Drill:
         Effort model (keys of :data:`faultfind.advise.DEFAULT_COSTS`).
     caution_acknowledged : bool, optional
         The caution was acknowledged before the drill (``--caution-acknowledged``).
+    priors : Priors, optional
+        Failure priors (learned from a site's outcomes, docs/priors.md) for the
+        hidden fault, the ranking and the advice; default the handbook's.
 
     Attributes
     ----------
@@ -112,7 +115,7 @@ class Drill:
     """
 
     def __init__(self, circuit, apprentice, *, seed=None, fault=None, meters=None, costs=None,
-                 caution_acknowledged=False):
+                 caution_acknowledged=False, priors=None):
         if not isinstance(circuit, Circuit):
             raise InputError(f"expected a Circuit, got {type(circuit).__name__}", key="circuit")
         if not isinstance(apprentice, str) or not apprentice.strip() \
@@ -126,6 +129,7 @@ class Drill:
             raise InputError(f"must be a dict with keys among {', '.join(DEFAULT_COSTS)}",
                              key="costs")
         self.circuit = circuit
+        self.priors = priors
         self.caution = SAFETY_CAUTION + _elv_caution(circuit)
         self.apprentice = apprentice.strip()
         self.seed = int(seed)
@@ -134,7 +138,8 @@ class Drill:
         self.board = draw_board(circuit, np.random.default_rng([self.seed, 1]))
         self.notes = []
         if fault is None:
-            self._fault = draw_fault(circuit, np.random.default_rng([self.seed, 2]), self.meters)
+            self._fault = draw_fault(circuit, np.random.default_rng([self.seed, 2]), self.meters,
+                                     self.priors)
             self.fault_source = "drawn"
         else:
             if isinstance(fault, str):
@@ -310,7 +315,7 @@ class Drill:
             return blocked
         with np.errstate(invalid="ignore", divide="ignore"):
             sug = suggest(self.circuit, self.readings, self.meters, costs=self.costs,
-                          power=self.power, top=1)
+                          power=self.power, top=1, priors=self.priors)
         if not sug:
             return self._add(command, "hint", "faultfind has no reading to suggest: the "
                              "readings so far settle what they can. Give your verdict.")
@@ -497,13 +502,13 @@ class Drill:
         for _ in range(ADVICE_LIMIT):
             with np.errstate(invalid="ignore", divide="ignore"):
                 sug = suggest(self.circuit, readings, self.meters, hypotheses=hyps,
-                              costs=self.costs, power=power, top=1)
+                              costs=self.costs, power=power, top=1, priors=self.priors)
             if not sug:
                 break
             effort += sug[0].cost
             power = sug[0].power
             readings.append(self._simulate(sug[0].reading, taken))
-            rk = rank(self.circuit, readings, self.meters)
+            rk = rank(self.circuit, readings, self.meters, priors=self.priors)
             hyps = [(h.faults, h.probability) for h in rk.hypotheses]
             probs.append(float(rk.hypotheses[0].probability))
             top = tuple((f.ref, f.mode) for f in rk.hypotheses[0].faults)

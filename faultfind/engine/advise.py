@@ -23,7 +23,7 @@ from __future__ import annotations
 import numpy as np
 from scipy.special import logsumexp
 
-__all__ = ["expected_information_gain", "entropy_bits"]
+__all__ = ["expected_information_gain", "entropy_bits", "condition_on_taken"]
 
 _GH_X, _GH_W = np.polynomial.hermite_e.hermegauss(15)   # probabilists' Hermite
 _GH_W = _GH_W / _GH_W.sum()
@@ -78,3 +78,78 @@ def expected_information_gain(prob, mu, sd):
     h = -(post * lpost).sum(axis=3) / np.log(2)          # (C, K_j, Q)
     eh = (h * _GH_W[None, None, :]).sum(axis=2)         # (C, K_j)
     return np.clip(h0 - eh @ prob, 0.0, None)
+
+
+def condition_on_taken(mu, noise, factor, sens, var, taken, observed):
+    """Predictions of candidate readings given the readings already taken.
+
+    Under each hypothesis ``k`` the readings (candidates and those taken) are
+    modelled as ``y = mu[:, k] + factor[:, k] * (sens @ t) + e``: the
+    healthy parts' log-values ``t`` are independent with variances ``var``
+    (their tolerances), shared by every reading of the board, and ``e`` is
+    the meter's own independent error with standard deviation ``noise``.
+    A reading already taken therefore tells something of the tolerances, and
+    a candidate correlated with it (the same node read another way, a node
+    joined to it by a closed contact) is predicted from what was seen: its
+    Gaussian conditional given the observed values (the conditional of a
+    joint Gaussian; e.g. Rasmussen and Williams 2006, "Gaussian processes for
+    machine learning", eq. A.6; from memory).  A reading that repeats one
+    already taken is then predicted at the value seen under every
+    hypothesis, and carries no information.
+
+    Parameters
+    ----------
+    mu : ndarray, shape (R, K)
+        Predicted value of every row under every hypothesis (the candidates
+        first, then the readings taken, on the scale their noise is Gaussian
+        on).
+    noise : ndarray, shape (R, K)
+        Standard deviation of each row's independent error (> 0).
+    factor : ndarray, shape (R, K)
+        Scale of each row's tolerance term under each hypothesis (1 where the
+        healthy sensitivities apply as they are).
+    sens : ndarray, shape (R, P)
+        Sensitivities of the rows to the parts' log-values on the healthy
+        board (on the rows' scale).
+    var : ndarray, shape (P,)
+        Variance of each part's log-value.
+    taken : ndarray of int, shape (M,)
+        Rows that are readings already taken; every other row is a candidate.
+    observed : ndarray, shape (M,)
+        What those readings showed, on the same scale.
+
+    Returns
+    -------
+    mean, sd : ndarray, shape (C, K)
+        Conditional mean and standard deviation of the candidate rows (in
+        row order, taken rows left out) under each hypothesis.
+    """
+    mu = np.asarray(mu, dtype=float)
+    noise = np.asarray(noise, dtype=float)
+    factor = np.asarray(factor, dtype=float)
+    sens = np.asarray(sens, dtype=float)
+    var = np.asarray(var, dtype=float)
+    taken = np.asarray(taken, dtype=int)
+    observed = np.asarray(observed, dtype=float)
+    R, K = mu.shape
+    if noise.shape != (R, K) or factor.shape != (R, K) or sens.shape[0] != R \
+            or var.shape != (sens.shape[1],) or observed.shape != taken.shape:
+        raise ValueError("mu, noise, factor, sens, var, taken, observed: inconsistent shapes")
+    cand = np.setdiff1d(np.arange(R), taken)
+    g_cc = (sens[cand] ** 2) @ var
+    mean = mu[cand].copy()
+    sd2 = factor[cand] ** 2 * g_cc[:, None] + noise[cand] ** 2
+    if taken.size:
+        St = sens[taken] * var[None, :]
+        G_ct = sens[cand] @ St.T                       # (C, M)
+        G_tt = sens[taken] @ St.T                      # (M, M)
+        for k in range(K):
+            ft = factor[taken, k]
+            A = ft[:, None] * G_tt * ft[None, :] + np.diag(noise[taken, k] ** 2)
+            B = factor[cand, k][:, None] * G_ct * ft[None, :]
+            resid = np.nan_to_num(observed - mu[taken, k])
+            X = np.linalg.solve(A, np.column_stack([resid, B.T]))
+            mean[:, k] += B @ X[:, 0]
+            sd2[:, k] -= np.einsum("cm,mc->c", B, X[:, 1:])
+    sd2 = np.maximum(sd2, noise[cand] ** 2)
+    return mean, np.sqrt(sd2)

@@ -20,6 +20,12 @@ then re-scored with their exact sensitivities (see hypotheses.py).
 
 An ``OL`` display is a bound (censored reading): its likelihood is the
 probability that the reading exceeds the meter's top range.
+
+A voltage reading on a node the hypothesis cuts off from every source
+(:mod:`.stray`) is weakly defined: the scoring functions take a ``weak``
+mask, and such a reading's variance gains the stray voltage it shows, up to
+the allowance (:data:`~.stray.STRAY_DC`, :data:`~.stray.STRAY_AC`), at a
+fixed log-likelihood cost (:data:`~.stray.STRAY_PENALTY`) when it is used.
 """
 
 from __future__ import annotations
@@ -31,6 +37,7 @@ from scipy.special import log_ndtr
 from .bands import log_tolerance
 from .estimate import weighted_gram
 from .meter import standard_uncertainty
+from .stray import STRAY_AC, STRAY_DC, STRAY_PENALTY
 
 __all__ = ["Evidence", "GROSS"]
 
@@ -89,6 +96,9 @@ class Evidence:
                 self.u[i] = float(standard_uncertainty(meter, rd.quantity, rd.mode, abs(rd.value)))
             if rd.overrange and rd.overrange < 0:
                 self.top[i] = -np.inf
+        #: stray-voltage allowance of each reading on a cut-off node (voltage readings only)
+        self.stray_max = np.array([(STRAY_AC if rd.mode == "ac" else STRAY_DC) if rd.quantity == "voltage"
+                                   else 0.0 for rd in readings])
         self.pred0 = np.asarray(pred0, dtype=float)
         self.S0 = np.nan_to_num(np.asarray(S0, dtype=float), nan=0.0, posinf=0.0, neginf=0.0)
         centre, half = log_tolerance(tol_low, tol_high)
@@ -111,6 +121,33 @@ class Evidence:
             s = np.abs(pred) / p0
         s = np.where(np.isfinite(s) & (p0 > 0), np.clip(s, 0.0, 10.0), 0.0)
         return s
+
+    def stray(self, P, weak, base=None):
+        """Stray-voltage variances and log-likelihood costs of predictions ``P`` (k, n).
+
+        ``weak`` (k, n) or (n,) marks the readings on cut-off nodes (None:
+        none); ``base`` is each reading's variance without the stray voltage
+        (default: the meter's alone).  A weak numeric reading whose residual
+        exceeds 3 times its base spread gains the excess as stray variance,
+        at most the allowance squared, and pays :data:`~.stray.STRAY_PENALTY`.
+
+        Returns
+        -------
+        var : ndarray (k, n)
+        cost : ndarray (k,)
+            To add to ``-2 log L`` (the log-determinant side).
+        """
+        P = np.atleast_2d(np.asarray(P, dtype=float))
+        if weak is None:
+            return np.zeros(P.shape), np.zeros(P.shape[0])
+        w = np.broadcast_to(np.asarray(weak, dtype=bool), P.shape) & (~self.ol)[None, :] & np.isfinite(P)
+        w &= (self.stray_max > 0)[None, :]
+        base = self.u[None, :] ** 2 if base is None else np.atleast_2d(base)
+        with np.errstate(invalid="ignore"):
+            r2 = np.where(w, (self.y[None, :] - np.where(w, P, 0.0)) ** 2, 0.0)
+        used = w & (r2 > 9.0 * base)      # beyond 3 standard deviations: the allowance is used
+        var = np.where(used, np.minimum(r2 - base, self.stray_max[None, :] ** 2), 0.0)
+        return var, 2.0 * STRAY_PENALTY * used.sum(axis=1)
 
     def tol_cov(self, pred, drop=()):
         """Tolerance covariance of the readings under a hypothesis predicting ``pred``.
@@ -152,16 +189,18 @@ class Evidence:
         drops = [list(drop)] * P.shape[0]
         return self.diag_chi2_rows(P, drops, with_logdet)
 
-    def diag_chi2_rows(self, P, drops, with_logdet=False):
+    def diag_chi2_rows(self, P, drops, with_logdet=False, weak=None):
         """:meth:`diag_chi2` with its own fixed columns for each row (a list per row)."""
         P = np.atleast_2d(P)
-        var = self._row_vars(P, drops)
+        var = self._row_vars(P, drops, weak)
         finP = np.isfinite(P)
         c2 = self._chi2_terms(P, var).sum(axis=1)
         if not with_logdet:
             return c2
         num = (~self.ol)[None, :] & finP
         logdet = np.where(num, np.log(2 * np.pi * np.where(num, var, 1.0)), 0.0).sum(axis=1)
+        if weak is not None:
+            logdet = logdet + self.stray(P, weak, self._row_vars(P, drops))[1]
         return c2, logdet
 
     # ----------------------------------------------------- many rows, full
@@ -216,7 +255,7 @@ class Evidence:
         idx = self._block()[0]
         return self._scales(self.pred0)[idx]
 
-    def chi2_rows(self, P, drops, with_logdet=False, blocks=None, window=None):
+    def chi2_rows(self, P, drops, with_logdet=False, blocks=None, window=None, weak=None):
         """chi-square of many predictions with the full covariance, approximately.
 
         Each row's covariance is taken as the healthy covariance (with the
@@ -243,12 +282,15 @@ class Evidence:
             is more than ``window`` above its block's best by both the kept
             correlations and the diagonal alone is not re-scored exactly (it
             cannot be the minimum).
+        weak : ndarray of bool (k, n), optional
+            Readings on nodes each row's hypothesis cuts off from every
+            source (:meth:`stray`).
         """
         P = np.atleast_2d(np.asarray(P, dtype=float))
         k = P.shape[0]
         blk = self._block()
         if blk is None or k == 0:
-            c2, ld = self.diag_chi2_rows(P, drops, True)
+            c2, ld = self.diag_chi2_rows(P, drops, True, weak)
             return (c2, ld) if with_logdet else c2
         idx, L, logdet0, c0 = blk
         nb = idx.size
@@ -268,6 +310,13 @@ class Evidence:
             sc = np.abs(Pb) / p0
         sc = np.where(np.isfinite(sc) & (p0 > 0), np.clip(sc, 0, 10), 0.0)
         extra = np.where(p0 == 0, (self.rel_floor * np.where(np.isfinite(Pb), Pb, 0.0)) ** 2, 0.0)
+        var_h = self.u[idx] ** 2 + sc ** 2 * Td + extra
+        scost = np.zeros(k)
+        if weak is not None:
+            base = np.zeros(P.shape)
+            base[:, idx] = var_h
+            sv, scost = self.stray(P, np.atleast_2d(weak) & np.isin(np.arange(self.n), idx)[None, :], base)
+            extra = extra + sv[:, idx]
         var_h = self.u[idx] ** 2 + sc ** 2 * Td + extra                      # row's own variances
         cd = np.clip(c0[None, :] - vj[:, None] * s_h ** 2, 1e-300, None)     # healthy-with-drop
         with np.errstate(invalid="ignore"):
@@ -297,7 +346,8 @@ class Evidence:
         far = good & (np.max(w[None, :] * np.abs(sc ** 2 - 1.0), axis=1) > SCALE_OK)
         far |= good & np.any(extra > SCALE_OK * self.u[idx] ** 2, axis=1)
         if far.any() and blocks is not None and window is not None:
-            c2d = self.diag_chi2_rows(P[far], [drops[i] for i in np.flatnonzero(far)])
+            c2d = self.diag_chi2_rows(P[far], [drops[i] for i in np.flatnonzero(far)],
+                                      weak=None if weak is None else np.atleast_2d(weak)[far])
             low = chi2.copy()
             low[far] = np.minimum(chi2[far], c2d)
             blocks = np.asarray(blocks)
@@ -313,11 +363,12 @@ class Evidence:
         rest = np.ones(self.n, dtype=bool)
         rest[idx] = False
         if rest.any():
-            var_r = self._row_vars(P, drops)
+            var_r = self._row_vars(P, drops, weak)
             terms = self._chi2_terms(P, var_r)[:, rest]
             chi2 = chi2 + terms.sum(axis=1)
+        logdet = logdet + scost
         for r in np.flatnonzero(~good):
-            c2, ll = self.score(P[r], drops[r])
+            c2, ll = self.score(P[r], drops[r], None if weak is None else np.atleast_2d(weak)[r])
             chi2[r] = c2
             logdet[r] = -2.0 * ll - c2 if np.isfinite(ll) else np.inf
         chi2 = np.where(np.any(np.isnan(P), axis=1), np.inf, chi2)
@@ -361,7 +412,7 @@ class Evidence:
                         ld[a + q] = float(np.log(var).sum()) + nb * _LOG2PI
         return c2, ld
 
-    def _row_vars(self, P, drops):
+    def _row_vars(self, P, drops, weak=None):
         """Diagonal of each row's covariance (as :meth:`diag_chi2_rows` uses)."""
         k = P.shape[0]
         Tdiag = np.broadcast_to(np.diag(self.T0), (k, self.n)).copy()
@@ -376,7 +427,8 @@ class Evidence:
             sc = np.abs(P) / p0
         sc = np.where(np.isfinite(sc) & (p0 > 0), np.clip(sc, 0, 10), 0.0)
         finP = np.isfinite(P)
-        return self.u ** 2 + sc ** 2 * T + np.where((p0 == 0) & finP, (self.rel_floor * np.where(finP, P, 0)) ** 2, 0)
+        out = self.u ** 2 + sc ** 2 * T + np.where((p0 == 0) & finP, (self.rel_floor * np.where(finP, P, 0)) ** 2, 0)
+        return out + self.stray(P, weak, out)[0] if weak is not None else out
 
     def _chi2_terms(self, P, var):
         P = np.atleast_2d(P)
@@ -401,8 +453,10 @@ class Evidence:
         out = np.where(nanP, np.inf, out)
         return out
 
-    def score(self, pred, drop=()):
+    def score(self, pred, drop=(), weak=None):
         """Full-covariance chi-square and log-likelihood of one prediction.
+
+        ``weak``: readings on cut-off nodes (see :meth:`stray`).
 
         Returns
         -------
@@ -414,6 +468,8 @@ class Evidence:
         if np.isnan(pred).any():
             return np.inf, -np.inf
         T = self.tol_cov(pred, drop)
+        sv, cost = self.stray(pred, weak, np.diag(T) + self.u ** 2)
+        T = T + np.diag(sv[0])
         num = (~self.ol) & np.isfinite(pred)
         chi2 = 0.0
         loglike = 0.0
@@ -436,7 +492,7 @@ class Evidence:
         extra = float(other[rest].sum())
         chi2 += extra
         # gross terms and censored terms enter the likelihood as -chi2/2
-        loglike += -0.5 * extra
+        loglike += -0.5 * extra - 0.5 * float(cost[0])
         return chi2, loglike
 
     def chi2_near(self, P, centre, drop=()):
@@ -463,10 +519,13 @@ class Evidence:
             out += self._chi2_terms(P, var)[:, rest].sum(axis=1)
         return np.where(np.any(np.isnan(P), axis=1), np.inf, out)
 
-    def residuals(self, pred, drop=()):
-        """Standardized residual of each reading (diagonal covariance); 0 for OL consistent."""
+    def residuals(self, pred, drop=(), weak=None):
+        """Standardized residual of each reading (diagonal covariance); 0 for OL consistent.
+
+        ``weak``: readings on cut-off nodes (see :meth:`stray`)."""
         pred = np.asarray(pred, dtype=float)
         var = np.clip(np.diag(self.tol_cov(pred, drop)), 0, None) + self.u ** 2
+        var = var + self.stray(pred, weak, var)[0][0]
         t = self._chi2_terms(pred[None, :], var)[0]
         with np.errstate(invalid="ignore"):
             sign = np.sign(np.where(np.isfinite(pred) & ~self.ol, self.y - pred, 1.0))

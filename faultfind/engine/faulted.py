@@ -27,6 +27,7 @@ from __future__ import annotations
 import numpy as np
 
 from .predict import Stamps, _lifted
+from .shorts import short_admittance
 from .updates import _SING, _at, admittance_of
 
 __all__ = ["faulted_sensitivity"]
@@ -67,8 +68,12 @@ def faulted_sensitivity(board, fault):
         live = g.analysis != "off"
         cols = np.flatnonzero(np.isin(rt, ("v", "br", "ohm")))
         if t.kind == "y":
-            ynew = (g.new_admittance(part, fault.mode) if fault.mode != "drift"
-                    else admittance_of(part, fault.value, g.analysis, g.omega))
+            if fault.mode == "drift":
+                ynew = admittance_of(part, fault.value, g.analysis, g.omega)
+            elif fault.mode == "short" and fault.value:
+                ynew = short_admittance(t.y0, fault.value).item()   # a short of resistance r
+            else:
+                ynew = g.new_admittance(part, fault.mode)
             d = ynew - t.y0
             wt, mt = g.solve_term(t)
             k = _at(wt, t.a, t.b)

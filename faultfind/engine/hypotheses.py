@@ -32,11 +32,16 @@ from scipy.special import logsumexp
 from scipy.stats import chi2 as chi2_dist
 
 from ..errors import SolveError
+from .drifts import DRIFT_RANGE, RESISTOR_FLOOR, SEARCH_WINDOW, SOURCE_RANGE, DriftFits, _occam  # noqa: F401
 from .estimate import weighted_gram
 from .evidence import Evidence
+from .faults import Fault
+from .limits import apply_limits
 from .oracle import oracle_readings
 from .predict import analysis_key, lifted_value, parameters, predict
 from .priors import HANDBOOK
+from .shorts import fit_shorts, lifted_short, short_admittance
+from .stray import weak_readings
 from .updates import Group, admittance_of, batch, single
 
 __all__ = ["Fault", "Hypothesis", "Ranking", "rank", "Board", "Evaluator", "FIT_P", "HEALTHY_P"]
@@ -47,32 +52,13 @@ FIT_P = 1e-3
 #: The healthy circuit explains the readings at this level (1 in 100).
 HEALTHY_P = 1e-2
 
-#: Drift range searched, as a factor of the nominal value (passive parts).
-DRIFT_RANGE = (1e-3, 1e3)
-#: Drift range of sources: a sagging or overshooting supply.
-SOURCE_RANGE = (1e-2, 2.0)
-_GRID = 25
 #: How many of the best single faults are re-scored exactly and paired.
 EXACT_TOP = 4
 PAIR_TOP = 6
 #: Drifts whose log posterior is within this of the leader are refitted on the full score.
 REFIT_WINDOW = 20.0
-#: A drift trial value this far (chi-square) above the best of its part by
-#: every approximation is not scored exactly (it cannot be the best).
-SEARCH_WINDOW = 50.0
 #: How many hypotheses of the first pass are scored with the full covariance.
 FULL_TOP = 40
-
-
-@dataclass(frozen=True)
-class Fault:
-    """One faulted part: ``mode`` is open, short, drift or dead; ``value`` the
-    fitted value (SI) for a drift, else None."""
-
-    ref: str
-    mode: str
-    value: float | None = None
-    seen: bool = True  # False: a drift the readings do not see (its value is unknown)
 
 
 @dataclass
@@ -105,6 +91,8 @@ class Hypothesis:
     drift_sd: float | None = None
     exact: bool = False
     occam: float = 0.0
+    #: supplies predicted in current limit under this hypothesis (:mod:`.limits`)
+    limited: tuple = ()
 
     @property
     def label(self) -> str:
@@ -124,17 +112,6 @@ class Ranking:
     fit_p: dict = field(default_factory=dict)
     doubles_tried: bool = False
     screening: object = None
-
-
-def _occam(sd, spec) -> float:
-    """Log Occam factor of a fitted drift: the posterior width over the prior width.
-
-    ``spec`` is :meth:`Evaluator.drift_range` (search range and tolerance band,
-    in log-value); the prior is uniform over the range outside the band.
-    """
-    lo, hi, blo, bhi = spec
-    span = (hi - lo) - max(0.0, min(hi, bhi) - max(lo, blo))
-    return float(np.log(min(np.sqrt(2 * np.pi) * sd, span) / span))
 
 
 def _display(values, ac_mask):
@@ -183,6 +160,10 @@ class Board:
         self.tol_low = np.array([circuit.part(r).tol_low for r in self.params])
         self.tol_high = np.array([circuit.part(r).tol_high for r in self.params])
 
+    def board_for(self, readings, meters):
+        """A :class:`Board` of the same circuit for other readings (its own factors)."""
+        return Board(self.circuit, readings, meters)
+
     # ---------------------------------------------------------- predictions
     def predict_fault(self, part, mode, factors=None) -> np.ndarray:
         """Displays under one fault; for ``drift``, one row per value factor.
@@ -222,12 +203,14 @@ class Board:
                     if mode == "drift":
                         news = np.broadcast_to(admittance_of(part, part.value * np.asarray(factors, float),
                                                              g.analysis, g.omega), (k,))
+                    elif mode == "short" and factors is not None:   # shorts of resistance r
+                        news = short_admittance(t.y0, factors)
                     else:
                         news = np.array([g.new_admittance(part, mode)])
                     pending.setdefault(k, []).append((h, t, news))
                 elif t.kind == "fallback":
                     for row in range(k):
-                        ov = mode if factors is None else part.value * factors[row]
+                        ov = mode if factors is None or mode == "short" else part.value * factors[row]
                         outs[h][row, idx] = oracle_readings(self.circuit, g.readings, self.meters,
                                                             {part.ref: ov})
                 elif t.kind == "b":
@@ -248,6 +231,8 @@ class Board:
                     continue
                 if mode == "drift":
                     outs[h][:, i] = [lifted_value(part, part.value * f) for f in factors]
+                elif mode == "short" and factors is not None:
+                    outs[h][:, i] = [lifted_short(part, r, base) for r in factors]
                 else:
                     outs[h][:, i] = lifted_value(part, mode if mode in ("open", "short") else None)
         disp = _display(big, self.ac)
@@ -274,6 +259,8 @@ class Board:
                     news.append(0.0 if f.mode == "dead" else t.e0 * f.value / p.value)
                 elif f.mode == "drift":
                     news.append(admittance_of(p, f.value, g.analysis, g.omega))
+                elif f.mode == "short" and f.value:
+                    news.append(short_admittance(t.y0, f.value).item())
                 else:
                     news.append(g.new_admittance(p, f.mode))
                 terms.append(t)
@@ -284,12 +271,17 @@ class Board:
         for i in self.lifted:
             rd = self.readings[i]
             ov = overrides.get(rd.part)
-            out[i] = lifted_value(self.circuit.part(rd.part), ov if ov != "dead" else None)
+            f = next((f for f in faults if f.ref == rd.part), None)
+            if f is not None and f.mode == "short" and f.value:
+                p = self.circuit.part(rd.part)
+                out[i] = lifted_short(p, f.value, lifted_value(p))
+            else:
+                out[i] = lifted_value(self.circuit.part(rd.part), ov if ov != "dead" else None)
         return _display(out, self.ac)
 
 
 
-class Evaluator(Board):
+class Evaluator(Board, DriftFits):
     """A :class:`Board` with the readings' evidence, for scoring hypotheses.
 
     Parameters
@@ -325,9 +317,13 @@ class Evaluator(Board):
     def drop_cols(self, faults):
         return [self.pindex.get(f.ref, -1) for f in faults]
 
+    def weak(self, faults):
+        """Readings on nodes ``faults`` cut off from every source (:mod:`.stray`), or None."""
+        return weak_readings(self, faults)
+
     def make(self, faults, pred, drift_sd=None, occam=0.0):
         lp = self.prior(faults)
-        chi2, ll = self.ev.score(pred, self.drop_cols(faults))
+        chi2, ll = self.ev.score(pred, self.drop_cols(faults), self.weak(faults))
         return Hypothesis(tuple(faults), pred, chi2, ll + occam, lp, lp + ll + occam, drift_sd=drift_sd,
                           occam=occam)
 
@@ -344,6 +340,8 @@ class Evaluator(Board):
         num = (~ev.ol) & np.isfinite(pred)
         if not num.any():
             return h
+        sv, cost = ev.stray(pred, self.weak(h.faults), np.diag(T) + ev.u ** 2)
+        T = T + np.diag(sv[0])
         C = T[np.ix_(num, num)] + np.diag(ev.u[num] ** 2)
         r = ev.y[num] - pred[num]
         try:
@@ -353,7 +351,7 @@ class Evaluator(Board):
         z = solve_triangular(L, r, lower=True, check_finite=False)
         chi2 = float(z @ z)
         logdet = 2.0 * float(np.log(np.diag(L)).sum())
-        ll = -0.5 * (chi2 + logdet + num.sum() * np.log(2 * np.pi))
+        ll = -0.5 * (chi2 + logdet + num.sum() * np.log(2 * np.pi) + float(cost[0]))
         var = np.diag(T) + ev.u ** 2
         rest = ev._chi2_terms(pred[None, :], var)[0][~num].sum()
         chi2 += float(rest)
@@ -396,159 +394,6 @@ class Evaluator(Board):
                 S[:, j] = 0.0
         return S
 
-    # ------------------------------------------------------------- drift fit
-    def drift_range(self, part):
-        lo, hi = np.log(SOURCE_RANGE if part.is_source else DRIFT_RANGE)
-        if part.kind in ("fuse", "switch"):
-            lo = 0.0  # "drift" of a contact or fuse is a high resistance
-        tl, th = part.tol_low, part.tol_high
-        return lo, hi, np.log1p(-min(tl, 0.999)), np.log1p(th)
-
-    def fit_drifts(self, parts):
-        """Best drifted value of each part and its Laplace evidence (batched).
-
-        A grid over the log of the value outside the part's tolerance band,
-        then a parabola through five points around the grid's best, which
-        gives the minimum and the curvature (the drift's standard deviation).
-
-        Returns
-        -------
-        list of (Fault, prediction, sd or None, log Occam factor)
-        """
-        if not parts:
-            return []
-        specs = [self.drift_range(p) for p in parts]
-        grids = []
-        for lo, hi, blo, bhi in specs:
-            g = np.linspace(lo, hi, _GRID)
-            g = np.where((g > blo) & (g < bhi), np.where(g >= (blo + bhi) / 2, bhi, blo), g)
-            grids.append(np.clip(g, lo, hi))
-        P = self.predict_many([(p, "drift", np.exp(g)) for p, g in zip(parts, grids)])
-        stage, flat = [], []
-        allc2 = self._chi2_blocks(parts, P)
-        for p, g, Pp, c2, (lo, hi, blo, bhi) in zip(parts, grids, P, allc2, specs):
-            if not np.isfinite(c2).any():
-                stage.append(None)
-                continue
-            fin = c2[np.isfinite(c2)]
-            if fin.max() - fin.min() < 0.05:
-                stage.append(None)  # the readings do not see this part's value
-                flat.append(p)
-                continue
-            b = int(np.argmin(np.where(np.isfinite(c2), c2, np.inf)))
-            stage.append(np.array([0, 0, g[b], 0, 0], dtype=float))
-        live = [i for i, pts in enumerate(stage) if pts is not None]
-        L = len(live)
-        lo_a, hi_a, blo_a, bhi_a = (np.array([specs[i][k] for i in live]) for k in range(4))
-        rho_a = np.array([stage[i][2] for i in live], dtype=float)
-        step_a = (hi_a - lo_a) / (_GRID - 1)
-        curv_a = np.full(L, np.nan)
-        offs = np.array([-1.0, -0.5, 0.0, 0.5, 1.0])
-        rows = np.arange(L)
-        for shrink in (1.0, 0.15, 0.02):
-            if L == 0:
-                break
-            pts = rho_a[:, None] + (step_a * shrink)[:, None] * offs
-            pts = np.clip(pts, lo_a[:, None], hi_a[:, None])
-            inband = (pts > blo_a[:, None]) & (pts < bhi_a[:, None])
-            edge = np.where(rho_a >= bhi_a, bhi_a, blo_a)[:, None]
-            pts = np.where(inband, edge, pts)
-            P2 = self.predict_many([(parts[i], "drift", np.exp(pts[k])) for k, i in enumerate(live)])
-            cc = np.vstack(self._chi2_blocks([parts[i] for i in live], P2))
-            cc = np.where(np.isfinite(cc), cc, np.inf)
-            best = np.argmin(cc, axis=1)
-            rho_a = pts[rows, best]
-            m = np.clip(best, 1, 3)
-            x0, x1, x2 = pts[rows, m - 1], pts[rows, m], pts[rows, m + 1]
-            y0, y1, y2 = cc[rows, m - 1], cc[rows, m], cc[rows, m + 1]
-            with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-                d1 = (y1 - y0) / (x1 - x0)
-                d2 = (y2 - y1) / (x2 - x1)
-                a = (d2 - d1) / (x2 - x0)
-                vx = 0.5 * (x0 + x1) - d1 / (2 * a)
-            ok = np.isfinite(a) & (a > 0) & np.isfinite(vx) & (x0 < x1) & (x1 < x2)
-            vx = np.clip(np.where(ok, vx, rho_a), np.minimum(x0, x2), np.maximum(x0, x2))
-            vx = np.where((vx > blo_a) & (vx < bhi_a), np.where(rho_a >= bhi_a, bhi_a, blo_a), vx)
-            rho_a = np.where(ok, vx, rho_a)
-            curv_a = np.where(ok, 2 * a, np.where(shrink == 1.0, np.nan, curv_a))
-        rho = {i: float(rho_a[k]) for k, i in enumerate(live)}
-        curv = {i: (float(curv_a[k]) if np.isfinite(curv_a[k]) else None) for k, i in enumerate(live)}
-        finals, info = [], []
-        for i in live:
-            p = parts[i]
-            lo, hi, blo, bhi = specs[i]
-            if curv[i]:
-                sd = float(np.sqrt(2.0 / curv[i]))
-                occam = _occam(sd, specs[i])
-            else:
-                sd, occam = None, 0.0
-            finals.append((p, "drift", np.array([np.exp(rho[i])])))
-            info.append((Fault(p.ref, "drift", float(p.value * np.exp(rho[i]))), sd, occam))
-        for p in flat:  # unseen: the value stays unknown over the whole range; no Occam factor
-            lo, hi, blo, bhi = self.drift_range(p)
-            rho0 = hi if hi > bhi else lo
-            finals.append((p, "drift", np.array([np.exp(rho0)])))
-            info.append((Fault(p.ref, "drift", float(p.value * np.exp(rho0)), seen=False), None, 0.0))
-        P3 = self.predict_many(finals)
-        return [(f, Pp[0], sd, occam) for (f, sd, occam), Pp in zip(info, P3)]
-
-    def _chi2_blocks(self, parts, P):
-        """Diagonal chi-square of each part's block of predictions, in one call."""
-        if not P:
-            return []
-        sizes = [len(x) for x in P]
-        drops = [[self.pindex.get(p.ref, -1)] for p, k in zip(parts, sizes) for _ in range(k)]
-        blocks = np.repeat(np.arange(len(sizes)), sizes)
-        c2 = self.ev.chi2_rows(np.vstack(P), drops, blocks=blocks, window=SEARCH_WINDOW)
-        return np.split(c2, np.cumsum(sizes)[:-1])
-
-    def refit_drift(self, h):
-        """Refine a single drift's value on the full-covariance score.
-
-        Three rounds of five points around the current value (spaced by the
-        drift's standard deviation, then a third and a ninth of it), each
-        closing with a parabola through the best three.
-        """
-        f = h.faults[0]
-        part = self.circuit.part(f.ref)
-        lo, hi, blo, bhi = self.drift_range(part)
-        rho = float(np.log(f.value / part.value))
-        w = h.drift_sd if h.drift_sd else 0.05
-        w = float(np.clip(w, 1e-4, 0.5))
-        drop = self.drop_cols(h.faults)
-        for shrink in (2.0, 0.6, 0.2):
-            pts = rho + w * shrink * np.array([-1.0, -0.5, 0.0, 0.5, 1.0])
-            pts = np.clip(pts, lo, hi)
-            pts = np.where((pts > blo) & (pts < bhi), np.where(rho >= bhi, bhi, blo), pts)
-            P = self.predict_fault(part, "drift", np.exp(pts))
-            c = self.ev.chi2_near(P, P[2], drop)
-            c = np.where(np.isfinite(c), c, np.inf)
-            k = int(np.argmin(c))
-            rho = float(pts[k])
-            m = int(np.clip(k, 1, 3))
-            x, y = pts[m - 1:m + 2], c[m - 1:m + 2]
-            if np.all(np.isfinite(y)) and x[0] < x[1] < x[2]:
-                d1 = (y[1] - y[0]) / (x[1] - x[0])
-                d2 = (y[2] - y[1]) / (x[2] - x[1])
-                a = (d2 - d1) / (x[2] - x[0])
-                if a > 0:
-                    vx = float(np.clip(0.5 * (x[0] + x[1]) - d1 / (2 * a), x[0], x[2]))
-                    if not (blo < vx < bhi):
-                        rho = vx
-                    w = float(np.clip(np.sqrt(2.0 / (2 * a)), 1e-5, 0.5))
-        pred = self.predict_fault(part, "drift", np.array([np.exp(rho)]))[0]
-        fnew = Fault(f.ref, "drift", float(part.value * np.exp(rho)))
-        occam = _occam(w, (lo, hi, blo, bhi))
-        out = self.make([fnew], pred, drift_sd=w, occam=occam)
-        return out if out.log_post >= h.log_post or not np.isfinite(h.log_post) else h
-
-    def occam_of(self, h) -> float:
-        """Log Occam factor of a single drift hypothesis (0 for the other modes)."""
-        f = h.faults[0]
-        if f.mode != "drift" or h.drift_sd is None:
-            return 0.0
-        return _occam(h.drift_sd, self.drift_range(self.circuit.part(f.ref)))
-
     def prior(self, faults):
         """Log prior of a list of faults."""
         table = getattr(self, "priors", HANDBOOK)
@@ -590,22 +435,29 @@ def _first_pass(ev: Evaluator, parts):
     -------
     list of (Hypothesis, log Occam factor)
     """
-    items, drifting = [], []
+    items, drifting, shorting = [], [], []
     for part in parts:
         for mode in part.fault_modes:
             if mode == "drift":
                 drifting.append(part)
+            elif mode == "short":
+                shorting.append(part)
             else:
                 items.append((part, mode, None))
     cands = []  # (Fault, prediction, drift sd, Occam factor)
     for (part, mode, _), P in zip(items, ev.predict_many(items)):
         cands.append((Fault(part.ref, mode), P[0], None, 0.0))
+    for part, (r, pred, occam) in zip(shorting, fit_shorts(ev, shorting)):
+        cands.append((Fault(part.ref, "short", r), pred, None, occam))
     cands += ev.fit_drifts(drifting)
     cands = [c for c in cands if not np.isnan(c[1]).any()]  # no answer: a short across a source
     first = []
     if cands:
+        weak = [ev.weak([c[0]]) for c in cands]
+        W = (np.vstack([np.zeros(ev.n, dtype=bool) if w is None else w for w in weak])
+             if any(w is not None for w in weak) else None)
         c2, logdet = ev.ev.chi2_rows(np.vstack([c[1] for c in cands]),
-                                     [[ev.pindex.get(c[0].ref, -1)] for c in cands], True)
+                                     [[ev.pindex.get(c[0].ref, -1)] for c in cands], True, weak=W)
         for (f, pred, sd, occam), x2, ld in zip(cands, c2, logdet):
             lp = ev.prior([f])
             ll = -0.5 * (float(x2) + float(ld)) + occam
@@ -748,6 +600,8 @@ def rank_with(ev: Evaluator, *, doubles=True, screen=None, progress=None) -> Ran
     for i in range(min(EXACT_TOP, len(hyps))):
         if i == 0 or hyps[i].log_post > lead - REFIT_WINDOW:
             hyps[i] = ev.exact(hyps[i])
+    # supplies with a current limit: a fault drawing more is predicted in current limit
+    hyps[:EXACT_TOP] = apply_limits(ev, hyps[:EXACT_TOP], EXACT_TOP)
     n = ev.n
     fits = lambda h: chi2_dist.sf(h.chi2, max(n - (1 if any(f.mode == "drift" for f in h.faults) else 0), 1))
     hyps.sort(key=lambda h: -h.log_post)
@@ -792,6 +646,10 @@ def _pairs(ev: Evaluator, hyps):
         best.setdefault(f.ref, []).append(f)
         occ[(f.ref, f.mode)] = ev.occam_of(h)
     refs = [h.faults[0].ref for h in singles]
+    # a part whose lifted reading is far off its healthy value is direct evidence: pair it first
+    z = ev.ev.residuals(ev.healthy_prediction())
+    direct = [ev.readings[i].part for i in ev.lifted if abs(z[i]) > 3 and ev.readings[i].part in best]
+    refs = direct + refs
     seen, lead = set(), []
     for r in refs:
         if r not in seen:

@@ -64,6 +64,10 @@ class FaultfindApp(App[int]):
         Run a drill instead of a session (``faultfind ui CIRCUIT --drill``):
         keys ``apprentice`` (required), ``seed`` and ``fault`` (as for
         :class:`faultfind.drill.Drill`).  The drill screen follows the caution.
+    priors : Priors, optional
+        Fault priors learned from outcomes (``--priors`` / ``--scope``,
+        docs/priors.md) for the session's diagnoses, advice and drills;
+        default the handbook's.
     """
 
     CSS_PATH = "app.tcss"
@@ -78,8 +82,10 @@ class FaultfindApp(App[int]):
     ]
 
     def __init__(self, circuit=None, *, logbook=None, meters=None, cases=None, export_dir=None,
-                 drill=None):
+                 drill=None, priors=None):
         super().__init__()
+        #: fault priors for diagnoses and drills (None: the handbook's; docs/priors.md)
+        self.priors = priors
         if drill is not None and (not isinstance(drill, dict) or "apprentice" not in drill
                                   or set(drill) - {"apprentice", "seed", "fault"}):
             raise TypeError("drill: expected a dict with 'apprentice' and optionally 'seed', "

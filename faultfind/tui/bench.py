@@ -110,10 +110,14 @@ class Bench:
     book : faultfind.io.logbook.Logbook
         The open logbook.
     session_id : int
+    priors : Priors, optional
+        Fault priors for the diagnosis and advice (docs/priors.md); default
+        the handbook's.
     """
 
-    def __init__(self, book, session_id: int):
+    def __init__(self, book, session_id: int, priors=None):
         self.book = book
+        self.priors = priors
         self.session_id = session_id
         self.power = "on"  # live until the technician says it is isolated
         self.session = book.get_session(session_id)
@@ -127,7 +131,7 @@ class Bench:
 
     @classmethod
     def start(cls, book, circuit, *, unit, technician="", location="", purpose="repair",
-              meters=None, acknowledged_at=None) -> "Bench":
+              meters=None, acknowledged_at=None, priors=None) -> "Bench":
         """Start a session on ``circuit`` (a file) and record the caution's acknowledgement.
 
         Parameters
@@ -155,16 +159,16 @@ class Bench:
                                purpose=purpose, meters=meters)
         if acknowledged_at is not None:
             book.acknowledge_caution(s.id, at=acknowledged_at)
-        return cls(book, s.id)
+        return cls(book, s.id, priors)
 
     @classmethod
-    def resume(cls, book, session_id: int, *, acknowledged_at=None) -> "Bench":
+    def resume(cls, book, session_id: int, *, acknowledged_at=None, priors=None) -> "Bench":
         """Resume an open session; the caution's acknowledgement is recorded if it
         has none yet.  Raises LogbookError for a closed or missing session."""
         s = book.get_session(session_id)
         if s.ended_at is None and acknowledged_at is not None:
             book.acknowledge_caution(session_id, at=acknowledged_at)
-        return cls(book, session_id)
+        return cls(book, session_id, priors)
 
     # -- state ---------------------------------------------------------------------------
 
@@ -346,7 +350,8 @@ class Bench:
         """
         if progress is not None and not callable(progress):
             raise TypeError(f"progress: must be callable or None, got {type(progress).__name__}")
-        self.stored = self.book.store_diagnosis(self.session_id, top=5, progress=progress)
+        self.stored = self.book.store_diagnosis(self.session_id, top=5, progress=progress,
+                                                priors=self.priors)
         self.refresh()
         self.suggested = list(self.stored.document.get("suggestions", []))
         self.suggested_power = self.implied_power()
@@ -364,7 +369,8 @@ class Bench:
             return self.suggested
         from faultfind.advise import suggest, suggestion_json
 
-        found = suggest(self.circuit, self.readings(), self.meters, power=self.power, top=5)
+        found = suggest(self.circuit, self.readings(), self.meters, power=self.power, top=5,
+                        priors=self.priors)
         self.suggested = [suggestion_json(s) for s in found]
         self.suggested_power = self.power
         return self.suggested

@@ -6,6 +6,7 @@ import argparse
 
 from ...logbook import ENV_VAR, PURPOSES
 from ..log_priors import add_commands as add_priors_commands
+from ..priors_args import add_priors_args
 from .common import _session
 from .queries import (run_show, run_list, run_history, run_export, run_report, run_delete,
                       run_path, run_verify)
@@ -103,6 +104,7 @@ def add_parser(sub):
     q.add_argument("--reason", required=True, help="why, e.g. 'probe on the wrong terminal'")
 
     q = cmd("diagnose", run_diagnose, "diagnose the session's readings and store the result")
+    add_priors_args(q, logbook=False)
     session_arg(q)
     q.add_argument("--top", metavar="K", type=int, default=5, help="hypotheses kept (default 5)")
 

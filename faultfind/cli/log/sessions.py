@@ -11,6 +11,7 @@ from ...errors import FaultfindError, InputError
 from ...logbook import SAFETY_CAUTION, format_time
 from ...report import assess, describe_reading
 from ..output import emit_json, table
+from ..priors_args import priors_from_args, priors_line
 from .common import (_open, _session, _assessed_json, _status_line, _print_readings, _outcome_text,
                      _print_caution)
 from .compact import _FIELD_OPTIONS, _ACK_HINT, parse_compact, compact_of
@@ -124,9 +125,10 @@ def run_diagnose(args) -> int:
     from ...diagnose import describe_fault
     from types import SimpleNamespace
 
+    priors = priors_from_args(args)
     with _open(args) as book:
         sid = _session(book, args.session)
-        d = book.store_diagnosis(sid, top=args.top)
+        d = book.store_diagnosis(sid, top=args.top, priors=priors)
         s = book.get_session(sid)
     if args.json:
         emit_json({"session": sid, "diagnosis": d.to_json()})
@@ -141,6 +143,7 @@ def run_diagnose(args) -> int:
     table(["#", "hypothesis", "probability"], rows, aligns=[">", "<", ">"])
     for note in d.document.get("notes", []) + d.document.get("recheck", []):
         print(f"Note: {note}")
+    print(priors_line(priors))
     suggestions = d.document.get("suggestions") or []
     if suggestions:
         print("Next readings worth taking (log each with the command shown, VALUE as displayed):")

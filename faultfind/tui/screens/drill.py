@@ -97,7 +97,7 @@ class DrillScreen(Screen):
             meters_path = getattr(app, "meters_path", None)
             meters = load_meters(meters_path) if meters_path else None
             drill = Drill(load_circuit(self.circuit_path), self.apprentice, seed=self.seed,
-                          fault=self.fault, meters=meters)
+                          fault=self.fault, meters=meters, priors=getattr(app, "priors", None))
             if getattr(app, "acknowledged_at", None):  # the caution screen was the 'ack'
                 ack = drill.acknowledge(command="ack (safety caution screen)")
             else:

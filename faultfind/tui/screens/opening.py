@@ -196,7 +196,8 @@ class OpeningScreen(Screen):
         try:
             book = app.open_logbook(create=True)
             bench = Bench.start(book, circuit, meters=app.meters_path,
-                                acknowledged_at=app.acknowledged_at, **fields)
+                                acknowledged_at=app.acknowledged_at,
+                                priors=getattr(app, "priors", None), **fields)
         except Exception as exc:  # noqa: BLE001 - shown to the user, nothing started
             app.call_from_thread(self._say, f"✗ {exc}", "bad")
             return
@@ -213,7 +214,8 @@ class OpeningScreen(Screen):
         app = self.app
         try:
             bench = Bench.resume(app.open_logbook(create=False), sid,
-                                 acknowledged_at=app.acknowledged_at)
+                                 acknowledged_at=app.acknowledged_at,
+                                 priors=getattr(app, "priors", None))
         except Exception as exc:  # noqa: BLE001
             app.call_from_thread(self._say, f"✗ {exc}", "bad")
             return

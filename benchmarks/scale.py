@@ -64,7 +64,7 @@ from faultfind.cli.main import main as cli_main  # noqa: E402
 from faultfind.diagnose import diagnose  # noqa: E402
 from faultfind.engine.factor import Factorization  # noqa: E402
 from faultfind.engine.hypotheses import Evaluator, rank_with  # noqa: E402
-from faultfind.engine.hypotheses import _GRID  # noqa: E402
+from faultfind.engine.drifts import _GRID  # noqa: E402
 from faultfind.engine.mna import assemble  # noqa: E402
 from faultfind.engine.predict import predict  # noqa: E402
 from faultfind.io.circuit_file import load_circuit  # noqa: E402

@@ -15,6 +15,42 @@ import numpy as np
 
 from .faults import Fault
 
+
+def parabola_step(pts, cc):
+    """Best of five trial points per row and the vertex of the parabola through
+    the best point and its neighbours.
+
+    Parameters
+    ----------
+    pts, cc : ndarray, shape (L, 5)
+        Trial log-values per row (sorted) and their chi-square (inf where not finite).
+
+    Returns
+    -------
+    best : ndarray, shape (L,)
+        The trial point of least chi-square.
+    vx : ndarray, shape (L,)
+        The parabola's vertex where ``ok``, else ``best``; clipped to its three points.
+    a : ndarray, shape (L,)
+        Half the parabola's curvature (``2 * a`` is d2 chi2 / d x2).
+    ok : ndarray of bool, shape (L,)
+        Where the three points make an upward parabola with a finite vertex.
+    """
+    rows = np.arange(len(pts))
+    i = np.argmin(cc, axis=1)
+    best = pts[rows, i]
+    m = np.clip(i, 1, 3)
+    x0, x1, x2 = pts[rows, m - 1], pts[rows, m], pts[rows, m + 1]
+    y0, y1, y2 = cc[rows, m - 1], cc[rows, m], cc[rows, m + 1]
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        d1 = (y1 - y0) / (x1 - x0)
+        d2 = (y2 - y1) / (x2 - x1)
+        a = (d2 - d1) / (x2 - x0)
+        vx = 0.5 * (x0 + x1) - d1 / (2 * a)
+    ok = np.isfinite(a) & (a > 0) & np.isfinite(vx) & (x0 < x1) & (x1 < x2)
+    vx = np.clip(np.where(ok, vx, best), np.minimum(x0, x2), np.maximum(x0, x2))
+    return best, vx, a, ok
+
 __all__ = ["DRIFT_RANGE", "SOURCE_RANGE", "RESISTOR_FLOOR", "SEARCH_WINDOW", "DriftFits"]
 
 #: Drift range searched, as a factor of the nominal value (passive parts).
@@ -94,7 +130,6 @@ class DriftFits:
         step_a = (hi_a - lo_a) / (_GRID - 1)
         curv_a = np.full(L, np.nan)
         offs = np.array([-1.0, -0.5, 0.0, 0.5, 1.0])
-        rows = np.arange(L)
         for shrink in (1.0, 0.15, 0.02):
             if L == 0:
                 break
@@ -106,18 +141,7 @@ class DriftFits:
             P2 = self.predict_many([(parts[i], "drift", np.exp(pts[k])) for k, i in enumerate(live)])
             cc = np.vstack(self._chi2_blocks([parts[i] for i in live], P2))
             cc = np.where(np.isfinite(cc), cc, np.inf)
-            best = np.argmin(cc, axis=1)
-            rho_a = pts[rows, best]
-            m = np.clip(best, 1, 3)
-            x0, x1, x2 = pts[rows, m - 1], pts[rows, m], pts[rows, m + 1]
-            y0, y1, y2 = cc[rows, m - 1], cc[rows, m], cc[rows, m + 1]
-            with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-                d1 = (y1 - y0) / (x1 - x0)
-                d2 = (y2 - y1) / (x2 - x1)
-                a = (d2 - d1) / (x2 - x0)
-                vx = 0.5 * (x0 + x1) - d1 / (2 * a)
-            ok = np.isfinite(a) & (a > 0) & np.isfinite(vx) & (x0 < x1) & (x1 < x2)
-            vx = np.clip(np.where(ok, vx, rho_a), np.minimum(x0, x2), np.maximum(x0, x2))
+            rho_a, vx, a, ok = parabola_step(pts, cc)
             vx = np.where((vx > blo_a) & (vx < bhi_a), np.where(rho_a >= bhi_a, bhi_a, blo_a), vx)
             rho_a = np.where(ok, vx, rho_a)
             curv_a = np.where(ok, 2 * a, np.where(shrink == 1.0, np.nan, curv_a))

@@ -24,6 +24,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from .drifts import parabola_step
+
 __all__ = ["SHORT_MAX", "SHORT_DECADES", "short_range", "short_admittance", "lifted_short",
            "fit_shorts"]
 
@@ -115,24 +117,13 @@ def fit_shorts(ev, parts):
     step = (hi - lo) / (_GRID - 1)
     curv = np.full(len(live), np.nan)
     offs = np.array([-1.0, -0.5, 0.0, 0.5, 1.0])
-    rows = np.arange(len(live))
     for shrink in (1.0, 0.15, 0.02):
         pts = np.clip(rho[:, None] + (step * shrink)[:, None] * offs, lo[:, None], hi[:, None])
         P2 = ev.predict_many([(parts[i], "short", np.exp(pts[k])) for k, i in enumerate(live)])
         cc = np.vstack(ev._chi2_blocks([parts[i] for i in live], P2))
         cc = np.where(np.isfinite(cc), cc, np.inf)
-        best = np.argmin(cc, axis=1)
-        rho = pts[rows, best]
-        m = np.clip(best, 1, 3)
-        x0, x1, x2 = pts[rows, m - 1], pts[rows, m], pts[rows, m + 1]
-        y0, y1, y2 = cc[rows, m - 1], cc[rows, m], cc[rows, m + 1]
-        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-            d1 = (y1 - y0) / (x1 - x0)
-            d2 = (y2 - y1) / (x2 - x1)
-            a = (d2 - d1) / (x2 - x0)
-            vx = 0.5 * (x0 + x1) - d1 / (2 * a)
-        ok = np.isfinite(a) & (a > 0) & np.isfinite(vx) & (x0 < x1) & (x1 < x2)
-        rho = np.where(ok, np.clip(vx, np.minimum(x0, x2), np.maximum(x0, x2)), rho)
+        rho, vx, a, ok = parabola_step(pts, cc)
+        rho = np.where(ok, vx, rho)
         curv = np.where(ok, 2 * a, curv)
     Pf = ev.predict_many([(parts[i], "short", np.array([np.exp(rho[k])])) for k, i in enumerate(live)])
     for k, i in enumerate(live):

@@ -507,13 +507,11 @@ def _screened_first(ev: Evaluator, parts, healthy, progress=None):
 
     Returns ``(first, Screening)``, or None when the readings cannot be screened.
     """
-    from .screen import line_bounds
-    lb = line_bounds(ev, ev.ev, healthy.predicted)
+    from .screen import board_bounds
+    lb, ll0 = board_bounds(ev)     # for healthy.predicted (shared with the short fit)
     if lb is None:
         return None
     by_ref = {p.ref: p for p in parts}
-    c2, ld = ev.ev.chi2_rows(healthy.predicted[None, :], [[]], True)
-    ll0 = -0.5 * float(c2[0] + ld[0])
     cache = {}
 
     def best_prior(p):

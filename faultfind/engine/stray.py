@@ -106,6 +106,7 @@ class Reach:
         self.g = self.index[circuit.ground]
         self.N = len(nodes)
         ia, ib, src_edge, refs = _edges(circuit, analysis, {}, self.index)
+        self._all = (ia, ib, src_edge, refs)      # every healthy edge, ground ones included
         src = np.zeros(self.N, dtype=bool)
         src[ia[src_edge]] = True
         src[ib[src_edge]] = True
@@ -237,8 +238,18 @@ class Reach:
                 e = self.by_ref.get(ref)
                 if e is not None:
                     keep[e] = False       # a dead current source is an open
-        if any(m == "dead" for _, m in cut):
-            ia, ib, se, _ = _edges(self.circuit, self.analysis, dict(faults), self.index)
+        dead = {r for r, m in cut if m == "dead"}
+        if dead:
+            # a dead source is no source (a dead voltage source stays a wire, a dead
+            # current source is an open, above): the healthy edges without their flags
+            ia, ib, se, refs = self._all
+            if "_pos" not in self.__dict__:
+                self._pos = {r: k for k, r in enumerate(refs)}
+            se = se.copy()
+            for r in dead:
+                k = self._pos.get(r)
+                if k is not None and self.circuit.part(r).is_source:
+                    se[k] = False
             src[:] = False
             src[ia[se]] = True
             src[ib[se]] = True

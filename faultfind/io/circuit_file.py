@@ -308,7 +308,7 @@ class _Reader:
         if "kind" not in table:
             fail("missing 'kind' (one of " + ", ".join(KINDS) + ")", "kind")
         kind = table["kind"]
-        if not isinstance(kind, str) or kind not in KINDS:
+        if not isinstance(kind, str) or kind not in _ALLOWED:
             fail(f"unknown kind {_show(kind)}{_did_you_mean(kind, KINDS)}; the kinds are "
                  + ", ".join(KINDS), "kind")
         info = KINDS[kind]

@@ -46,7 +46,7 @@ from scipy.sparse.linalg import splu
 
 from ..errors import ConvergenceError
 from ..model import SEMICONDUCTORS
-from .junctions import Element, critical_voltage, device, law, limit
+from .junctions import ARG_MAX, Element, critical_voltage, device, law, limit
 from .mna import Network, assemble
 
 __all__ = ["System", "OperatingPoint", "operating_point", "ConvergenceError",
@@ -60,6 +60,9 @@ MAXITER = 150
 DAMP_AFTER = 60
 #: gmin stepping: conductances from every node to the reference, siemens.
 GMIN_STEPS = tuple(10.0 ** -k for k in range(2, 13))
+#: A probe shunt below this (ohms) is a zero-volt branch: a conductance of a
+#: million siemens beside milli-siemens would swamp the solution in round-off.
+MIN_SHUNT = 1e-6
 #: Source stepping: the smallest fraction of a step before giving up.
 MIN_SOURCE_STEP = 1e-3
 
@@ -115,7 +118,8 @@ class System:
     probe : (str, float), optional
         (part ref, shunt ohms): a current probe in the lead of that
         semiconductor (the anode of a two-terminal part, a transistor's
-        collector): a conductance ``1/ohms``, or a zero-volt branch for 0.
+        collector): a conductance ``1/ohms``, or a zero-volt branch below
+        :data:`MIN_SHUNT`.
         :attr:`probe_u` then reads the current through it (into the part).
     source : (str, str, float, float), optional
         (plus, minus, current, knee voltage): the meter's test source for a
@@ -185,7 +189,7 @@ class System:
                         if roles[r2] == outer and (r2 == role or (r2 == "j" and role == "a")):
                             roles[r2] = inner
                     u = {}
-                    if probe[1] > 0:
+                    if probe[1] > MIN_SHUNT:
                         cond(outer, inner, 1.0 / probe[1])
                         u = {outer: 1.0 / probe[1], inner: -1.0 / probe[1]}
                     else:
@@ -213,7 +217,7 @@ class System:
             plus, minus, cur, voc = source
             ip, im = idx[plus], idx[minus]
             clamp = Element("clamp", "+", "-", float(np.log(cur) - voc / self.CLAMP_NVT),
-                            self.CLAMP_NVT, (("+", 1.0), ("-", -1.0)))
+                            self.CLAMP_NVT, (("+", 1.0), ("-", -1.0)), 0.0, float(voc))
             self._src = (idx[plus], idx[minus], cur, voc)
             els.append(("__meter__", clamp, {"+": ip, "-": im}))
             b_extra = {ip: cur, im: -cur}
@@ -248,7 +252,9 @@ class System:
         self.log_is = np.array([el.log_is for _, el, _ in els], dtype=float)
         self.nvt = np.array([el.nvt for _, el, _ in els], dtype=float)
         self.dlog_is = np.array([el.dlog_is for _, el, _ in els], dtype=float)
-        self.vcrit = critical_voltage(self.log_is, self.nvt) if ne else np.zeros(0)
+        self.voff = np.array([el.voff for _, el, _ in els], dtype=float)
+        self.vcrit = (critical_voltage(self.log_is + self.voff / self.nvt, self.nvt)
+                      if ne else np.zeros(0))
         pindex = pindex or {}
         self.par = np.array([pindex.get(ref, -1) if d != 0 else -1
                              for (ref, _, _), d in zip(els, self.dlog_is)], dtype=np.int64)
@@ -267,7 +273,8 @@ class System:
             if k >= 0:
                 self.b[k] += sgn * (current - cur)
         self.log_is[-1] = np.log(current) - voc / self.CLAMP_NVT
-        self.vcrit[-1] = critical_voltage(self.log_is[-1], self.nvt[-1])
+        self.voff[-1] = voc
+        self.vcrit[-1] = critical_voltage(np.log(current), self.nvt[-1])
         self._src = (ip, im, current, voc)
 
     # ------------------------------------------------------------------ matrix
@@ -337,6 +344,7 @@ class System:
 
     # ------------------------------------------------------------------ Newton
     def _initial(self, warm):
+        """Forward junctions start at their critical voltage (as SPICE), the rest at 0 V."""
         v = np.where(np.array([k[1] == "forward" for k in self.keys], dtype=bool),
                      self.vcrit, 0.0) if self.keys else np.zeros(0)
         v = np.array(v, dtype=float)
@@ -364,7 +372,8 @@ class System:
             if not np.all(np.isfinite(x)):
                 return None, v, it, False, np.ones(len(v), dtype=bool)
             vraw = self.control(x)
-            vnew, lim = limit(vraw, v, self.nvt, self.vcrit)
+            vnew, lim = limit(vraw - self.voff, v - self.voff, self.nvt, self.vcrit)
+            vnew = vnew + self.voff
             bad = lim | (np.abs(vraw - v) > VTOL)
             if not bad.any():
                 return x, v, it, True, bad
@@ -397,7 +406,7 @@ class System:
         x, v, it, ok, bad = self._newton(v0, b)
         total += it
         if ok:
-            return OperatingPoint(x, v, self.keys, total, "newton")
+            return self._checked(OperatingPoint(x, v, self.keys, total, "newton"))
         worst = bad.copy()
         # gmin stepping
         vg = v0
@@ -412,7 +421,7 @@ class System:
             x, v, it, ok, bad = self._newton(vg, b)
             total += it
             if ok:
-                return OperatingPoint(x, v, self.keys, total, "gmin stepping")
+                return self._checked(OperatingPoint(x, v, self.keys, total, "gmin stepping"))
         worst |= bad
         # source stepping
         scale, step = 0.0, 0.1
@@ -430,7 +439,7 @@ class System:
                     worst |= bad
                     break
         else:
-            return OperatingPoint(x, vs, self.keys, total, "source stepping")
+            return self._checked(OperatingPoint(x, vs, self.keys, total, "source stepping"))
         refs = sorted({self.refs[k] for k in np.flatnonzero(worst)} - {"__meter__"})
         if not refs:
             refs = sorted(set(self.refs) - {"__meter__"})
@@ -439,6 +448,19 @@ class System:
             "all failed); the junctions of " + ", ".join(refs) + " did not settle: check how "
             "they are wired (a junction straight across a supply, a transistor reversed)",
             parts=refs)
+
+    def _checked(self, op):
+        """Refuse an operating point with a junction past 1 kA (its law's tangent continuation)."""
+        if len(op.v):
+            over = op.v / self.nvt + self.log_is > ARG_MAX
+            if over.any():
+                refs = sorted({self.refs[k] for k in np.flatnonzero(over)} - {"__meter__"})
+                if refs:
+                    raise ConvergenceError(
+                        "no physical DC operating point: the junctions of " + ", ".join(refs)
+                        + " would carry more than 1 kA (a junction straight across a supply "
+                        "or a source with nothing to limit its current?)", parts=refs)
+        return op
 
     # ------------------------------------------------------------------ linearization
     def jacobian(self, op: OperatingPoint):

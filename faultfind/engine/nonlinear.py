@@ -38,6 +38,7 @@ Linear circuits never come here (``Circuit.is_nonlinear`` is false).
 
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass
 
 import numpy as np
@@ -382,7 +383,8 @@ class System:
             v = vnew
         return x, v, maxiter, False, bad
 
-    def solve(self, warm=None, b=None) -> OperatingPoint:
+    def solve(self, warm=None, b=None, maxiter=MAXITER,
+              methods=("newton", "gmin", "source")) -> OperatingPoint:
         """The operating point (see the module docstring for the method).
 
         Parameters
@@ -391,6 +393,12 @@ class System:
             Element voltages to start from.
         b : ndarray, optional
             A right-hand side of the system's size instead of the circuit's own.
+        maxiter : int, optional
+            Newton iterations per attempt (plain Newton, and each gmin or
+            source step).
+        methods : tuple of str, optional
+            The strategies to try, in this order: "newton", "gmin" (gmin
+            stepping), "source" (source stepping).
 
         Raises
         ------
@@ -401,51 +409,59 @@ class System:
         if self.analysis == "ac":
             raise ValueError("analysis: an AC system is solved about a DC operating point "
                              "(small_signal), not by Newton")
+        unknown = set(methods) - {"newton", "gmin", "source"}
+        if unknown:
+            raise ValueError(f"methods: unknown {sorted(unknown)}")
         v0 = self._initial(warm)
         total = 0
-        x, v, it, ok, bad = self._newton(v0, b)
-        total += it
-        if ok:
-            return self._checked(OperatingPoint(x, v, self.keys, total, "newton"))
-        worst = bad.copy()
-        # gmin stepping
-        vg = v0
-        ok_g = True
-        for gm in GMIN_STEPS:
-            x, vg2, it, ok_g, bad = self._newton(vg, b, gmin=gm)
-            total += it
-            if not ok_g:
-                break
-            vg = vg2
-        if ok_g:
-            x, v, it, ok, bad = self._newton(vg, b)
+        worst = np.zeros(len(v0), dtype=bool)
+        if "newton" in methods:
+            x, v, it, ok, bad = self._newton(v0, b, maxiter=maxiter)
             total += it
             if ok:
-                return self._checked(OperatingPoint(x, v, self.keys, total, "gmin stepping"))
-        worst |= bad
-        # source stepping
-        scale, step = 0.0, 0.1
-        vs = self._initial(None)
-        while scale < 1.0:
-            trial = min(1.0, scale + step)
-            x, vs2, it, ok, bad = self._newton(vs, b * trial)
-            total += it
-            if ok:
-                scale, vs = trial, vs2
-                step = min(step * 2.0, 0.25)
-            else:
-                step /= 2.0
-                if step < MIN_SOURCE_STEP:
-                    worst |= bad
+                return self._checked(OperatingPoint(x, v, self.keys, total, "newton"))
+            worst |= bad
+        if "gmin" in methods:
+            # gmin stepping: from a heavily loaded network down to none, each step warm
+            vg, ok_g = v0, True
+            for gm in GMIN_STEPS:
+                x, vg2, it, ok_g, bad = self._newton(vg, b, gmin=gm, maxiter=maxiter)
+                total += it
+                if not ok_g:
                     break
-        else:
-            return self._checked(OperatingPoint(x, vs, self.keys, total, "source stepping"))
+                vg = vg2
+            if ok_g:
+                x, v, it, ok, bad = self._newton(vg, b, maxiter=maxiter)
+                total += it
+                if ok:
+                    return self._checked(OperatingPoint(x, v, self.keys, total, "gmin stepping"))
+            worst |= bad
+        if "source" in methods:
+            # source stepping: every source ramped from 0, the step halved when one fails
+            scale, step = 0.0, 0.1
+            vs = self._initial(None)
+            while True:
+                trial = min(1.0, scale + step)
+                x, vs2, it, ok, bad = self._newton(vs, b * trial, maxiter=maxiter)
+                total += it
+                if ok:
+                    scale, vs = trial, vs2
+                    if scale >= 1.0:
+                        return self._checked(OperatingPoint(x, vs, self.keys, total,
+                                                            "source stepping"))
+                    step = min(step * 2.0, 0.25)
+                else:
+                    step /= 2.0
+                    if step < MIN_SOURCE_STEP:
+                        worst |= bad
+                        break
         refs = sorted({self.refs[k] for k in np.flatnonzero(worst)} - {"__meter__"})
         if not refs:
             refs = sorted(set(self.refs) - {"__meter__"})
+        refs = sorted(refs, key=_natural)
         raise ConvergenceError(
             "no DC operating point found (Newton's method, gmin stepping and source stepping "
-            "all failed); the junctions of " + ", ".join(refs) + " did not settle: check how "
+            "all failed); the junctions of " + _names(refs) + " did not settle: check how "
             "they are wired (a junction straight across a supply, a transistor reversed)",
             parts=refs)
 
@@ -454,10 +470,11 @@ class System:
         if len(op.v):
             over = op.v / self.nvt + self.log_is > ARG_MAX
             if over.any():
-                refs = sorted({self.refs[k] for k in np.flatnonzero(over)} - {"__meter__"})
+                refs = sorted({self.refs[k] for k in np.flatnonzero(over)} - {"__meter__"},
+                              key=_natural)
                 if refs:
                     raise ConvergenceError(
-                        "no physical DC operating point: the junctions of " + ", ".join(refs)
+                        "no physical DC operating point: the junctions of " + _names(refs)
                         + " would carry more than 1 kA (a junction straight across a supply "
                         "or a source with nothing to limit its current?)", parts=refs)
         return op
@@ -482,6 +499,18 @@ class System:
         if self.probe_u is not None:
             return sum(c * x[k] for k, c in self.probe_u.items())
         raise ValueError("part_current: the system has no probe")
+
+
+def _natural(ref):
+    """Sort key: D2 before D10."""
+    return [int(t) if t.isdigit() else t for t in re.split(r"(\d+)", ref)]
+
+
+def _names(refs, most=8):
+    """``D1, D2, ... and 12 more`` (parts in natural order)."""
+    refs = sorted(refs, key=_natural)
+    text = ", ".join(refs[:most])
+    return text + (f" and {len(refs) - most} more" if len(refs) > most else "")
 
 
 def operating_point(circuit, overrides=None, warm=None, floating=False) -> tuple:

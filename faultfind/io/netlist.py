@@ -617,6 +617,9 @@ def _notes(source: str, reader: _Reader, kinds) -> str:
     defaults = ", ".join(f"{k} {_percent(KINDS[k].default_tolerance)}" for k in kinds)
     lines.append("Tolerances are not in a netlist: every part has its kind's default "
                  f"({defaults}); replace them with the parts' real tolerances.")
+    if any(p.is_semiconductor for p in reader.parts):
+        lines.append("Diode and transistor values were worked out from their .model cards "
+                     "at 25 °C: forward or zener voltage at the test current, gain and vbe.")
     if any(p.is_source for p in reader.parts):
         lines.append('Sources are off_state = "open" (what an ohmmeter sees with power off); '
                      'set "short" for a transformer winding or a generator output.')

@@ -584,11 +584,11 @@ class BenchScreen(Screen):
                                           where=f"session {self.bench.session_id}"),
                              lambda _: self._circuit_edited(before))
 
-    def _apply_circuit(self, text: str) -> None:
+    def _apply_circuit(self, text: str, path: str | None = None) -> None:
         """The editor's save, in its worker: the circuit's next version, never while a
-        diagnosis of the old one is being stored."""
+        diagnosis of the old one is being stored; ``path``: the file it was also saved to."""
         with self._analysis_lock:
-            self.bench.revise_circuit(text)
+            self.bench.revise_circuit(text, name=path)
 
     def _circuit_edited(self, before: str) -> None:
         if self.bench.session.circuit_sha256 == before:

@@ -220,6 +220,12 @@ class BenchScreen(Screen):
 
         used, changed = self.bench.stored_circuit()
         label = used.short if used is not None else version_label(None, None)
+        doc = self._doc()
+        priors = (doc or {}).get("priors") or {}
+        if priors.get("source", "handbook") != "handbook":
+            # learned priors order the findings: say whose (docs/priors.md)
+            label += (f" with priors from {priors['source']} "
+                      f"({priors.get('outcomes', 0)} outcomes)")
         if not changed:
             return tag("muted", f"diagnosed on circuit {label}")
         now = self.bench.circuit_version()

@@ -70,8 +70,9 @@ class EditorScreen(Screen):
     ----------
     draft : CircuitDraft
     apply : callable, optional
-        Called in a worker thread with the saved text before the file is
-        written (the bench makes it the session's circuit); an
+        Called in a worker thread as ``apply(text, path)`` with the saved
+        text and the file it is about to be written to (None: no file) before
+        the file is written (the bench makes it the session's circuit); an
         :class:`~faultfind.errors.InputError` it raises is shown and nothing
         is saved.
     where : str, optional
@@ -476,9 +477,11 @@ class EditorScreen(Screen):
         draft = self.draft
         try:
             text = draft.saved_text()
+            path = draft.path.strip()
             if self.apply is not None:
-                self.apply(text)
-            if draft.path.strip():
+                # the session's next version; a file named too becomes its circuit name
+                self.apply(text, path or None)
+            if path:
                 draft.save()
             else:
                 draft.mark_saved(text)

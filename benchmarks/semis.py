@@ -30,12 +30,13 @@ from pathlib import Path
 
 import numpy as np
 
-from faultfind.engine.nonlinear import System
-from faultfind.engine.predict import predict
-from faultfind.io.meters_file import meters_with_default
-from faultfind.model import Circuit, Part, Reading
-
 ROOT = Path(__file__).resolve().parents[1]
+sys.path.insert(0, str(ROOT))     # this checkout's faultfind, not an installed one
+
+from faultfind.engine.nonlinear import System  # noqa: E402
+from faultfind.engine.predict import predict  # noqa: E402
+from faultfind.io.meters_file import meters_with_default  # noqa: E402
+from faultfind.model import Circuit, Part, Reading  # noqa: E402
 
 
 def board(seed=0):

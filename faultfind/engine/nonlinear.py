@@ -286,6 +286,24 @@ class System:
         self.vcrit[-1] = critical_voltage(np.log(current), self.nvt[-1])
         self._src = (ip, im, current, voc)
 
+    def move_source(self, plus, minus, current, voc):
+        """Put the meter source between other probes (a power-off system built with one)."""
+        ip, im, cur, _ = self._src
+        for k, sgn in ((ip, 1.0), (im, -1.0)):
+            if k >= 0:
+                self.b[k] -= sgn * cur
+        ip, im = self.net.node_index[plus], self.net.node_index[minus]
+        for k, sgn in ((ip, 1.0), (im, -1.0)):
+            if k >= 0:
+                self.b[k] += sgn * cur
+        self.p[-1], self.q[-1] = ip, im
+        self.out[-1, :2] = (ip, im)
+        self.w[-1, :2] = (1.0 if ip >= 0 else 0.0, -1.0 if im >= 0 else 0.0)
+        self._src = (ip, im, cur, voc)
+        self._J = None
+        self._pattern()
+        self.set_source(current, voc)
+
     # ------------------------------------------------------------------ matrix
     def _pattern(self):
         """Sparsity pattern of linear part + element stamps + node diagonal, built once."""

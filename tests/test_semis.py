@@ -466,3 +466,15 @@ def test_a_diode_test_into_a_base_with_its_emitter_open_reads_OL():
     p = predict(c, rd, METERS, {"Q1": "base-emitter-open"}).value
     assert p[0] == np.inf and p[1] == np.inf
     assert 0.4 < p[2] < 0.6       # the flyback diode still reads (its own section)
+
+
+def test_the_command_line_names_file_line_and_part_of_an_impossible_board(tmp_path, capsys):
+    from faultfind.cli.main import main
+    f = tmp_path / "bad.toml"
+    f.write_text('format = 1\ntitle = "bad"\nground = "0V"\n\n[[part]]\nref = "PS1"\n'
+                 'kind = "voltage-source"\nnodes = ["+24V", "0V"]\nvalue = "24 V"\n\n'
+                 '[[part]]\nref = "D3"\nkind = "diode"\nnodes = ["+24V", "0V"]\nvalue = "0.65 V"\n',
+                 encoding="utf-8")
+    assert main(["expect", str(f)]) == 2
+    err = capsys.readouterr().err
+    assert f"{f}:11: part D3:" in err and "Traceback" not in err

@@ -498,7 +498,16 @@ class System:
             "no DC operating point found (Newton's method, gmin stepping and source stepping "
             "all failed); the junctions of " + _names(refs) + " did not settle: check how "
             "they are wired (a junction straight across a supply, a transistor reversed)",
-            parts=refs)
+            parts=refs, **self._place(refs))
+
+    def _place(self, refs):
+        """The circuit file and the first named part's line, for the error."""
+        line = None
+        for r in refs:
+            if self.circuit.has_part(r):
+                line = self.circuit.part(r).line
+                break
+        return {"file": self.circuit.source, "line": line}
 
     def _checked(self, op):
         """Refuse an operating point with a junction past 1 kA (its law's tangent continuation)."""
@@ -511,7 +520,8 @@ class System:
                     raise ConvergenceError(
                         "no physical DC operating point: the junctions of " + _names(refs)
                         + " would carry more than 1 kA (a junction straight across a supply "
-                        "or a source with nothing to limit its current?)", parts=refs)
+                        "or a source with nothing to limit its current?)", parts=refs,
+                        **self._place(refs))
         return op
 
     # ------------------------------------------------------------------ linearization

@@ -79,7 +79,7 @@ def simulate_readings(circuit: Circuit, readings, meters: dict, faults=(), rng=N
         meter = meters[rd.meter or "default"]
         if np.isnan(t):
             t = 0.0
-        if rd.quantity == "resistance":
+        if rd.quantity in ("resistance", "diode-test"):
             x = float(abs(t.real)) if np.isfinite(t) else np.inf
         elif rd.mode == "ac":
             x = float(abs(t))

@@ -87,7 +87,8 @@ class Evidence:
             meter = meters[rd.meter or "default"]
             if rd.overrange:
                 self.ol[i] = True
-                top = meter.max_resistance if rd.quantity == "resistance" else TOP_RANGE[rd.quantity]
+                top = {"resistance": meter.max_resistance,
+                       "diode-test": meter.diode_test_max}.get(rd.quantity) or TOP_RANGE[rd.quantity]
                 self.top[i] = top
                 self.y[i] = np.nan
                 self.u[i] = float(standard_uncertainty(meter, rd.quantity, rd.mode, top))

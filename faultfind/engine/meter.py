@@ -68,7 +68,7 @@ def _check_quantity(quantity) -> str:
 
 
 def _check_mode(quantity: str, mode) -> str | None:
-    if quantity == "resistance":
+    if quantity in ("resistance", "diode-test"):
         return None
     if mode is None:
         return "dc"
@@ -331,8 +331,10 @@ def overrange(profile, quantity, value):
     -------
     bool or ndarray of bool
         Resistance: ``value > profile.max_resistance`` (so ``inf`` is over
-        range).  Voltage and current: always False (version 1 models no top
-        range for them).
+        range).  Diode test: ``value > profile.diode_test_max`` (a reversed
+        or open junction develops the open-circuit voltage, above the top of
+        the display; formats.md section 4).  Voltage and current: always
+        False (version 1 models no top range for them).
 
     Raises
     ------
@@ -344,6 +346,8 @@ def overrange(profile, quantity, value):
     arr = _as_array(value, "value", allow_inf=True)
     if quantity == "resistance":
         out = arr > profile.max_resistance
+    elif quantity == "diode-test":
+        out = arr > profile.diode_test_max
     else:
         out = np.zeros(arr.shape, dtype=bool)
     return bool(out) if arr.ndim == 0 else out
@@ -385,7 +389,8 @@ def simulate(profile, quantity, mode, true_value, rng=None):
     r / 2`` with ``r`` the display's resolution.  Resistance shows ``OL``
     when the true value is over range (:func:`overrange`) or when the drawn
     value lands above ``max_resistance``; a resistance display never goes
-    below zero (an ohmmeter shows 0 for a dead short).
+    below zero (an ohmmeter shows 0 for a dead short).  A diode test does the
+    same with ``diode_test_max`` (``inf``: a reversed or open junction).
     """
     profile = _check_profile(profile)
     quantity = _check_quantity(quantity)
@@ -395,9 +400,9 @@ def simulate(profile, quantity, mode, true_value, rng=None):
     x = float(true_value)
     if math.isnan(x):
         raise InputError("is NaN", key="true_value")
-    if quantity == "resistance":
+    if quantity in ("resistance", "diode-test"):
         if x < 0:
-            raise InputError(f"a resistance cannot be negative: {x!r}", key="true_value")
+            raise InputError(f"a {quantity} reading cannot be negative: {x!r}", key="true_value")
     elif math.isinf(x):
         raise InputError(f"a {quantity} must be finite", key="true_value")
     if isinstance(rng, np.random.Generator):
@@ -408,12 +413,13 @@ def simulate(profile, quantity, mode, true_value, rng=None):
         raise InputError(f"expected a numpy Generator, an int or None, got {rng!r}",
                          key="rng")
 
-    if quantity == "resistance" and x > profile.max_resistance:
+    top = {"resistance": profile.max_resistance, "diode-test": profile.diode_test_max}.get(quantity)
+    if top is not None and x > top:
         return None, 1
     a = float(_spec_limit_array(profile, quantity, mode, np.asarray(x)))
     y = x + gen.uniform(-a, a)
-    if quantity == "resistance":
-        if y > profile.max_resistance:
+    if top is not None:
+        if y > top:
             return None, 1
         y = max(y, 0.0)
     return float(_display_array(profile, quantity, np.asarray(y))), 0

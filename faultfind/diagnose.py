@@ -100,7 +100,16 @@ def describe_fault(circuit, f) -> str:
         return f"{f.ref} short (welded contacts)" + (f" (about {format_value(f.value, 'Ω')})" if f.value else "")
     if f.mode == "short" and f.value:
         return f"{f.ref} short (about {format_value(f.value, 'Ω')})"
+    if f.mode == "leaky":
+        return f"{f.ref} leaky" + (f" (about {format_value(f.value, 'Ω')} across it)" if f.value else "")
+    if p.kind in ("npn", "pnp"):
+        return f"{f.ref} " + JUNCTION_WORDS.get(f.mode, f.mode)
     return f"{f.ref} {f.mode}"
+
+
+#: How a transistor's fault modes read in a finding.
+JUNCTION_WORDS = {"short": "collector-emitter short", "open": "open (no collector current)",
+                  "base-emitter-open": "base-emitter open", "base-emitter-short": "base-emitter short"}
 
 
 def _shown(ev: Evaluator, h: Hypothesis):
@@ -431,6 +440,9 @@ def _estimates(ev: Evaluator, h: Hypothesis) -> dict:
             else:
                 lo, hi = f.value * np.exp(-1.96 * sd), f.value * np.exp(1.96 * sd)
             fixed[f.ref] = (f.value, float(lo), float(hi), "drift")
+        elif p.is_semiconductor and (p.value is None or f.mode not in ("open", "short")):
+            if p.value is not None:   # a leaky diode keeps its forward voltage
+                fixed[f.ref] = (p.value, p.value, p.value, f.mode)
         else:
             v = limit_value(p, f.mode)
             if f.mode == "short" and f.value and p.kind in ("resistor", "fuse", "switch"):

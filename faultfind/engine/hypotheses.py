@@ -240,6 +240,9 @@ class Board:
 
     def predict_faults(self, faults) -> np.ndarray:
         """Displays under several faults at once (pairs), via the general update."""
+        if self.circuit.is_nonlinear:   # a nonlinear board: the exact re-solve
+            from .junction_faults import exact_faults
+            return exact_faults(self, faults)
         out = np.zeros(self.n, dtype=complex)
         overrides = {}
         for f in faults:
@@ -378,6 +381,9 @@ class Evaluator(Board, DriftFits):
         return S
 
     def _faulted_sensitivity(self, faults):
+        if self.circuit.is_nonlinear:   # the faulted board's own linearisation
+            from .junction_faults import exact_sensitivity
+            return exact_sensitivity(self, faults)
         if len(faults) == 1:
             from .faulted import faulted_sensitivity
             S = faulted_sensitivity(self, faults[0])
@@ -436,6 +442,10 @@ def _first_pass(ev: Evaluator, parts):
     list of (Hypothesis, log Occam factor)
     """
     items, drifting, shorting = [], [], []
+    semis = ()
+    if ev.circuit.is_nonlinear:   # junction faults: exact re-solves (.junction_faults)
+        from .junction_faults import junction_first_pass, split_junctions
+        parts, semis = split_junctions(parts)
     for part in parts:
         for mode in part.fault_modes:
             if mode == "drift":
@@ -450,6 +460,8 @@ def _first_pass(ev: Evaluator, parts):
     for part, (r, pred, occam) in zip(shorting, fit_shorts(ev, shorting)):
         cands.append((Fault(part.ref, "short", r), pred, None, occam))
     cands += ev.fit_drifts(drifting)
+    if semis:
+        cands += junction_first_pass(ev, semis)
     cands = [c for c in cands if not np.isnan(c[1]).any()]  # no answer: a short across a source
     first = []
     if cands:
@@ -592,9 +604,14 @@ def rank_with(ev: Evaluator, *, doubles=True, screen=None, progress=None) -> Ran
     for i in range(min(2 * EXACT_TOP, len(hyps))):
         h = hyps[i]
         if (len(h.faults) == 1 and h.faults[0].mode == "drift" and h.faults[0].seen
-                and h.log_post > lead - REFIT_WINDOW):
+                and h.log_post > lead - REFIT_WINDOW
+                and not ev.circuit.part(h.faults[0].ref).is_semiconductor):
             hyps[i] = ev.refit_drift(h)
     hyps.sort(key=lambda h: -h.log_post)
+    if ev.circuit.is_nonlinear:   # the linearisation's leaders, re-solved exactly
+        from .junction_faults import rescore_leaders
+        hyps = rescore_leaders(ev, hyps)
+        hyps.sort(key=lambda h: -h.log_post)
     # exact re-scoring of the leaders (those that can still matter)
     lead = hyps[0].log_post
     for i in range(min(EXACT_TOP, len(hyps))):

@@ -1,0 +1,392 @@
+"""Fault hypotheses on boards with semiconductors (nonlinear boards).
+
+The linear machinery of :mod:`.updates` (Woodbury updates of the healthy
+factors) cannot express a junction fault: an open or shorted junction moves
+the operating point of every junction on the board, and a leaky diode or a
+drifted forward / zener voltage changes a nonlinear law, not an admittance.
+Each junction hypothesis is therefore evaluated by an exact nonlinear
+re-solve of the faulted board (:func:`~.predict.predict` with the fault as
+an override: the Newton operating point of the faulted circuit, the meter's
+loading and the sensitivities from its linearisation), cached per fault.
+
+* ``open``, ``short``, ``base-emitter-open``, ``base-emitter-short``: one
+  re-solve each.
+* ``drift`` (forward voltage of a diode or LED, zener voltage of a zener):
+  the value is fitted by Gauss-Newton on the log of the value, bounded to
+  :data:`JUNCTION_DRIFT` outside the tolerance band, started from the
+  healthy linearisation; the exact sensitivity column of the part at each
+  trial value gives the step and, at the end, the curvature (the drift's
+  standard deviation and its Occam factor, as in :mod:`.drifts`).
+* ``leaky`` (diodes): the leak resistance across the junction is fitted by a
+  grid over its log (:data:`LEAK_RANGE`) and two parabolic refinements, with
+  a log-uniform prior over the range (Occam factor, as in :mod:`.shorts`).
+
+Hypotheses on the linear parts of a nonlinear board are scored first by the
+usual fast path on the linearisation at the healthy operating point; the
+leading ones (:data:`NONLINEAR_TOP`) are then re-scored by an exact
+nonlinear re-solve (:func:`rescore_leaders`), since the linearisation holds
+only near the healthy operating point.
+
+Nothing here runs on a linear board (``circuit.is_nonlinear`` false).
+"""
+
+from __future__ import annotations
+
+from dataclasses import replace
+
+import numpy as np
+
+from ..errors import SolveError
+from ..model import Part
+from .drifts import _occam, parabola_step
+from .faults import Fault
+from .predict import predict
+
+__all__ = ["JUNCTION_DRIFT", "LEAK_RANGE", "NONLINEAR_TOP", "split_junctions", "Exact",
+           "junction_first_pass", "rescore_leaders", "exact_faults", "exact_sensitivity"]
+
+#: Drift range of a junction's value (forward or zener voltage), as a factor of nominal:
+#: a forward voltage halved (a die damaged towards a short) to doubled (a
+#: junction gone resistive); common practice (no source).
+JUNCTION_DRIFT = (0.5, 2.0)
+#: Range of a leaky diode's leak resistance (ohms): 100 ohm (nearly short) to 10 Mohm
+#: (the leakage a diode test no longer shows); common practice (no source).
+LEAK_RANGE = (1e2, 1e7)
+#: Leading hypotheses re-scored by an exact nonlinear re-solve.
+NONLINEAR_TOP = 8
+#: Gauss-Newton steps of a junction drift fit.
+_GN_STEPS = 4
+_LEAK_GRID = 6
+_ERRORS = (SolveError, ValueError, ZeroDivisionError, FloatingPointError, ArithmeticError,
+           np.linalg.LinAlgError)
+
+
+def split_junctions(parts):
+    """``(linear parts, semiconductor parts)`` of ``parts``, in their order."""
+    lin = [p for p in parts if not p.is_semiconductor]
+    semi = [p for p in parts if p.is_semiconductor]
+    return lin, semi
+
+
+def _override(circuit, f):
+    """The engine's override of one Fault (see :func:`Exact.solve`), or None when the
+    fault is written into the circuit instead (a short with a resistance)."""
+    p = circuit.part(f.ref)
+    if f.mode == "drift":
+        return float(f.value)
+    if f.mode == "leaky":
+        return ("leaky", float(f.value))
+    if f.mode == "short" and f.value and not p.is_semiconductor:
+        return None
+    return f.mode
+
+
+def _faulted(circuit, faults):
+    """The circuit and overrides that plant ``faults``.
+
+    A linear part's short with a fitted resistance ``r`` is a resistor of ``r``
+    across the part (as :mod:`.shorts` models it), added to the circuit.
+    """
+    overrides, extra = {}, []
+    for f in faults:
+        ov = _override(circuit, f)
+        if ov is None:
+            p = circuit.part(f.ref)
+            extra.append(Part(f"__short_{f.ref}__", "resistor", tuple(p.nodes[:2]), float(f.value)))
+        else:
+            overrides[f.ref] = ov
+    if extra:
+        circuit = replace(circuit, parts=tuple(circuit.parts) + tuple(extra))
+    return circuit, overrides
+
+
+def _key(faults):
+    return tuple(sorted((f.ref, f.mode, None if f.value is None else round(float(f.value), 12))
+                        for f in faults))
+
+
+class Exact:
+    """Exact nonlinear evaluation of fault hypotheses on an Evaluator's board.
+
+    One re-solve per hypothesis (cached): the displays and the sensitivities
+    (columns in the evaluator's parameter order; the faulted parts' own
+    columns are kept, :func:`exact_sensitivity` drops them).
+    """
+
+    def __init__(self, ev):
+        self.ev = ev
+        self.cache = {}
+        self.solves = 0
+
+    def solve(self, faults):
+        """``(displays (n,), sensitivity (n, m))`` under ``faults``; NaN displays and
+        None when the faulted board cannot be solved."""
+        key = _key(faults)
+        got = self.cache.get(key)
+        if got is not None:
+            return got
+        ev = self.ev
+        circuit, overrides = _faulted(ev.circuit, faults)
+        self.solves += 1
+        try:
+            pr = predict(circuit, ev.readings, ev.meters, overrides=overrides)
+        except _ERRORS:
+            got = (np.full(ev.n, np.nan), None)
+        else:
+            val = np.asarray(pr.value, dtype=float)
+            S = np.zeros((ev.n, len(ev.params)))
+            col = [ev.pindex.get(r, -1) for r in pr.params]
+            have = [k for k, j in enumerate(col) if j >= 0]
+            S[:, [col[k] for k in have]] = np.asarray(pr.sensitivity, dtype=float)[:, have]
+            S = np.nan_to_num(S, nan=0.0, posinf=0.0, neginf=0.0)
+            got = (val, S)
+        if len(self.cache) > 4096:
+            self.cache.clear()
+        self.cache[key] = got
+        return got
+
+
+def _exact(ev) -> Exact:
+    ex = ev.__dict__.get("_exact_nl")
+    if ex is None:
+        ex = ev._exact_nl = Exact(ev)
+    return ex
+
+
+def exact_faults(board, faults):
+    """Displays of ``board``'s readings under ``faults`` by an exact nonlinear re-solve."""
+    return _exact(board).solve(list(faults))[0]
+
+
+def exact_sensitivity(ev, faults):
+    """Sensitivities of the faulted nonlinear board (the faulted parts' columns zero), or None."""
+    _, S = _exact(ev).solve(list(faults))
+    if S is None:
+        return None
+    S = S.copy()
+    for j in ev.drop_cols(faults):
+        if j >= 0:
+            S[:, j] = 0.0
+    return S
+
+
+# ----------------------------------------------------------------- scoring helpers
+def _weights(ev, drop):
+    """Diagonal weights 1 / (meter variance + tolerance spread) of the numeric readings,
+    without the column ``drop``; zero for OL readings."""
+    e = ev.ev
+    var = np.diag(e.T0).copy()
+    if drop >= 0:
+        var = var - e.S0[:, drop] ** 2 * e.var_p[drop]
+    var = np.clip(var, 0.0, None) + e.u ** 2
+    w = np.where(e.ol | ~np.isfinite(e.y), 0.0, 1.0 / np.where(var > 0, var, 1.0))
+    return w
+
+
+def _chi2(ev, P, drop):
+    """First-pass chi-square of rows ``P`` (k, n) with part column ``drop`` removed."""
+    P = np.atleast_2d(P)
+    return ev.ev.chi2_rows(P, [[drop]] * len(P))
+
+
+def _drift_spec(part):
+    lo, hi = np.log(JUNCTION_DRIFT)
+    return lo, hi, float(np.log1p(-min(part.tol_low, 0.999))), float(np.log1p(part.tol_high))
+
+
+def _outside(rho, blo, bhi):
+    """``rho`` moved to the nearer edge of the band (blo, bhi) when inside it."""
+    if blo < rho < bhi:
+        return bhi if rho >= 0.5 * (blo + bhi) else blo
+    return rho
+
+
+def fit_junction_drift(ev, part):
+    """Best drifted value of a junction ``part`` (Gauss-Newton on the exact re-solve).
+
+    Returns
+    -------
+    (Fault, prediction, sd or None, log Occam factor)
+    """
+    ex = _exact(ev)
+    j = ev.pindex.get(part.ref, -1)
+    lo, hi, blo, bhi = spec = _drift_spec(part)
+    w = _weights(ev, j)
+    y = np.where(np.isfinite(ev.ev.y), ev.ev.y, 0.0)
+    s0 = ev.S0[:, j] if j >= 0 else np.zeros(ev.n)
+    info = float(np.sum(w * s0 ** 2))
+    if j < 0 or info < 1e-6:   # the readings do not see this junction's value
+        rho = hi
+        f = Fault(part.ref, "drift", float(part.value * np.exp(rho)), seen=False)
+        return f, ex.solve([f])[0], None, 0.0
+    r0 = y - ev.healthy_prediction()
+    rho = float(np.clip(np.sum(w * s0 * r0) / info, lo, hi))
+    best = None
+    for _ in range(_GN_STEPS):
+        rho = float(np.clip(_outside(rho, blo, bhi), lo, hi))
+        f = Fault(part.ref, "drift", float(part.value * np.exp(rho)))
+        pred, S = ex.solve([f])
+        if S is None or np.isnan(pred).any():
+            break
+        c2 = float(_chi2(ev, pred, j)[0])
+        if best is None or c2 < best[0]:
+            best = (c2, rho, f, pred, S)
+        elif c2 > best[0]:
+            rho = 0.5 * (rho + best[1])     # overshot: halve the step back
+            continue
+        sj = S[:, j]
+        g = float(np.sum(w * sj * sj))
+        if g <= 0:
+            break
+        res = np.where(np.isfinite(pred), y - pred, 0.0)
+        step = float(np.sum(w * sj * res) / g)
+        if abs(step) < 1e-4:
+            break
+        rho = rho + step
+    if best is None:
+        f = Fault(part.ref, "drift", float(part.value * np.exp(hi)))
+        return f, np.full(ev.n, np.nan), None, 0.0
+    c2, rho, f, pred, S = best
+    g = float(np.sum(w * S[:, j] ** 2))
+    sd = float(np.sqrt(1.0 / g)) if g > 0 else None
+    occam = _occam(sd, spec) if sd else 0.0
+    return f, pred, sd, occam
+
+
+def fit_leak(ev, part):
+    """Best leak resistance of a leaky diode ``part`` (grid + parabolas on the exact re-solve).
+
+    Returns
+    -------
+    (Fault, prediction, None, log Occam factor)
+    """
+    ex = _exact(ev)
+    j = ev.pindex.get(part.ref, -1)
+    lo, hi = np.log(LEAK_RANGE)
+    grid = np.linspace(lo, hi, _LEAK_GRID)
+
+    def score(x):
+        f = Fault(part.ref, "leaky", float(np.exp(x)))
+        pred, _ = ex.solve([f])
+        if np.isnan(pred).any():
+            return np.inf, f, pred
+        return float(_chi2(ev, pred, j)[0]), f, pred
+
+    got = [score(x) for x in grid]
+    cc = np.array([g[0] for g in got])
+    if not np.isfinite(cc).any():
+        return got[-1][1], got[-1][2], None, 0.0
+    if np.nanmax(cc[np.isfinite(cc)]) - np.nanmin(cc[np.isfinite(cc)]) < 0.05:
+        # unseen: the readings cannot tell a leak from none; no Occam factor
+        return Fault(part.ref, "leaky", float(np.exp(hi))), got[-1][2], None, 0.0
+    b = int(np.argmin(cc))
+    x, best = float(grid[b]), got[b]
+    step = (hi - lo) / (_LEAK_GRID - 1)
+    curv = None
+    for shrink in (0.5, 0.15):
+        pts = np.clip(x + step * shrink * np.array([-1.0, -0.5, 0.0, 0.5, 1.0]), lo, hi)
+        trial = [score(p) for p in pts]
+        c = np.array([t[0] for t in trial])
+        bx, vx, a, ok = parabola_step(pts[None, :], np.where(np.isfinite(c), c, np.inf)[None, :])
+        k = int(np.argmin(c))
+        if c[k] < best[0]:
+            best, x = trial[k], float(pts[k])
+        if ok[0]:
+            curv = 2 * float(a[0])
+            t = score(float(vx[0]))
+            if t[0] < best[0]:
+                best, x = t, float(vx[0])
+    span = hi - lo
+    occam = 0.0
+    if curv and curv > 0:
+        sd = float(np.sqrt(2.0 / curv))
+        occam = float(np.log(min(np.sqrt(2 * np.pi) * sd, span) / span))
+    return best[1], best[2], None, occam
+
+
+def junction_first_pass(ev, parts):
+    """Every fault hypothesis of the semiconductor ``parts``, by exact re-solves.
+
+    Returns
+    -------
+    list of (Fault, prediction, drift sd or None, log Occam factor)
+        In the form of :func:`.hypotheses._first_pass`'s candidates.
+    """
+    ex = _exact(ev)
+    cands = []
+    for p in parts:
+        for mode in p.fault_modes:
+            if mode == "drift":
+                cands.append(fit_junction_drift(ev, p))
+            elif mode == "leaky":
+                cands.append(fit_leak(ev, p))
+            else:
+                f = Fault(p.ref, mode)
+                cands.append((f, ex.solve([f])[0], None, 0.0))
+    return cands
+
+
+def rescore_leaders(ev, hyps, top=NONLINEAR_TOP):
+    """Re-predict the leading hypotheses by an exact nonlinear re-solve.
+
+    The linear parts' hypotheses were scored on the linearisation at the
+    healthy operating point; the first ``top`` of ``hyps`` (sorted) that hold
+    a linear part's fault are predicted again on the faulted board.  A drift
+    of a linear part is refitted by Gauss-Newton on the exact re-solve.
+    Returns the list with those hypotheses replaced (to be re-scored by
+    :meth:`~.hypotheses.Evaluator.exact`).
+    """
+    out = list(hyps)
+    for i in range(min(top, len(out))):
+        h = out[i]
+        if not h.faults or all(ev.circuit.part(f.ref).is_semiconductor for f in h.faults):
+            continue
+        if len(h.faults) == 1 and h.faults[0].mode == "drift" and h.faults[0].seen:
+            f, pred, sd, occam = _refit_linear_drift(ev, h)
+        else:
+            pred, sd, occam = exact_faults(ev, h.faults), h.drift_sd, h.occam
+            f = None
+        if np.isnan(pred).any():
+            continue
+        new = ev.make([f] if f is not None else list(h.faults), pred, drift_sd=sd, occam=occam)
+        out[i] = new
+    return out
+
+
+def _refit_linear_drift(ev, h):
+    """A linear part's drift refitted on the exact re-solve (Gauss-Newton from its value)."""
+    f0 = h.faults[0]
+    part = ev.circuit.part(f0.ref)
+    j = ev.pindex.get(part.ref, -1)
+    lo, hi, blo, bhi = spec = ev.drift_range(part)
+    w = _weights(ev, j)
+    y = np.where(np.isfinite(ev.ev.y), ev.ev.y, 0.0)
+    rho = float(np.log(f0.value / part.value))
+    ex = _exact(ev)
+    best = None
+    for _ in range(_GN_STEPS):
+        rho = float(np.clip(_outside(rho, blo, bhi), lo, hi))
+        f = Fault(part.ref, "drift", float(part.value * np.exp(rho)))
+        pred, S = ex.solve([f])
+        if S is None or np.isnan(pred).any():
+            break
+        c2 = float(_chi2(ev, pred, j)[0])
+        if best is None or c2 < best[0]:
+            best = (c2, f, pred, S)
+        elif c2 > best[0]:
+            rho = 0.5 * (rho + float(np.log(best[1].value / part.value)))
+            continue
+        sj = S[:, j]
+        g = float(np.sum(w * sj * sj))
+        if g <= 0:
+            break
+        step = float(np.sum(w * sj * np.where(np.isfinite(pred), y - pred, 0.0)) / g)
+        if abs(step) < 1e-4:
+            break
+        rho += step
+    if best is None:
+        return f0, exact_faults(ev, [f0]), h.drift_sd, h.occam
+    _, f, pred, S = best
+    g = float(np.sum(w * S[:, j] ** 2))
+    sd = float(np.sqrt(1.0 / g)) if g > 0 else h.drift_sd
+    return f, pred, sd, (_occam(sd, spec) if sd else h.occam)

@@ -259,13 +259,14 @@ class Drill:
             return self._add(command, "refused", "REFUSED: no reading before the safety caution "
                              "is read and acknowledged (ack). Safety error "
                              f"{self.safety_errors}.", reading=rd, safety_error=True)
-        if rd.quantity == "resistance" and self.power == "on":
+        if rd.quantity in ("resistance", "diode-test") and self.power == "on":
             self.safety_errors += 1
-            return self._add(command, "refused", "REFUSED: the board is live. An ohmmeter on a "
+            meter = "A diode test" if rd.quantity == "diode-test" else "An ohmmeter"
+            return self._add(command, "refused", f"REFUSED: the board is live. {meter} on a "
                              "live circuit reads nonsense and can be damaged or hurt you: isolate "
                              f"first (isolate), then read again. Safety error "
                              f"{self.safety_errors}.", reading=rd, safety_error=True)
-        if rd.quantity != "resistance" and self.power == "off":
+        if rd.quantity not in ("resistance", "diode-test") and self.power == "off":
             return self._add(command, "refused", f"not taken: the board is isolated, so a "
                              f"{rd.quantity} reading shows nothing; restore power first "
                              "(energize).", reading=rd)
@@ -474,7 +475,7 @@ class Drill:
 
     def _cost(self, rd: Reading) -> float:
         c = self.costs
-        if rd.quantity == "resistance":
+        if rd.quantity in ("resistance", "diode-test"):
             return c["lifted"] if rd.setup == "lifted" else c["resistance"]
         base = c["current"] if rd.quantity == "current" else c["voltage"]
         if rd.mode == "ac" and rd.frequency is not None and rd.frequency != self.circuit.frequency:

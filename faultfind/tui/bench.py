@@ -34,8 +34,8 @@ POWER_WORDS = {
 
 
 def power_needed(reading: Reading) -> str:
-    """``"off"`` for a resistance reading (circuit isolated), else ``"on"``."""
-    return "off" if reading.quantity == "resistance" else "on"
+    """``"off"`` for a resistance reading or a diode test (circuit isolated), else ``"on"``."""
+    return "off" if reading.quantity in ("resistance", "diode-test") else "on"
 
 
 @dataclass(frozen=True)

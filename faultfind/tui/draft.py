@@ -225,7 +225,8 @@ class CircuitDraft:
         """A free reference designator for a new part of ``kind`` (``R3``, ``C1`` ...)."""
         letter = {"resistor": "R", "capacitor": "C", "inductor": "L", "fuse": "F",
                   "switch": "S", "voltage-source": "V", "current-source": "I",
-                  "opamp": "U"}.get(kind, "X")
+                  "opamp": "U", "diode": "D", "led": "LED", "zener": "DZ", "npn": "Q",
+                  "pnp": "Q"}.get(kind, "X")
         used = set(self.refs())
         n = 1
         while f"{letter}{n}" in used:

@@ -10,6 +10,7 @@ A technician types what the meter shows the way it is said at the panel::
     R F1 OL                 resistance across a part, in circuit
     R A,0V 4k61             resistance between two nodes
     Rlifted K1 180.6        resistance of a part alone (one leg lifted)
+    D D3 0.612              diode test across a junction, power off (D B,0V: red probe on B)
     ... # TP2 after fuse    anything after ``#`` is the reading's label
 
 The kinds may also be written as the readings file's words (``voltage dc``,
@@ -45,12 +46,14 @@ KINDS = {
     "iac": ("current", "ac", None),
     "r": ("resistance", None, "in-circuit"), "rl": ("resistance", None, "lifted"),
     "rlifted": ("resistance", None, "lifted"),
+    "d": ("diode-test", None, None), "dt": ("diode-test", None, None),
 }
 #: The readings file's words, each with the words that may follow it.
 _WORDS = {"voltage": ("dc", "ac"), "current": ("dc", "ac"),
-          "resistance": ("in-circuit", "lifted")}
+          "resistance": ("in-circuit", "lifted"), "diode-test": ()}
 #: Kinds offered by completion, in this order.
-_OFFERED = ("V", "Vac", "I", "Iac", "R", "Rlifted", "voltage", "current", "resistance")
+_OFFERED = ("V", "Vac", "I", "Iac", "R", "Rlifted", "D", "voltage", "current", "resistance",
+            "diode-test")
 #: Columns of a pasted readings-file row, in formats.md's example order.
 ROW_COLUMNS = ("quantity", "mode", "plus", "minus", "part", "setup", "value", "label")
 #: Columns given to :func:`check_cells` (every column a typed reading can set).
@@ -91,6 +94,8 @@ def _kind(tokens: list[str]) -> tuple[tuple[str, str | None, str | None], int]:
         return KINDS[word], 1
     if word in _WORDS:
         nxt = tokens[1].lower() if len(tokens) > 1 else ""
+        if word == "diode-test":
+            return (word, None, None), 1
         if word == "resistance":
             if nxt in _WORDS[word]:
                 return (word, None, nxt), 2
@@ -98,8 +103,8 @@ def _kind(tokens: list[str]) -> tuple[tuple[str, str | None, str | None], int]:
         if nxt in _WORDS[word]:
             return (word, nxt, None), 2
         return (word, "dc", None), 1
-    raise _fail(f"{tokens[0]!r} is not a kind of reading: start with V, Vac, I, Iac, R or "
-                "Rlifted (or voltage, current, resistance)", key="quantity")
+    raise _fail(f"{tokens[0]!r} is not a kind of reading: start with V, Vac, I, Iac, R, "
+                "Rlifted or D (or voltage, current, resistance, diode-test)", key="quantity")
 
 
 def _where(quantity: str, where: str, circuit: Circuit, cells: dict) -> None:
@@ -125,8 +130,10 @@ def _where(quantity: str, where: str, circuit: Circuit, cells: dict) -> None:
     elif where in nodes:
         cells["plus"] = where
     else:
-        raise _fail(f"{where!r} is neither a part nor a node of the circuit: a resistance "
-                    "reading is across a part (R F1) or between nodes (R A,0V)", key="part")
+        what = "diode test" if quantity == "diode-test" else "resistance reading"
+        letter = "D" if quantity == "diode-test" else "R"
+        raise _fail(f"{where!r} is neither a part nor a node of the circuit: a {what} "
+                    f"is across a part ({letter} F1) or between nodes ({letter} A,0V)", key="part")
 
 
 def parse_entry(text, circuit) -> dict:

@@ -42,8 +42,9 @@ from .drifts import _occam, parabola_step
 from .faults import Fault
 from .predict import predict
 
-__all__ = ["JUNCTION_DRIFT", "LEAK_RANGE", "NONLINEAR_TOP", "split_junctions", "Exact",
-           "junction_first_pass", "rescore_leaders", "exact_faults", "exact_sensitivity"]
+__all__ = ["JUNCTION_DRIFT", "LEAK_RANGE", "NONLINEAR_TOP", "EXACT_ALL", "RESCORE_WINDOW",
+           "split_junctions", "Exact", "junction_first_pass", "nonlinear_candidates",
+           "rescore_leaders", "exact_faults", "exact_sensitivity"]
 
 #: Drift range of a junction's value (forward or zener voltage), as a factor of nominal:
 #: a forward voltage halved (a die damaged towards a short) to doubled (a
@@ -54,6 +55,14 @@ JUNCTION_DRIFT = (0.5, 2.0)
 LEAK_RANGE = (1e2, 1e7)
 #: Leading hypotheses re-scored by an exact nonlinear re-solve.
 NONLINEAR_TOP = 8
+#: A linearised hypothesis within this (log posterior) of the best exactly
+#: solved one is re-solved too, up to :data:`RESCORE_MAX` in all.
+RESCORE_WINDOW = 10.0
+RESCORE_MAX = 40
+#: Boards with at most this many open / short / dead hypotheses of linear parts
+#: have each of them re-solved exactly in the first pass: an open or short near a
+#: junction moves its working point far beyond what the linearisation holds.
+EXACT_ALL = 150
 #: Gauss-Newton steps of a junction drift fit.
 _GN_STEPS = 4
 _LEAK_GRID = 6
@@ -117,6 +126,9 @@ class Exact:
         self.ev = ev
         self.cache = {}
         self.solves = 0
+        # Newton starts from the healthy operating point (the DC group predict() shared)
+        share = getattr(ev, "share", None) or {}
+        self.warm = getattr(share.get(("dc", None)), "op", None)
 
     def solve(self, faults):
         """``(displays (n,), sensitivity (n, m))`` under ``faults``; NaN displays and
@@ -129,7 +141,8 @@ class Exact:
         circuit, overrides = _faulted(ev.circuit, faults)
         self.solves += 1
         try:
-            pr = predict(circuit, ev.readings, ev.meters, overrides=overrides)
+            kw = {"warm": self.warm} if self.warm is not None else {}
+            pr = predict(circuit, ev.readings, ev.meters, overrides=overrides, **kw)
         except _ERRORS:
             got = (np.full(ev.n, np.nan), None)
         else:
@@ -326,31 +339,79 @@ def junction_first_pass(ev, parts):
     return cands
 
 
-def rescore_leaders(ev, hyps, top=NONLINEAR_TOP):
-    """Re-predict the leading hypotheses by an exact nonlinear re-solve.
+def nonlinear_candidates(ev, parts, linear_candidates):
+    """The first pass's candidates on a board with junctions.
 
-    The linear parts' hypotheses were scored on the linearisation at the
-    healthy operating point; the first ``top`` of ``hyps`` (sorted) that hold
-    a linear part's fault are predicted again on the faulted board.  A drift
-    of a linear part is refitted by Gauss-Newton on the exact re-solve.
-    Returns the list with those hypotheses replaced (to be re-scored by
-    :meth:`~.hypotheses.Evaluator.exact`).
+    Junction faults by exact re-solves (:func:`junction_first_pass`); the
+    linear parts' opens, shorts and dead sources also by exact re-solves when
+    there are at most :data:`EXACT_ALL` of them, else on the linearisation
+    (``linear_candidates``, the fast path of :mod:`.hypotheses`); their drifts
+    on the linearisation (refitted exactly if they lead, :func:`rescore_leaders`).
+    Power-off readings the linearisation cannot give stand at what was read
+    for the linearised candidates (they are re-solved before they count).
     """
-    out = list(hyps)
+    lin, semis = split_junctions(parts)
+    discrete = [(p, m) for p in lin for m in p.fault_modes if m != "drift"]
+    if len(discrete) <= EXACT_ALL:
+        ex = _exact(ev)
+        cands = []
+        for p, m in discrete:
+            f = Fault(p.ref, m)
+            cands.append((f, ex.solve([f])[0], None, 0.0))
+        cands += ev.fit_drifts([p for p in lin if "drift" in p.fault_modes])
+    else:
+        cands = linear_candidates(ev, lin)
+    return cands + junction_first_pass(ev, semis)
+
+
+def is_exact(ev, h) -> bool:
+    """True when ``h``'s prediction came from an exact re-solve (or it is the healthy board)."""
+    return not h.faults or _key(h.faults) in _exact(ev).cache
+
+
+def rescore_leaders(ev, hyps, top=NONLINEAR_TOP):
+    """Re-predict the leading linearised hypotheses by an exact nonlinear re-solve.
+
+    Hypotheses on linear parts scored on the linearisation at the healthy
+    operating point are predicted again on the faulted board: the first
+    ``top`` of ``hyps`` (sorted), then any other within
+    :data:`RESCORE_WINDOW` of the best exactly solved one, at most
+    :data:`RESCORE_MAX` in all.  A drift of a linear part is refitted by
+    Gauss-Newton on the exact re-solve.  Returns the list re-sorted (the
+    leaders to be re-scored by :meth:`~.hypotheses.Evaluator.exact`).
+    """
+    out = sorted(hyps, key=lambda h: -h.log_post)
+    done = 0
     for i in range(min(top, len(out))):
-        h = out[i]
-        if not h.faults or all(ev.circuit.part(f.ref).is_semiconductor for f in h.faults):
-            continue
-        if len(h.faults) == 1 and h.faults[0].mode == "drift" and h.faults[0].seen:
-            f, pred, sd, occam = _refit_linear_drift(ev, h)
-        else:
-            pred, sd, occam = exact_faults(ev, h.faults), h.drift_sd, h.occam
-            f = None
-        if np.isnan(pred).any():
-            continue
-        new = ev.make([f] if f is not None else list(h.faults), pred, drift_sd=sd, occam=occam)
-        out[i] = new
+        if not is_exact(ev, out[i]) and done < RESCORE_MAX:
+            out[i] = _resolve(ev, out[i])
+            done += 1
+    while done < RESCORE_MAX:
+        out.sort(key=lambda h: -h.log_post)
+        lead = max((h.log_post for h in out if is_exact(ev, h)), default=-np.inf)
+        todo = [i for i, h in enumerate(out) if not is_exact(ev, h) and h.log_post > lead - RESCORE_WINDOW]
+        if not todo:
+            break
+        for i in todo[: RESCORE_MAX - done]:
+            out[i] = _resolve(ev, out[i])
+            done += 1
+    out.sort(key=lambda h: -h.log_post)
     return out
+
+
+def _resolve(ev, h):
+    """``h`` predicted again by the exact re-solve (a linear drift refitted); its score
+    drops out when the faulted board has no operating point."""
+    if len(h.faults) == 1 and h.faults[0].mode == "drift" and h.faults[0].seen:
+        f, pred, sd, occam = _refit_linear_drift(ev, h)
+        faults = [f]
+    else:
+        pred, sd, occam = exact_faults(ev, h.faults), h.drift_sd, h.occam
+        faults = list(h.faults)
+    if np.isnan(pred).any():
+        h.log_post = -np.inf
+        return h
+    return ev.make(faults, pred, drift_sd=sd, occam=occam)
 
 
 def _refit_linear_drift(ev, h):

@@ -40,7 +40,15 @@ __all__ = [
     "simulate",
     "loading_conductance",
     "shunt_resistance",
+    "ohmmeter_ranges",
+    "OHMS_COMPLIANCE",
 ]
+
+#: Open-circuit voltage of the ohmmeter's test source, volts (at least 1.5
+#: times the full-scale voltage of the ranges, see :func:`ohmmeter_ranges`):
+#: handhelds' ohms ranges have open-circuit voltages of roughly 0.4 to 3 V
+#: (from memory).
+OHMS_COMPLIANCE = 1.0
 
 # Relative slack when comparing |value| with counts * step: a value within
 # float noise of a range's full scale (e.g. 0.6 V against 6000 * 1e-4 V, which
@@ -331,10 +339,9 @@ def overrange(profile, quantity, value):
     -------
     bool or ndarray of bool
         Resistance: ``value > profile.max_resistance`` (so ``inf`` is over
-        range).  Diode test: ``value > profile.diode_test_max`` (a reversed
-        or open junction develops the open-circuit voltage, above the top of
-        the display; formats.md section 4).  Voltage and current: always
-        False (version 1 models no top range for them).
+        range).  Diode test: ``value`` above the display's top
+        (``diode_test_max``) or the open-circuit voltage.  Voltage and
+        current: always False (version 1 models no top range for them).
 
     Raises
     ------
@@ -347,7 +354,7 @@ def overrange(profile, quantity, value):
     if quantity == "resistance":
         out = arr > profile.max_resistance
     elif quantity == "diode-test":
-        out = arr > profile.diode_test_max
+        out = arr > min(profile.diode_test_max, profile.diode_test_voltage)
     else:
         out = np.zeros(arr.shape, dtype=bool)
     return bool(out) if arr.ndim == 0 else out
@@ -389,8 +396,7 @@ def simulate(profile, quantity, mode, true_value, rng=None):
     r / 2`` with ``r`` the display's resolution.  Resistance shows ``OL``
     when the true value is over range (:func:`overrange`) or when the drawn
     value lands above ``max_resistance``; a resistance display never goes
-    below zero (an ohmmeter shows 0 for a dead short).  A diode test does the
-    same with ``diode_test_max`` (``inf``: a reversed or open junction).
+    below zero (an ohmmeter shows 0 for a dead short).
     """
     profile = _check_profile(profile)
     quantity = _check_quantity(quantity)
@@ -413,7 +419,8 @@ def simulate(profile, quantity, mode, true_value, rng=None):
         raise InputError(f"expected a numpy Generator, an int or None, got {rng!r}",
                          key="rng")
 
-    top = {"resistance": profile.max_resistance, "diode-test": profile.diode_test_max}.get(quantity)
+    top = {"resistance": profile.max_resistance,
+           "diode-test": min(profile.diode_test_max, profile.diode_test_voltage)}.get(quantity)
     if top is not None and x > top:
         return None, 1
     a = float(_spec_limit_array(profile, quantity, mode, np.asarray(x)))
@@ -453,3 +460,35 @@ def shunt_resistance(profile) -> float:
         ``profile.current_shunt``.
     """
     return float(_check_profile(profile).current_shunt)
+
+
+def ohmmeter_ranges(profile):
+    """The resistance ranges of the meter and the test current of each.
+
+    Parameters
+    ----------
+    profile : MeterProfile
+
+    Returns
+    -------
+    list of (float, float)
+        ``(full scale, test current)`` per range, lowest first: full scales
+        ``counts * resistance_resolution * 10**k`` up to the first that
+        reaches ``max_resistance``; the test current of a range is the
+        lowest voltage range's full scale (``counts * voltage_resolution``,
+        600 mV on a 6000-count meter) divided by the range's full scale
+        (1 mA on 600 Ω, 100 µA on 6 kΩ, ... 10 nA on 60 MΩ).  A
+        constant-current ohmmeter of this kind is typical of handhelds (from
+        memory; docs/meter-model.md).  On a linear network the reading does
+        not depend on the current; across a junction it does.
+    """
+    profile = _check_profile(profile)
+    vfs = profile.counts * profile.voltage_resolution
+    r = profile.counts * profile.resistance_resolution
+    out = []
+    for _ in range(30):
+        out.append((r, vfs / r))
+        if r >= profile.max_resistance:
+            break
+        r *= 10.0
+    return out

@@ -41,7 +41,7 @@ import numpy as np
 import scipy.sparse as sp
 from scipy.sparse.csgraph import connected_components
 
-from ..model import DEFAULT_OPAMP_GAIN, Circuit
+from ..model import DEFAULT_OPAMP_GAIN, SEMICONDUCTORS, Circuit
 
 __all__ = ["ANALYSES", "Network", "assemble"]
 
@@ -183,10 +183,30 @@ def assemble(circuit: Circuit, analysis: str, frequency: float | None = None,
     ground = circuit.ground
 
     y_rows, br_rows, inj_rows, vcvs = [], [], [], []
+    semi_edges = []   # node pairs joined by a semiconductor (connectivity only)
     # (part index, node a name, node b name, value)
     for pi, p in enumerate(circuit.parts):
         ov = overrides.get(p.ref)
         kind = p.kind
+        if kind in SEMICONDUCTORS:
+            # no stamps here: engine/nonlinear.py adds the junctions.  Only
+            # the wires a fault puts in are branches of the linear network.
+            if len(p.nodes) == 2:
+                if ov == "short":
+                    br_rows.append((pi, p.nodes[0], p.nodes[1], 0.0))
+                elif ov != "open":
+                    semi_edges.append((p.nodes[0], p.nodes[1]))
+            else:
+                # a transistor's internal shorts are wires of its own (inside
+                # its leads: a current probe in the collector lead sees them)
+                c, b_, e = p.nodes
+                if ov == "short":
+                    semi_edges.append((c, e))
+                if ov != "open":
+                    semi_edges.append((c, b_))
+                if ov != "base-emitter-open":
+                    semi_edges.append((b_, e))
+            continue
         if kind == "opamp":
             if analysis != "off":
                 gain = p.gain if p.gain is not None else DEFAULT_OPAMP_GAIN
@@ -269,8 +289,10 @@ def assemble(circuit: Circuit, analysis: str, frequency: float | None = None,
     pos = {name: i for i, name in enumerate(names)}
     n_all = len(names)
     if analysis == "off" or floating:
-        ea = [pos[r[1]] for r in y_rows] + [pos[r[1]] for r in br_rows] + [pos[r[1]] for r in vcvs]
-        eb = [pos[r[2]] for r in y_rows] + [pos[r[2]] for r in br_rows] + [0 for r in vcvs]
+        ea = ([pos[r[1]] for r in y_rows] + [pos[r[1]] for r in br_rows] + [pos[r[1]] for r in vcvs]
+              + [pos[r[0]] for r in semi_edges])
+        eb = ([pos[r[2]] for r in y_rows] + [pos[r[2]] for r in br_rows] + [0 for r in vcvs]
+              + [pos[r[1]] for r in semi_edges])
         g = sp.coo_matrix((np.ones(len(ea)), (ea, eb)), shape=(n_all, n_all))
         _, comp = connected_components(g, directed=False)
         comp = np.asarray(comp)

@@ -1,0 +1,256 @@
+"""Predictions and sensitivities on circuits with semiconductors (the linearization).
+
+:func:`faultfind.engine.predict.predict` sends a circuit whose
+``is_nonlinear`` is true here.  What each reading is:
+
+DC readings
+    The exact DC operating point (engine/nonlinear.py), read through the
+    meter.  The network the meter loads is the *linearized* one: its matrix
+    is the Newton Jacobian at the operating point, so a voltmeter's input
+    resistance and a linear part's current shunt enter as the same rank-one
+    corrections as on a linear board (exact to first order in the loading;
+    10 MΩ across a node changes the answer by parts in 10^9 beyond that).
+    A current reading through a semiconductor (a diode's anode lead, a
+    transistor's collector lead) is an exact re-solve with the meter's shunt
+    in that lead.
+AC readings
+    The small-signal response about the DC operating point: every junction
+    is its conductance there, a transistor its linearized transport model
+    (no junction capacitances in version 1).
+Power-off readings
+    Diode test and resistance with the junctions in place, exact
+    (engine/offnet.py).
+
+Sensitivities ``d reading / d ln p``: the linear parts' come from the
+adjoint of the linearized network as on a linear board (at the operating
+point ``F(x, p) = 0``, so ``dx/dp = -J^{-1} dF/dp`` and ``dF/dp`` is the
+part's ordinary stamp applied to ``x``).  A junction's value ``V`` shifts
+its element current at fixed voltage by ``di/d ln V = i * d ln Is / d ln V``
+(about ``-g_d V`` for a diode: the law's ``Is`` is fixed by ``V`` at
+``test_current``), carried as a current source in the linearized network.
+An AC reading also moves with the operating point: its junction
+conductances ``g_k(v_k(p))``; that dependence is one extra adjoint solve on
+the DC Jacobian per AC reading.  Tolerance bands (bands.py, spread.py) use
+these as they use a linear board's.
+
+Overrides (``predict``, ``oracle_readings``, ``operating_point``): linear
+parts as engine/mna.py (a value, "open", "short", "dead"); semiconductors:
+
+* diode, led, zener: ``"open"`` (removed), ``"short"`` (a zero-volt wire
+  between its leads), a float (a drifted value, volts: forward voltage at
+  ``test_current``; a zener's breakdown voltage), ``("leaky", ohms)`` (a leak
+  resistance across the junction);
+* npn, pnp: ``"open"`` (the collector lead open: no collector current; the
+  collector side floats), ``"short"`` (collector-emitter wire inside the
+  part), ``"base-emitter-open"`` (the emitter lead open), and
+  ``"base-emitter-short"`` (a base-emitter wire inside the part).
+
+A transistor has no value, so no sensitivity column (``parameters``).
+"""
+
+from __future__ import annotations
+
+from dataclasses import replace
+
+import numpy as np
+
+from ..model import Circuit, MeterProfile, SEMICONDUCTORS
+from .factor import Factorization
+from .junctions import law
+from .linpredict import Prediction, _lifted, _live_block, analysis_key, finish, parameters
+from .nonlinear import System, junction_grad
+from .offnet import off_reading
+from .stamps import Stamps
+
+__all__ = ["predict_nonlinear", "split_overrides", "DCGroup", "ACGroup", "junction_current"]
+
+
+def split_overrides(circuit: Circuit, overrides: dict | None) -> tuple[Circuit, dict]:
+    """Write drifted values into the parts; return the circuit and the other overrides.
+
+    A drifted open switch becomes closed (partly welded), as engine/oracle.py.
+    """
+    overrides = overrides or {}
+    if not overrides:
+        return circuit, {}
+    parts, rest = [], {}
+    for p in circuit.parts:
+        ov = overrides.get(p.ref)
+        if ov is None or isinstance(ov, (str, tuple)):
+            parts.append(p)
+            if ov is not None:
+                rest[p.ref] = ov
+        else:
+            q = replace(p, value=float(ov))
+            if q.kind == "switch" and q.state == "open":
+                q = replace(q, state="closed")
+            parts.append(q)
+    return replace(circuit, parts=tuple(parts)), rest
+
+
+class DCGroup(Stamps):
+    """The DC operating point of a circuit and its linearized network.
+
+    Attributes
+    ----------
+    sys : System
+    op : OperatingPoint
+    net, lu, x
+        The extended network (matrix: the Jacobian at ``op``), its factors,
+        the solution: what predict's block solves read.
+    """
+
+    def __init__(self, circuit, overrides, pindex, warm=None, floating=False, probe=None):
+        self.circuit = circuit
+        self.overrides = dict(overrides or {})
+        self.cols = {}
+        self.keep = False
+        self.sys = System(circuit, "dc", None, overrides, floating, probe=probe, pindex=pindex)
+        self.op = self.sys.solve(warm)
+        J = self.sys.jacobian(self.op)
+        net = self.sys.linear_network(J)
+        self.lu = Factorization(J)
+        self.x = self.op.x
+        super().__init__(circuit, net, pindex)
+
+    def grad_block(self, Lam, X, n_params, skips):
+        G = super().grad_block(Lam, X, n_params, skips)
+        return G + junction_grad(self.sys, Lam, self.op.v, n_params)
+
+
+class ACGroup(Stamps):
+    """The small-signal network at one frequency about a :class:`DCGroup`'s operating point."""
+
+    def __init__(self, circuit, overrides, frequency, pindex, dc: DCGroup, probe=None):
+        self.circuit = circuit
+        self.overrides = dict(overrides or {})
+        self.cols = {}
+        self.keep = False
+        self.dc = dc
+        self.sys = System(circuit, "ac", frequency, overrides, probe=probe, pindex=pindex)
+        pos = {k: i for i, k in enumerate(dc.sys.keys)}
+        self.dc_index = np.array([pos[k] for k in self.sys.keys], dtype=np.int64)
+        self.v = dc.op.v[self.dc_index] if len(self.dc_index) else np.zeros(0)
+        _, self.g = law(self.v, self.sys.log_is, self.sys.nvt)
+        A = self.sys.matrix(self.g)
+        net = self.sys.linear_network(A)
+        self.lu = Factorization(A)
+        self.x = self.lu.solve(self.sys.b)
+        super().__init__(circuit, net, pindex)
+
+    def grad_block(self, Lam, X, n_params, skips):
+        G = super().grad_block(Lam, X, n_params, skips)
+        s = self.sys
+        if not len(s.keys):
+            return G
+        G = G.astype(complex, copy=False)
+        Lam = np.asarray(Lam)
+        X = np.asarray(X)
+        lw = (np.where(s.out[:, :, None] >= 0, Lam[np.maximum(s.out, 0)], 0.0)
+              * s.w[:, :, None]).sum(axis=1)                                   # (k, cols)
+        xp = np.where(s.p[:, None] >= 0, X[np.maximum(s.p, 0)], 0.0)
+        xq = np.where(s.q[:, None] >= 0, X[np.maximum(s.q, 0)], 0.0)
+        c = lw * (xp - xq)                                                     # (k, cols)
+        # at fixed operating point: g_k scales with Is_k
+        ks = np.flatnonzero(s.par >= 0)
+        if ks.size:
+            np.add.at(G, s.par[ks], -c[ks] * (self.g[ks] * s.dlog_is[ks])[:, None])
+        # through the operating point: dg_k = g_k / nVt_k dv_k, v_k = d_k^T x_dc
+        d = self.dc.sys
+        h = np.zeros((d.size, c.shape[1]), dtype=complex)
+        coef = c * (self.g / s.nvt)[:, None]
+        kd = self.dc_index
+        pm, qm = d.p[kd] >= 0, d.q[kd] >= 0
+        np.add.at(h, d.p[kd][pm], coef[pm])
+        np.subtract.at(h, d.q[kd][qm], coef[qm])
+        mu = self.dc.lu.solve_adjoint(h)
+        G = G - self.dc.grad_block(mu, np.repeat(self.dc.x[:, None], c.shape[1], axis=1),
+                                   n_params, [-1] * c.shape[1])
+        return G
+
+
+def junction_current(circuit, overrides, key, ref, meter, pindex, npar, dc):
+    """A current reading through a semiconductor's lead: exact re-solve with the meter's shunt there.
+
+    Returns ``(complex value, sensitivity row)``; a lead the fault left open reads 0.
+    """
+    probe = (ref, float(meter.current_shunt))
+    pd = DCGroup(circuit, overrides, pindex, warm=dc.op, probe=probe)
+    if pd.sys.probe_open:
+        return 0.0, np.zeros(npar)
+    grp = pd if key[0] == "dc" else ACGroup(circuit, overrides, key[1], pindex, pd, probe=probe)
+    u = np.zeros(grp.sys.size, dtype=grp.net.A.dtype)
+    for k, cf in grp.sys.probe_u.items():
+        u[k] = cf
+    lam = grp.lu.solve_adjoint(u)
+    G = grp.grad_block(lam[:, None], grp.x[:, None], npar, [-1])
+    return complex(u @ grp.x), G[:, 0]
+
+
+def predict_nonlinear(circuit: Circuit, readings, meters: dict, overrides: dict | None = None, *,
+                      share: dict | None = None, warm=None) -> Prediction:
+    """:func:`faultfind.engine.predict.predict` for a circuit with semiconductors.
+
+    ``warm``: an earlier prediction's ``operating_point`` (or an
+    OperatingPoint) to start Newton from.  ``share`` holds the DC group under
+    ``("dc", None)`` and AC groups under ``("ac", f)`` as the linear path does.
+
+    Raises
+    ------
+    ConvergenceError
+        No DC operating point (names the parts).
+    """
+    if "default" not in meters:
+        raise ValueError("meters: must contain a 'default' profile")
+    c, over = split_overrides(circuit, overrides)
+    params = parameters(circuit)
+    pindex = {r: j for j, r in enumerate(params)}
+    npar = len(params)
+    readings = list(readings)
+    nr = len(readings)
+    value = np.zeros(nr, dtype=complex)
+    any_ac = any(rd.quantity not in ("resistance", "diode-test") and rd.mode == "ac" for rd in readings)
+    sens = np.zeros((nr, npar), dtype=complex if any_ac else float)
+    by_key: dict = {}
+    for i, rd in enumerate(readings):
+        meter: MeterProfile = meters.get(rd.meter or "default")
+        if meter is None:
+            raise ValueError(f"reading {i}: meter profile {rd.meter!r} is not defined")
+        key = analysis_key(circuit, rd)
+        if key[0] == "lifted":
+            value[i], sens[i] = _lifted(c, rd, pindex, npar, over, meter)
+        elif key[0] == "off":
+            plus, minus = c.part(rd.part).nodes[:2] if rd.part is not None else (rd.plus, rd.minus)
+            value[i], sens[i] = off_reading(c, plus, minus, rd.quantity, meter, over, pindex, npar)
+        else:
+            by_key.setdefault(key, []).append(i)
+    dc = None
+    usable = share is not None and not overrides
+
+    def shared(key):
+        g = share.get(key) if usable else None
+        return g if g is not None and g.circuit is c else None
+
+    if by_key or warm is not None or share is not None:
+        dc = shared(("dc", None)) or DCGroup(c, over, pindex, warm=warm)
+        if share is not None and usable:
+            share[("dc", None)] = dc
+    for key, idx in by_key.items():
+        grp = dc if key[0] == "dc" else (shared(key) or ACGroup(c, over, key[1], pindex, dc))
+        if share is not None and usable:
+            share[key] = grp
+        grp.cols = {}
+        grp.keep = share is not None
+        plain = []
+        for i in idx:
+            rd = readings[i]
+            if (rd.quantity == "current" and c.part(rd.part).kind in SEMICONDUCTORS
+                    and rd.part in dc.sys.devices):
+                meter = meters[rd.meter or "default"]
+                value[i], sens[i] = junction_current(c, over, key, rd.part, meter, pindex, npar, dc)
+            else:
+                plain.append(i)
+        if plain:
+            _live_block(c, grp, readings, plain, meters, npar, pindex, value, sens)
+    return finish(readings, value, sens, params, any_ac,
+                  dc.op.voltages() if dc is not None else None)

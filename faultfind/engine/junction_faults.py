@@ -40,6 +40,7 @@ from ..errors import SolveError
 from ..model import Part
 from .drifts import _occam, parabola_step
 from .faults import Fault
+from .oracle import oracle_readings
 from .predict import predict
 
 __all__ = ["JUNCTION_DRIFT", "LEAK_RANGE", "NONLINEAR_TOP", "EXACT_ALL", "RESCORE_WINDOW",
@@ -59,6 +60,11 @@ NONLINEAR_TOP = 8
 #: solved one is re-solved too, up to :data:`RESCORE_MAX` in all.
 RESCORE_WINDOW = 10.0
 RESCORE_MAX = 40
+#: On boards of at most this many parts the live readings of a hypothesis are
+#: re-solved with the meter in the circuit (the oracle), not by the linearised
+#: meter loading of ``predict``: a node held only by junctions at a tiny current
+#: (behind an open LED) is pulled by a 10 Mohm voltmeter far beyond first order.
+EXACT_METER_PARTS = 60
 #: Boards with at most this many open / short / dead hypotheses of linear parts
 #: have each of them re-solved exactly in the first pass: an open or short near a
 #: junction moves its working point far beyond what the linearisation holds.
@@ -129,6 +135,10 @@ class Exact:
         # Newton starts from the healthy operating point (the DC group predict() shared)
         share = getattr(ev, "share", None) or {}
         self.warm = getattr(share.get(("dc", None)), "op", None)
+        # live readings re-solved with the meter in the circuit (see EXACT_METER_PARTS)
+        self.live = [i for i, rd in enumerate(ev.readings)
+                     if rd.quantity in ("voltage", "current")]
+        self.exact_meter = len(ev.circuit.parts) <= EXACT_METER_PARTS and bool(self.live)
 
     def solve(self, faults):
         """``(displays (n,), sensitivity (n, m))`` under ``faults``; NaN displays and
@@ -146,7 +156,12 @@ class Exact:
         except _ERRORS:
             got = (np.full(ev.n, np.nan), None)
         else:
-            val = np.asarray(pr.value, dtype=float)
+            val = np.asarray(pr.value, dtype=float).copy()
+            if self.exact_meter:
+                live = [ev.readings[i] for i in self.live]
+                o = oracle_readings(circuit, live, ev.meters, overrides)
+                ac = np.array([rd.mode == "ac" for rd in live])
+                val[self.live] = np.where(np.isnan(o.real), np.nan, np.where(ac, np.abs(o), o.real))
             S = np.zeros((ev.n, len(ev.params)))
             col = [ev.pindex.get(r, -1) for r in pr.params]
             have = [k for k, j in enumerate(col) if j >= 0]

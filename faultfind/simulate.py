@@ -49,7 +49,7 @@ def fault_overrides(faults) -> dict:
     for ref, mode, value in faults:
         if mode == "drift":
             out[ref] = float(value)
-        elif mode == "leaky":
+        elif mode == "leaky":     # a junction's leak resistance, ohms
             out[ref] = ("leaky", float(value) if value else LEAK_DEFAULT)
         else:
             out[ref] = mode
@@ -69,7 +69,8 @@ def simulate_readings(circuit: Circuit, readings, meters: dict, faults=(), rng=N
     meters : dict
         Meter profiles with "default".
     faults : sequence of (ref, mode, value)
-        Faults to plant; ``value`` is the drifted value (SI) for a drift.
+        Faults to plant; ``value`` is the drifted value (SI) for a drift and
+        the leak resistance (ohms) for a junction's "leaky".
     rng : numpy Generator or int, optional
     board : Circuit, optional
         A board from :func:`draw_board`; drawn from ``rng`` when omitted.

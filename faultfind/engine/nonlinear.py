@@ -118,14 +118,16 @@ class System:
         collector): a conductance ``1/ohms``, or a zero-volt branch for 0.
         :attr:`probe_u` then reads the current through it (into the part).
     source : (str, str, float, float), optional
-        (plus, minus, current, open-circuit voltage): the meter's test
-        source for a power-off reading, a current source driving ``current``
-        into ``plus`` whose voltage is clamped at the open-circuit voltage
-        (an exponential clamp element with ``n Vt`` = :data:`CLAMP_NVT`).
+        (plus, minus, current, knee voltage): the meter's test source for a
+        power-off reading, a current source driving ``current`` into
+        ``plus`` whose voltage is clamped at the knee (an exponential clamp
+        element passing ``current`` at the knee, ``n Vt`` =
+        :attr:`CLAMP_NVT`).
     """
 
-    #: Slope of the meter source's compliance clamp (volts per e-fold).
-    CLAMP_NVT = 0.01
+    #: Slope of the meter source's compliance clamp (volts per e-fold): 0.5 V
+    #: below its knee the clamp takes exp(-20), 2e-9, of the test current.
+    CLAMP_NVT = 0.025
 
     def __init__(self, circuit, analysis, frequency=None, overrides=None, floating=False,
                  probe=None, source=None, pindex=None):
@@ -212,6 +214,7 @@ class System:
             ip, im = idx[plus], idx[minus]
             clamp = Element("clamp", "+", "-", float(np.log(cur) - voc / self.CLAMP_NVT),
                             self.CLAMP_NVT, (("+", 1.0), ("-", -1.0)))
+            self._src = (idx[plus], idx[minus], cur, voc)
             els.append(("__meter__", clamp, {"+": ip, "-": im}))
             b_extra = {ip: cur, im: -cur}
             self._src = (ip, im, cur, voc)
@@ -302,7 +305,14 @@ class System:
                     + 1j * np.bincount(self._inv, weights=vals.imag, minlength=self._nuniq))
         else:
             data = np.bincount(self._inv, weights=vals, minlength=self._nuniq)
-        return sp.csc_matrix((data, self._indices, self._indptr), shape=(self.size, self.size))
+        J = getattr(self, "_J", None)
+        if J is None or J.dtype != data.dtype:
+            J = self._J = sp.csc_matrix((data, self._indices, self._indptr),
+                                        shape=(self.size, self.size))
+            return J.copy()
+        J = J.copy()     # a new matrix object sharing the pattern (no format checks)
+        J.data = data
+        return J
 
     def control(self, x):
         """Element control voltages of a solution ``x``."""

@@ -6,12 +6,12 @@ a network with junctions what it displays depends on that current
 
 Diode test
     The meter is a current source of ``diode_test_current`` into the red
-    probe (``plus``) whose voltage is clamped at ``diode_test_voltage``
-    (its open-circuit voltage).  The display is the voltage developed
-    between the probes, ``OL`` when that is above the display's top
-    (``diode_test_max``) or when the clamp takes more than half the test
-    current (the voltage would exceed the open-circuit voltage: a reversed
-    or open junction).
+    probe (``plus``) whose voltage is clamped at its open-circuit voltage
+    ``diode_test_voltage`` (at least :data:`KNEE_MARGIN` above the
+    display's top).  The display is the voltage developed between the
+    probes, ``OL`` when that is above the display's top (``diode_test_max``,
+    or the open-circuit voltage if that is lower) or when the clamp takes
+    more than half the test current (a reversed or open junction).
 Resistance
     An auto-ranging constant-current ohmmeter
     (:func:`~.meter.ohmmeter_ranges`): on each range, lowest first, the
@@ -47,6 +47,10 @@ __all__ = ["off_reading", "lifted_junction", "lifted_junction_sens", "diode_test
 #: A diode-test or ohms reading is OL when the source's clamp takes more than
 #: this share of the test current.
 CLAMP_SHARE = 0.5
+#: The source's clamp knee sits at least this far above the highest voltage
+#: a reading can display (the diode test's top, an ohms range's full-scale
+#: voltage), so that below it the clamp takes under 2e-9 of the current.
+KNEE_MARGIN = 0.5
 
 
 def diode_test_display_limit(meter) -> float:
@@ -103,13 +107,14 @@ def off_reading(circuit: Circuit, plus: str, minus: str, quantity: str, meter, o
     if plus == minus:
         return 0.0, zeros
     if quantity == "diode-test":
-        current, voc = meter.diode_test_current, meter.diode_test_voltage
+        current = meter.diode_test_current
         plan = [(np.inf, current)]
         top = diode_test_display_limit(meter)
+        voc = max(meter.diode_test_voltage, top + KNEE_MARGIN)
     elif quantity == "resistance":
         plan = ohmmeter_ranges(meter)
         vfs = meter.counts * meter.voltage_resolution
-        voc = max(OHMS_COMPLIANCE, 1.5 * vfs)
+        voc = max(OHMS_COMPLIANCE, vfs + KNEE_MARGIN)
         top = np.inf
     else:
         raise ValueError(f"quantity: expected 'diode-test' or 'resistance', got {quantity!r}")

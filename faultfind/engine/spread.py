@@ -20,12 +20,19 @@ anywhere in its tolerance (a lifted 100 ohm +/-5 % resistor's band is
 95..105 ohm: a part within tolerance is healthy), and capped by the sum of
 all parts' extremes (the worst case).  Parts below the threshold keep the
 linear treatment.
+
+On a circuit with semiconductors (and for diode-test readings) the exact
+excursions are re-solves of the circuit (:func:`~.predict.predict` with the
+part's value changed, Newton starting from the nominal operating point)
+instead of rank-one updates; the linear treatment uses the linearization
+at the operating point (engine/semis.py).
 """
 
 from __future__ import annotations
 
 import numpy as np
 
+from ..errors import SolveError
 from .bands import COVERAGE_FACTOR, log_tolerance
 from .hypotheses import Board
 from .predict import predict
@@ -40,6 +47,20 @@ def _combine(mean, var, lo_sum, hi_sum, one_lo, one_hi):
     low = np.maximum(np.minimum(mean - COVERAGE_FACTOR * sd, one_lo), lo_sum)
     high = np.minimum(np.maximum(mean + COVERAGE_FACTOR * sd, one_hi), hi_sum)
     return low, high, sd
+
+
+def _resolved(circuit, readings, meters, part, factors, rows, y0, warm):
+    """Displays with ``part`` at each value factor, by re-solving (only the ``rows`` readings)."""
+    idx = np.flatnonzero(rows)
+    P = np.tile(np.asarray(y0, dtype=float), (len(factors), 1))
+    sub = [readings[i] for i in idx]
+    for k, f in enumerate(factors):
+        try:
+            P[k, idx] = predict(circuit, sub, meters, {part.ref: part.value * float(f)},
+                                warm=warm).value
+        except SolveError:
+            P[k, idx] = np.nan
+    return P
 
 
 def tolerance_bands(circuit, readings, meters, significant=0.01):
@@ -89,13 +110,20 @@ def tolerance_bands(circuit, readings, meters, significant=0.01):
         acc[key + "v" if key else "v"] += (ML ** 2) @ (half ** 2 / 3.0)
         acc[key + "lo" if key else "lo"] += ML @ centre - np.abs(ML) @ half
         acc[key + "hi" if key else "hi"] += ML @ centre + np.abs(ML) @ half
+    # a circuit with semiconductors (or a diode-test reading) is moved by exact
+    # re-solves, each starting from the nominal operating point
+    resolve = circuit.is_nonlinear or any(rd.quantity == "diode-test" for rd in readings)
     if exact.any():
-        board = Board(circuit, readings, meters)
+        board = None if resolve else Board(circuit, readings, meters)
         for j in np.flatnonzero(exact):
             part = circuit.part(pred.params[j])
             a, b = centre[j] - half[j], centre[j] + half[j]
             rho = np.concatenate([centre[j] + half[j] * _NODES, [a, b]])
-            P = board.predict_fault(part, "drift", np.exp(rho))
+            if board is None:
+                P = _resolved(circuit, readings, meters, part, np.exp(rho), E[:, j], yf,
+                              pred.operating_point)
+            else:
+                P = board.predict_fault(part, "drift", np.exp(rho))
             P = np.where(np.isfinite(P), P, yf)
             P = np.where(E[:, j][None, :], P, yf)      # only the readings it is significant for
             d = P - yf

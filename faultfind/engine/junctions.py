@@ -258,7 +258,7 @@ def law(v, log_is, nvt):
     80 the law continues along its tangent (an overflow guard).
     """
     t = np.asarray(v, dtype=float) / nvt
-    tc = np.minimum(t, _EXP_MAX)
+    tc = np.minimum(t, _EXP_MAX - np.asarray(log_is))   # the guard is on the whole exponent
     e = np.exp(tc + log_is)
     g = e / nvt
     i = e * (1.0 + (t - tc)) - np.exp(log_is)

@@ -207,7 +207,7 @@ def _weights(ev, drop):
     if drop >= 0:
         var = var - e.S0[:, drop] ** 2 * e.var_p[drop]
     var = np.clip(var, 0.0, None) + e.u ** 2
-    w = np.where(e.ol | ~np.isfinite(e.y), 0.0, 1.0 / np.where(var > 0, var, 1.0))
+    w = np.where(e.ol | ~np.isfinite(e.y) | ~np.isfinite(e.pred0), 0.0, 1.0 / np.where(var > 0, var, 1.0))
     return w
 
 
@@ -247,7 +247,7 @@ def fit_junction_drift(ev, part):
         rho = hi
         f = Fault(part.ref, "drift", float(part.value * np.exp(rho)), seen=False)
         return f, ex.solve([f])[0], None, 0.0
-    r0 = y - ev.healthy_prediction()
+    r0 = np.where(w > 0, y - np.where(np.isfinite(ev.healthy_prediction()), ev.healthy_prediction(), 0.0), 0.0)
     rho = float(np.clip(np.sum(w * s0 * r0) / info, lo, hi))
     best = None
     for _ in range(_GN_STEPS):

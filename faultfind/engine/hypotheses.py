@@ -154,6 +154,9 @@ class Board:
             else:
                 keys.setdefault(key, []).append(i)
         share = share or {}
+        if circuit.is_nonlinear and not share and keys:
+            # a board with junctions: the groups are the linearisation at the operating point
+            predict(circuit, self.readings, meters, share=share)
         self.groups = {}
         for k, idx in keys.items():
             sh = share.get(k)

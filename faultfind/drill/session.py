@@ -32,9 +32,10 @@ _KINDS = {"v": ("voltage", "dc", None), "vdc": ("voltage", "dc", None),
           "vac": ("voltage", "ac", None), "i": ("current", "dc", None),
           "idc": ("current", "dc", None), "iac": ("current", "ac", None),
           "r": ("resistance", None, "in-circuit"), "rl": ("resistance", None, "lifted"),
-          "rlifted": ("resistance", None, "lifted")}
-_READ_HELP = ("a reading is KIND WHERE, KIND one of V, I, R (Vac, Iac, Rlifted): read V TP1, "
-              "read V A,B, read I R3, read R F1, read R R2 lifted, read V OUT ac 1k")
+          "rlifted": ("resistance", None, "lifted"), "d": ("diode-test", None, None)}
+_READ_HELP = ("a reading is KIND WHERE, KIND one of V, I, R, D (Vac, Iac, Rlifted): read V TP1, "
+              "read V A,B, read I R3, read R F1, read R R2 lifted, read V OUT ac 1k, "
+              "read D D3 (diode test, power off), read D B,0V")
 
 
 # -- the drill ---------------------------------------------------------------------------
@@ -445,7 +446,7 @@ class Drill:
         freq = None
         for i, word in enumerate(rest):
             w = word.lower()
-            if w in ("ac", "dc") and quantity != "resistance":
+            if w in ("ac", "dc") and quantity not in ("resistance", "diode-test"):
                 mode = w
                 if w == "ac" and rest[i + 1:]:
                     freq = " ".join(rest[i + 1:])
@@ -455,6 +456,7 @@ class Drill:
             else:
                 raise InputError(f"{word!r} not understood after {where!r}: " + (
                     "a resistance reading may end in 'lifted'" if quantity == "resistance"
+                    else "a diode test takes nothing after where it is" if quantity == "diode-test"
                     else "a voltage or current reading may end in 'ac' (and a frequency) or "
                          "'dc'"), key="reading")
         cells = {"quantity": quantity, "mode": mode, "setup": setup, "frequency": freq}

@@ -125,5 +125,6 @@ class ConvergenceError(InputError, SolveError):
     def __init__(self, message, *, parts=(), **kw):
         self.parts = tuple(parts)
         if kw.get("part") is None and self.parts:
-            kw["part"] = ", ".join(self.parts)
+            kw["part"] = ", ".join(self.parts[:8]) + (
+                f" and {len(self.parts) - 8} more" if len(self.parts) > 8 else "")
         super().__init__(message, **kw)

@@ -50,7 +50,7 @@ import numpy as np
 
 from ..errors import InputError
 
-__all__ = ["VT", "GMIN", "Element", "Conductance", "Device", "device", "saturation_log",
+__all__ = ["VT", "GMIN", "ARG_MAX", "Element", "Conductance", "Device", "device", "saturation_log",
            "law", "limit", "critical_voltage", "forward_voltage_at"]
 
 #: Thermal voltage k T / q at 25 °C (298.15 K), CODATA 2018 exact constants:
@@ -62,9 +62,10 @@ VT = 1.380649e-23 * 298.15 / 1.602176634e-19
 #: changes no reading by more than picoamperes per volt.
 GMIN = 1e-12
 
-#: Exponent above which a law continues as its tangent (overflow guard only;
-#: the limiting keeps Newton's iterates far below it).
-_EXP_MAX = 80.0
+#: ``ln`` of the current (amperes) above which a law continues as its tangent:
+#: 1 kA.  Newton's iterates may pass it (the limiting brings them back); a
+#: solution past it is refused (a junction straight across a supply).
+ARG_MAX = math.log(1e3)
 
 #: Collector current at which a transistor's ``vbe`` holds (formats.md section 4).
 VBE_CURRENT = 1e-3
@@ -91,6 +92,10 @@ class Element:
         into the device is ``weight * i``.
     dlog_is : float
         ``d ln Is / d ln value`` (0 for a device without a value).
+    voff : float
+        The knee of a law with an offset (a zener's breakdown voltage, the
+        meter clamp's knee): voltage limiting works on ``v - voff`` (as
+        SPICE limits a breakdown), 0 for an ordinary junction.
     """
 
     name: str
@@ -100,6 +105,7 @@ class Element:
     nvt: float
     out: tuple
     dlog_is: float = 0.0
+    voff: float = 0.0
 
 
 @dataclass(frozen=True)
@@ -215,7 +221,7 @@ def device(part, override=None) -> Device:
                                  f"at test_current ({drop:.4g} V)", part=part.ref,
                                  key="series_resistance")
             els.append(Element("breakdown", "c", "j", math.log(it) - vz0 / nvt, nvt,
-                               (("c", 1.0), ("j", -1.0)), -value / nvt))
+                               (("c", 1.0), ("j", -1.0)), -value / nvt, vz0))
         else:
             vj0 = value - drop
             if vj0 <= 0:
@@ -254,12 +260,13 @@ def device(part, override=None) -> Device:
 def law(v, log_is, nvt):
     """Current and conductance of exponential elements at control voltages ``v``.
 
-    ``i = exp(v / nvt + ln Is) - Is`` and ``g = di/dv``; past an exponent of
-    80 the law continues along its tangent (an overflow guard).
+    ``i = exp(v / nvt + ln Is) - Is`` and ``g = di/dv``; past a current of
+    :data:`ARG_MAX` (1 kA) the law continues along its tangent (an overflow
+    guard).
     """
-    t = np.asarray(v, dtype=float) / nvt
-    tc = np.minimum(t, _EXP_MAX - np.asarray(log_is))   # the guard is on the whole exponent
-    e = np.exp(tc + log_is)
+    t = np.asarray(v, dtype=float) / nvt + log_is
+    tc = np.minimum(t, ARG_MAX)
+    e = np.exp(tc)
     g = e / nvt
     i = e * (1.0 + (t - tc)) - np.exp(log_is)
     return i, g

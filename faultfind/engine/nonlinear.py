@@ -38,6 +38,7 @@ Linear circuits never come here (``Circuit.is_nonlinear`` is false).
 
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass
 
 import numpy as np
@@ -46,7 +47,7 @@ from scipy.sparse.linalg import splu
 
 from ..errors import ConvergenceError
 from ..model import SEMICONDUCTORS
-from .junctions import Element, critical_voltage, device, law, limit
+from .junctions import ARG_MAX, Element, critical_voltage, device, law, limit
 from .mna import Network, assemble
 
 __all__ = ["System", "OperatingPoint", "operating_point", "ConvergenceError",
@@ -60,6 +61,9 @@ MAXITER = 150
 DAMP_AFTER = 60
 #: gmin stepping: conductances from every node to the reference, siemens.
 GMIN_STEPS = tuple(10.0 ** -k for k in range(2, 13))
+#: A probe shunt below this (ohms) is a zero-volt branch: a conductance of a
+#: million siemens beside milli-siemens would swamp the solution in round-off.
+MIN_SHUNT = 1e-6
 #: Source stepping: the smallest fraction of a step before giving up.
 MIN_SOURCE_STEP = 1e-3
 
@@ -115,7 +119,8 @@ class System:
     probe : (str, float), optional
         (part ref, shunt ohms): a current probe in the lead of that
         semiconductor (the anode of a two-terminal part, a transistor's
-        collector): a conductance ``1/ohms``, or a zero-volt branch for 0.
+        collector): a conductance ``1/ohms``, or a zero-volt branch below
+        :data:`MIN_SHUNT`.
         :attr:`probe_u` then reads the current through it (into the part).
     source : (str, str, float, float), optional
         (plus, minus, current, knee voltage): the meter's test source for a
@@ -185,7 +190,7 @@ class System:
                         if roles[r2] == outer and (r2 == role or (r2 == "j" and role == "a")):
                             roles[r2] = inner
                     u = {}
-                    if probe[1] > 0:
+                    if probe[1] > MIN_SHUNT:
                         cond(outer, inner, 1.0 / probe[1])
                         u = {outer: 1.0 / probe[1], inner: -1.0 / probe[1]}
                     else:
@@ -213,7 +218,7 @@ class System:
             plus, minus, cur, voc = source
             ip, im = idx[plus], idx[minus]
             clamp = Element("clamp", "+", "-", float(np.log(cur) - voc / self.CLAMP_NVT),
-                            self.CLAMP_NVT, (("+", 1.0), ("-", -1.0)))
+                            self.CLAMP_NVT, (("+", 1.0), ("-", -1.0)), 0.0, float(voc))
             self._src = (idx[plus], idx[minus], cur, voc)
             els.append(("__meter__", clamp, {"+": ip, "-": im}))
             b_extra = {ip: cur, im: -cur}
@@ -248,7 +253,9 @@ class System:
         self.log_is = np.array([el.log_is for _, el, _ in els], dtype=float)
         self.nvt = np.array([el.nvt for _, el, _ in els], dtype=float)
         self.dlog_is = np.array([el.dlog_is for _, el, _ in els], dtype=float)
-        self.vcrit = critical_voltage(self.log_is, self.nvt) if ne else np.zeros(0)
+        self.voff = np.array([el.voff for _, el, _ in els], dtype=float)
+        self.vcrit = (critical_voltage(self.log_is + self.voff / self.nvt, self.nvt)
+                      if ne else np.zeros(0))
         pindex = pindex or {}
         self.par = np.array([pindex.get(ref, -1) if d != 0 else -1
                              for (ref, _, _), d in zip(els, self.dlog_is)], dtype=np.int64)
@@ -267,7 +274,8 @@ class System:
             if k >= 0:
                 self.b[k] += sgn * (current - cur)
         self.log_is[-1] = np.log(current) - voc / self.CLAMP_NVT
-        self.vcrit[-1] = critical_voltage(self.log_is[-1], self.nvt[-1])
+        self.voff[-1] = voc
+        self.vcrit[-1] = critical_voltage(np.log(current), self.nvt[-1])
         self._src = (ip, im, current, voc)
 
     # ------------------------------------------------------------------ matrix
@@ -337,6 +345,7 @@ class System:
 
     # ------------------------------------------------------------------ Newton
     def _initial(self, warm):
+        """Forward junctions start at their critical voltage (as SPICE), the rest at 0 V."""
         v = np.where(np.array([k[1] == "forward" for k in self.keys], dtype=bool),
                      self.vcrit, 0.0) if self.keys else np.zeros(0)
         v = np.array(v, dtype=float)
@@ -364,7 +373,8 @@ class System:
             if not np.all(np.isfinite(x)):
                 return None, v, it, False, np.ones(len(v), dtype=bool)
             vraw = self.control(x)
-            vnew, lim = limit(vraw, v, self.nvt, self.vcrit)
+            vnew, lim = limit(vraw - self.voff, v - self.voff, self.nvt, self.vcrit)
+            vnew = vnew + self.voff
             bad = lim | (np.abs(vraw - v) > VTOL)
             if not bad.any():
                 return x, v, it, True, bad
@@ -373,7 +383,8 @@ class System:
             v = vnew
         return x, v, maxiter, False, bad
 
-    def solve(self, warm=None, b=None) -> OperatingPoint:
+    def solve(self, warm=None, b=None, maxiter=MAXITER,
+              methods=("newton", "gmin", "source")) -> OperatingPoint:
         """The operating point (see the module docstring for the method).
 
         Parameters
@@ -382,6 +393,12 @@ class System:
             Element voltages to start from.
         b : ndarray, optional
             A right-hand side of the system's size instead of the circuit's own.
+        maxiter : int, optional
+            Newton iterations per attempt (plain Newton, and each gmin or
+            source step).
+        methods : tuple of str, optional
+            The strategies to try, in this order: "newton", "gmin" (gmin
+            stepping), "source" (source stepping).
 
         Raises
         ------
@@ -392,53 +409,75 @@ class System:
         if self.analysis == "ac":
             raise ValueError("analysis: an AC system is solved about a DC operating point "
                              "(small_signal), not by Newton")
+        unknown = set(methods) - {"newton", "gmin", "source"}
+        if unknown:
+            raise ValueError(f"methods: unknown {sorted(unknown)}")
         v0 = self._initial(warm)
         total = 0
-        x, v, it, ok, bad = self._newton(v0, b)
-        total += it
-        if ok:
-            return OperatingPoint(x, v, self.keys, total, "newton")
-        worst = bad.copy()
-        # gmin stepping
-        vg = v0
-        ok_g = True
-        for gm in GMIN_STEPS:
-            x, vg2, it, ok_g, bad = self._newton(vg, b, gmin=gm)
-            total += it
-            if not ok_g:
-                break
-            vg = vg2
-        if ok_g:
-            x, v, it, ok, bad = self._newton(vg, b)
+        worst = np.zeros(len(v0), dtype=bool)
+        if "newton" in methods:
+            x, v, it, ok, bad = self._newton(v0, b, maxiter=maxiter)
             total += it
             if ok:
-                return OperatingPoint(x, v, self.keys, total, "gmin stepping")
-        worst |= bad
-        # source stepping
-        scale, step = 0.0, 0.1
-        vs = self._initial(None)
-        while scale < 1.0:
-            trial = min(1.0, scale + step)
-            x, vs2, it, ok, bad = self._newton(vs, b * trial)
-            total += it
-            if ok:
-                scale, vs = trial, vs2
-                step = min(step * 2.0, 0.25)
-            else:
-                step /= 2.0
-                if step < MIN_SOURCE_STEP:
-                    worst |= bad
+                return self._checked(OperatingPoint(x, v, self.keys, total, "newton"))
+            worst |= bad
+        if "gmin" in methods:
+            # gmin stepping: from a heavily loaded network down to none, each step warm
+            vg, ok_g = v0, True
+            for gm in GMIN_STEPS:
+                x, vg2, it, ok_g, bad = self._newton(vg, b, gmin=gm, maxiter=maxiter)
+                total += it
+                if not ok_g:
                     break
-        else:
-            return OperatingPoint(x, vs, self.keys, total, "source stepping")
+                vg = vg2
+            if ok_g:
+                x, v, it, ok, bad = self._newton(vg, b, maxiter=maxiter)
+                total += it
+                if ok:
+                    return self._checked(OperatingPoint(x, v, self.keys, total, "gmin stepping"))
+            worst |= bad
+        if "source" in methods:
+            # source stepping: every source ramped from 0, the step halved when one fails
+            scale, step = 0.0, 0.1
+            vs = self._initial(None)
+            while True:
+                trial = min(1.0, scale + step)
+                x, vs2, it, ok, bad = self._newton(vs, b * trial, maxiter=maxiter)
+                total += it
+                if ok:
+                    scale, vs = trial, vs2
+                    if scale >= 1.0:
+                        return self._checked(OperatingPoint(x, vs, self.keys, total,
+                                                            "source stepping"))
+                    step = min(step * 2.0, 0.25)
+                else:
+                    step /= 2.0
+                    if step < MIN_SOURCE_STEP:
+                        worst |= bad
+                        break
         refs = sorted({self.refs[k] for k in np.flatnonzero(worst)} - {"__meter__"})
         if not refs:
             refs = sorted(set(self.refs) - {"__meter__"})
+        refs = sorted(refs, key=_natural)
         raise ConvergenceError(
             "no DC operating point found (Newton's method, gmin stepping and source stepping "
-            "all failed); the junctions of " + ", ".join(refs) + " did not settle: check how "
+            "all failed); the junctions of " + _names(refs) + " did not settle: check how "
             "they are wired (a junction straight across a supply, a transistor reversed)",
             parts=refs)
+
+    def _checked(self, op):
+        """Refuse an operating point with a junction past 1 kA (its law's tangent continuation)."""
+        if len(op.v):
+            over = op.v / self.nvt + self.log_is > ARG_MAX
+            if over.any():
+                refs = sorted({self.refs[k] for k in np.flatnonzero(over)} - {"__meter__"},
+                              key=_natural)
+                if refs:
+                    raise ConvergenceError(
+                        "no physical DC operating point: the junctions of " + _names(refs)
+                        + " would carry more than 1 kA (a junction straight across a supply "
+                        "or a source with nothing to limit its current?)", parts=refs)
+        return op
 
     # ------------------------------------------------------------------ linearization
     def jacobian(self, op: OperatingPoint):
@@ -460,6 +499,18 @@ class System:
         if self.probe_u is not None:
             return sum(c * x[k] for k, c in self.probe_u.items())
         raise ValueError("part_current: the system has no probe")
+
+
+def _natural(ref):
+    """Sort key: D2 before D10."""
+    return [int(t) if t.isdigit() else t for t in re.split(r"(\d+)", ref)]
+
+
+def _names(refs, most=8):
+    """``D1, D2, ... and 12 more`` (parts in natural order)."""
+    refs = sorted(refs, key=_natural)
+    text = ", ".join(refs[:most])
+    return text + (f" and {len(refs) - most} more" if len(refs) > most else "")
 
 
 def operating_point(circuit, overrides=None, warm=None, floating=False) -> tuple:

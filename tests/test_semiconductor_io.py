@@ -397,3 +397,14 @@ def test_bad_meter_keys(text, key, word):
     err = info.value
     assert (err.file, err.line, err.part, err.key) == ("meters.toml", 3, "bench", key)
     assert word in err.message
+
+
+def test_fast_reader_reads_semiconductor_files_as_tomllib_does():
+    # io/fast_toml has no kind-specific path: a semiconductor board (plain strings,
+    # floats such as ideality = 1.9, integers such as gain = 150) is in its subset
+    # and gives tomllib's document (TOML 1.0.0, tomllib the reference reader)
+    import tomllib
+
+    from faultfind.io.fast_toml import loads_subset
+    text = render(board_parts())
+    assert loads_subset(text) is not None and loads_subset(text) == tomllib.loads(text)

@@ -22,7 +22,7 @@ _UNITS = QUANTITY_UNITS
 
 def describe_reading(rd: Reading, circuit: Circuit | None = None) -> str:
     """A reading in the drill's command words: ``V 24V-F``, ``V A,B``, ``I H1``,
-    ``R K1 lifted``, ``V OUT ac 1 kHz``, ``D D3``, ``D B,0V``."""
+    ``R K1 lifted``, ``V OUT ac 1 kHz``."""
     ground = circuit.ground if circuit is not None else None
     if rd.quantity == "current":
         where = rd.part
@@ -31,8 +31,6 @@ def describe_reading(rd: Reading, circuit: Circuit | None = None) -> str:
     else:
         where = rd.plus if rd.minus in (None, ground) else f"{rd.plus},{rd.minus}"
     kind = {"voltage": "V", "current": "I", "resistance": "R", "diode-test": "D"}[rd.quantity]
-    if rd.quantity == "diode-test" and rd.part is None:
-        where = f"{rd.plus},{rd.minus}"   # the black probe always matters
     text = f"{kind} {where}"
     if rd.quantity == "diode-test":
         return text

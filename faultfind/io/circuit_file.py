@@ -567,7 +567,8 @@ def _terminal(part, node):
 
 
 def _a(kind: str) -> str:
-    return ("an " if kind[0] in "aeiou" else "a ") + kind
+    """``a resistor``, ``an inductor``, ``an npn``, ``an led``: as the kind is said aloud."""
+    return ("an " if kind[0] in "aeiou" or kind in ("npn", "led") else "a ") + kind
 
 
 def _good_name(name) -> bool:

@@ -419,14 +419,18 @@ class _RowChecker:
                 self.problem(line, "part", _which_junction(circuit.part(part)))
             elif KINDS[circuit.part(part).kind].nodes != 2:
                 kind = circuit.part(part).kind
-                article = "an" if kind[0] in "aeiou" else "a"
-                self.problem(line, "part", f"{part} is {article} {kind} with "
+                self.problem(line, "part", f"{part} is {_article(kind)} {kind} with "
                              f"{KINDS[kind].nodes} terminals: a {quantity} reading needs a "
                              "two-terminal part")
         if mode == "ac" and not circuit.has_ac:
             self.problem(line, "mode", "an AC reading, but the circuit has no AC source: "
                          "write dc, or add the AC source to the circuit file")
         return plus, minus
+
+
+def _article(kind: str) -> str:
+    """``a`` or ``an`` as the kind is said aloud: an opamp, an npn, an LED, a pnp."""
+    return "an" if kind[0] in "aeiou" or kind in ("npn", "led") else "a"
 
 
 def _which_junction(q) -> str:
@@ -436,7 +440,7 @@ def _which_junction(q) -> str:
         be, bc = f"plus {b}, minus {e}", f"plus {b}, minus {c}"
     else:
         be, bc = f"plus {e}, minus {b}", f"plus {c}, minus {b}"
-    return (f"{q.ref} is a {q.kind} transistor with two junctions: a diode test names the "
+    return (f"{q.ref} is {_article(q.kind)} {q.kind} transistor with two junctions: a diode test names the "
             f"junction by its probes' nodes, not by part. Base-emitter forward: {be}; "
             f"base-collector forward: {bc} (leave part empty)")
 

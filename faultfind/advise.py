@@ -24,7 +24,7 @@ from .engine.junction_faults import exact_faults
 from .engine.meter import standard_uncertainty
 from .engine.predict import predict
 from .engine.priors import HANDBOOK
-from .errors import InputError
+from .errors import InputError, SolveError
 from .io.meters_file import meters_with_default
 from .model import QUANTITY_UNITS, Circuit, Reading
 from .units import format_value
@@ -249,6 +249,17 @@ def _prior_hypotheses(circuit, priors=None):
     return [(f, pr / s) for f, pr in hyps]
 
 
+def _solvable(circuit, rd, meters) -> bool:
+    """False for a power-off reading of a board with junctions that has no solution."""
+    if rd.quantity not in ("resistance", "diode-test") or rd.setup == "lifted":
+        return True
+    try:
+        predict(circuit, [rd], meters)
+    except (ValueError, ArithmeticError, SolveError):   # ConvergenceError is both
+        return False
+    return True
+
+
 def _scale(rd, meter, values):
     """Map displays to the scale the reading's noise is Gaussian on (log for ohms; an OL
     diode test above the display's top, apart from a shorted junction's 0 V)."""
@@ -334,6 +345,8 @@ def _suggest(circuit, readings, meters, hypotheses, costs, power, top, factors, 
     else:
         cands = candidate_readings(circuit, suspects)
     cands = [c for c in cands if _same(circuit, c) not in taken]
+    if circuit.is_nonlinear:   # a power-off reading the engine cannot solve is not offered
+        cands = [c for c in cands if _solvable(circuit, c, meters)]
     if not cands or len(kept) < 2:
         return []
     seen = [r for r in readings if r.value is not None and r.overrange == 0

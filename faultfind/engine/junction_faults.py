@@ -65,13 +65,19 @@ RESCORE_MAX = 40
 #: meter loading of ``predict``: a node held only by junctions at a tiny current
 #: (behind an open LED) is pulled by a 10 Mohm voltmeter far beyond first order.
 EXACT_METER_PARTS = 60
+#: A voltmeter's loading that moves a reading by more than this (volts: about a
+#: junction's n Vt) is re-solved with the meter in the circuit; below it the
+#: linearised loading holds.
+LOADING_CHECK = 0.02
 #: Boards with at most this many open / short / dead hypotheses of linear parts
 #: have each of them re-solved exactly in the first pass: an open or short near a
 #: junction moves its working point far beyond what the linearisation holds.
 EXACT_ALL = 150
 #: Gauss-Newton steps of a junction drift fit.
 _GN_STEPS = 4
-_LEAK_GRID = 6
+_LEAK_GRID = 5
+#: Forward-difference step of the leak fit, in ln r.
+_FD = 1e-3
 _ERRORS = (SolveError, ValueError, ZeroDivisionError, FloatingPointError, ArithmeticError,
            np.linalg.LinAlgError)
 
@@ -138,7 +144,13 @@ class Exact:
         # live readings re-solved with the meter in the circuit (see EXACT_METER_PARTS)
         self.live = [i for i, rd in enumerate(ev.readings)
                      if rd.quantity in ("voltage", "current")]
+        self.live_set = set(self.live)
         self.exact_meter = len(ev.circuit.parts) <= EXACT_METER_PARTS and bool(self.live)
+        # each DC voltage reading also read by a meter that draws nothing, in the same solve:
+        # where the two differ by more than LOADING_CHECK the loading is re-solved exactly
+        self.volts = [i for i in self.live if ev.readings[i].quantity == "voltage"
+                      and ev.readings[i].mode != "ac"]
+        self.meters = dict(ev.meters, __unloaded__=replace(ev.meters["default"], input_resistance=1e18))
 
     def solve(self, faults):
         """``(displays (n,), sensitivity (n, m))`` under ``faults``; NaN displays and
@@ -151,27 +163,62 @@ class Exact:
         circuit, overrides = _faulted(ev.circuit, faults)
         self.solves += 1
         try:
-            kw = {"warm": self.warm} if self.warm is not None else {}
-            pr = predict(circuit, ev.readings, ev.meters, overrides=overrides, **kw)
+            got = self._solve(circuit, overrides, range(ev.n))
         except _ERRORS:
-            got = (np.full(ev.n, np.nan), None)
-        else:
-            val = np.asarray(pr.value, dtype=float).copy()
-            if self.exact_meter:
-                live = [ev.readings[i] for i in self.live]
-                o = oracle_readings(circuit, live, ev.meters, overrides)
-                ac = np.array([rd.mode == "ac" for rd in live])
-                val[self.live] = np.where(np.isnan(o.real), np.nan, np.where(ac, np.abs(o), o.real))
-            S = np.zeros((ev.n, len(ev.params)))
-            col = [ev.pindex.get(r, -1) for r in pr.params]
-            have = [k for k, j in enumerate(col) if j >= 0]
-            S[:, [col[k] for k in have]] = np.asarray(pr.sensitivity, dtype=float)[:, have]
-            S = np.nan_to_num(S, nan=0.0, posinf=0.0, neginf=0.0)
-            got = (val, S)
+            got = self._piecewise(circuit, overrides)
         if len(self.cache) > 4096:
             self.cache.clear()
         self.cache[key] = got
         return got
+
+    def _solve(self, circuit, overrides, rows):
+        """Displays and sensitivities of the readings ``rows`` (raises when unsolvable)."""
+        ev = self.ev
+        rows = list(rows)
+        rds = [ev.readings[i] for i in rows]
+        probe = [i for i in rows if i in self.volts] if self.exact_meter else []
+        rds += [replace(ev.readings[i], meter="__unloaded__") for i in probe]
+        kw = {"warm": self.warm} if self.warm is not None else {}
+        pr = predict(circuit, rds, self.meters, overrides=overrides, **kw)
+        val = np.full(ev.n, np.nan)
+        val[rows] = np.asarray(pr.value, dtype=float)[:len(rows)]
+        if probe:
+            bare = np.asarray(pr.value, dtype=float)[len(rows):]
+            live = [i for i, b in zip(probe, bare) if not abs(val[i] - b) <= LOADING_CHECK]
+            if live:
+                o = oracle_readings(circuit, [ev.readings[i] for i in live], ev.meters, overrides)
+                ac = np.array([ev.readings[i].mode == "ac" for i in live])
+                val[live] = np.where(np.isnan(o.real), np.nan, np.where(ac, np.abs(o), o.real))
+        S = np.zeros((ev.n, len(ev.params)))
+        col = [ev.pindex.get(r, -1) for r in pr.params]
+        have = [k for k, j in enumerate(col) if j >= 0]
+        S[np.ix_(rows, [col[k] for k in have])] = np.asarray(pr.sensitivity, dtype=float)[:len(rows)][:, have]
+        return val, np.nan_to_num(S, nan=0.0, posinf=0.0, neginf=0.0)
+
+    def _piecewise(self, circuit, overrides):
+        """The readings of a faulted board one analysis at a time, when one of them has no
+        solution (a power-off reading the engine cannot settle, a node left held only by
+        junctions): the live readings together, each power-off reading alone.  A reading
+        that still has none is left at what was read (it neither helps nor hurts the
+        hypothesis: ``Board.off_fill``); with no live solution the hypothesis has none."""
+        ev = self.ev
+        off = [i for i in range(ev.n) if i not in self.live_set]
+        val, S = np.full(ev.n, np.nan), np.zeros((ev.n, len(ev.params)))
+        if self.live:
+            try:
+                v, s = self._solve(circuit, overrides, self.live)
+            except _ERRORS:
+                return val, None
+            val[self.live], S[self.live] = v[self.live], s[self.live]
+        fill = ev.off_fill if getattr(ev, "off_fill", None) is not None else \
+            np.where(ev.ev.ol, np.inf, np.nan_to_num(ev.ev.y))
+        for i in off:
+            try:
+                v, s = self._solve(circuit, overrides, [i])
+                val[i], S[i] = v[i], s[i]
+            except _ERRORS:
+                val[i] = fill[i]
+        return val, S
 
 
 def _exact(ev) -> Exact:
@@ -281,8 +328,24 @@ def fit_junction_drift(ev, part):
     return f, pred, sd, occam
 
 
+def _vertex(x, y):
+    """Vertex and half-curvature of the parabola through three points (None when not upward)."""
+    (x0, x1, x2), (y0, y1, y2) = x, y
+    if not (np.all(np.isfinite(y)) and x0 < x1 < x2):
+        return None, None
+    d1, d2 = (y1 - y0) / (x1 - x0), (y2 - y1) / (x2 - x1)
+    a = (d2 - d1) / (x2 - x0)
+    if not a > 0:
+        return None, None
+    return float(np.clip(0.5 * (x0 + x1) - d1 / (2 * a), x0, x2)), float(a)
+
+
 def fit_leak(ev, part):
     """Best leak resistance of a leaky diode ``part`` (grid + parabolas on the exact re-solve).
+
+    Five points over ``ln r`` in :data:`LEAK_RANGE`, the vertex of the parabola
+    through the best and its neighbours, then one more parabola at half the
+    spacing: nine re-solves.
 
     Returns
     -------
@@ -291,43 +354,56 @@ def fit_leak(ev, part):
     ex = _exact(ev)
     j = ev.pindex.get(part.ref, -1)
     lo, hi = np.log(LEAK_RANGE)
-    grid = np.linspace(lo, hi, _LEAK_GRID)
+    seen = {}
 
     def score(x):
-        f = Fault(part.ref, "leaky", float(np.exp(x)))
-        pred, _ = ex.solve([f])
-        if np.isnan(pred).any():
-            return np.inf, f, pred
-        return float(_chi2(ev, pred, j)[0]), f, pred
+        x = float(np.clip(x, lo, hi))
+        if x not in seen:
+            f = Fault(part.ref, "leaky", float(np.exp(x)))
+            pred, _ = ex.solve([f])
+            c2 = np.inf if np.isnan(pred).any() else float(_chi2(ev, pred, j)[0])
+            seen[x] = (c2, f, pred)
+        return seen[x]
 
-    got = [score(x) for x in grid]
-    cc = np.array([g[0] for g in got])
-    if not np.isfinite(cc).any():
-        return got[-1][1], got[-1][2], None, 0.0
-    if np.nanmax(cc[np.isfinite(cc)]) - np.nanmin(cc[np.isfinite(cc)]) < 0.05:
-        # unseen: the readings cannot tell a leak from none; no Occam factor
-        return Fault(part.ref, "leaky", float(np.exp(hi))), got[-1][2], None, 0.0
-    b = int(np.argmin(cc))
-    x, best = float(grid[b]), got[b]
-    step = (hi - lo) / (_LEAK_GRID - 1)
-    curv = None
-    for shrink in (0.5, 0.15):
-        pts = np.clip(x + step * shrink * np.array([-1.0, -0.5, 0.0, 0.5, 1.0]), lo, hi)
-        trial = [score(p) for p in pts]
-        c = np.array([t[0] for t in trial])
-        bx, vx, a, ok = parabola_step(pts[None, :], np.where(np.isfinite(c), c, np.inf)[None, :])
-        k = int(np.argmin(c))
-        if c[k] < best[0]:
-            best, x = trial[k], float(pts[k])
-        if ok[0]:
-            curv = 2 * float(a[0])
-            t = score(float(vx[0]))
-            if t[0] < best[0]:
-                best, x = t, float(vx[0])
+    grid = np.linspace(lo, hi, _LEAK_GRID)
+    cc = np.array([score(x)[0] for x in grid])
+    fin = cc[np.isfinite(cc)]
+    if fin.size == 0:
+        got = score(hi)
+        return got[1], got[2], None, 0.0
+    if fin.max() - fin.min() < 0.05:   # unseen: no leak the readings can tell from none
+        got = score(hi)
+        return got[1], got[2], None, 0.0
+    # Gauss-Newton on ln r from the grid's best, the derivative by a forward difference
+    w = _weights(ev, j)
+    y = np.where(np.isfinite(ev.ev.y), ev.ev.y, 0.0)
+    x = float(grid[int(np.argmin(cc))])
+    g = None
+    for _ in range(_GN_STEPS + 1):
+        c0, _, p0 = score(x)
+        c1, _, p1 = score(x + _FD)
+        if not (np.isfinite(c0) and np.isfinite(c1)):
+            break
+        use = np.isfinite(p0) & np.isfinite(p1) & (w > 0)
+        jac = np.where(use, (p1 - p0) / _FD, 0.0)
+        g = float(np.sum(w * jac * jac))
+        if g <= 0:
+            break
+        step = float(np.sum(w * jac * np.where(use, y - p0, 0.0)) / g)
+        step = float(np.clip(step, -(hi - lo) / 4, (hi - lo) / 4))
+        new = float(np.clip(x + step, lo, hi))
+        if abs(new - x) < 1e-3:
+            break
+        if score(new)[0] > c0:   # overshot: half the step
+            new = float(np.clip(x + 0.5 * step, lo, hi))
+            if score(new)[0] > c0:
+                break
+        x = new
+    best = min(seen.values(), key=lambda t: t[0])
     span = hi - lo
     occam = 0.0
-    if curv and curv > 0:
-        sd = float(np.sqrt(2.0 / curv))
+    if g:
+        sd = float(np.sqrt(1.0 / g))
         occam = float(np.log(min(np.sqrt(2 * np.pi) * sd, span) / span))
     return best[1], best[2], None, occam
 

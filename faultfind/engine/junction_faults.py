@@ -38,7 +38,7 @@ import numpy as np
 
 from ..errors import SolveError
 from ..model import Part
-from .drifts import _occam, parabola_step
+from .drifts import _occam
 from .faults import Fault
 from .oracle import oracle_readings
 from .predict import predict
@@ -328,24 +328,12 @@ def fit_junction_drift(ev, part):
     return f, pred, sd, occam
 
 
-def _vertex(x, y):
-    """Vertex and half-curvature of the parabola through three points (None when not upward)."""
-    (x0, x1, x2), (y0, y1, y2) = x, y
-    if not (np.all(np.isfinite(y)) and x0 < x1 < x2):
-        return None, None
-    d1, d2 = (y1 - y0) / (x1 - x0), (y2 - y1) / (x2 - x1)
-    a = (d2 - d1) / (x2 - x0)
-    if not a > 0:
-        return None, None
-    return float(np.clip(0.5 * (x0 + x1) - d1 / (2 * a), x0, x2)), float(a)
-
-
 def fit_leak(ev, part):
     """Best leak resistance of a leaky diode ``part`` (grid + parabolas on the exact re-solve).
 
-    Five points over ``ln r`` in :data:`LEAK_RANGE`, the vertex of the parabola
-    through the best and its neighbours, then one more parabola at half the
-    spacing: nine re-solves.
+    Five points over ``ln r`` in :data:`LEAK_RANGE`, then Gauss-Newton from the
+    best of them (the derivative by a forward difference): a diode test across
+    the leak reads it nearly in proportion, which no coarse parabola follows.
 
     Returns
     -------

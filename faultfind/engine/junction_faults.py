@@ -373,7 +373,8 @@ def fit_leak(ev, part):
         if not (np.isfinite(c0) and np.isfinite(c1)):
             break
         use = np.isfinite(p0) & np.isfinite(p1) & (w > 0)
-        jac = np.where(use, (p1 - p0) / _FD, 0.0)
+        with np.errstate(invalid="ignore"):
+            jac = np.where(use, (p1 - p0) / _FD, 0.0)
         g = float(np.sum(w * jac * jac))
         if g <= 0:
             break

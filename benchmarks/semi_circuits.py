@@ -2,7 +2,8 @@
 
 :func:`semi_circuit` draws a board the way small control boards are built: a
 DC supply (12 V or 24 V, sometimes behind a fuse and a reverse-polarity
-diode), then blocks hung off the supply rail: an indicator LED with its
+diode; a bleed resistor across its terminals), then blocks hung off the
+supply rail: an indicator LED with its
 series resistor, a string of two to four LEDs with a ballast resistor, a
 zener regulator (dropper, zener, its load and sometimes a divider off the
 regulated rail), a series diode feeding a load, a low-side npn switch driven
@@ -167,6 +168,9 @@ def semi_circuit(rng=None, n_parts=None) -> Circuit:
     vs = float(rng.choice([12.0, 24.0]))
     b.add("voltage-source", "PS", ("+V", GROUND), vs, (0.03, 0.03), "DC supply", off_state="open")
     rail = "+V"
+    # a bleed resistor on the supply terminals (a supply's or board's bleeder): with the
+    # supply off its side of the board is not joined to the rest through junctions only
+    b.resistor("+V", GROUND, 10 ** rng.uniform(4, 5), "supply bleed resistor")
     if rng.random() < 0.5:
         f = "+VF"
         b.add("fuse", "F", (rail, f), 0.1, (0.3, 0.3), "board fuse")

@@ -276,8 +276,11 @@ def _outside(rho, blo, bhi):
     return rho
 
 
-def fit_junction_drift(ev, part):
+def fit_junction_drift(ev, part, exact=True):
     """Best drifted value of a junction ``part`` (Gauss-Newton on the exact re-solve).
+
+    ``exact`` False (large boards' first pass): the step from the healthy
+    linearisation alone, predicted on it (re-solved if it leads, :func:`rescore_leaders`).
 
     Returns
     -------
@@ -296,6 +299,12 @@ def fit_junction_drift(ev, part):
         return f, ex.solve([f])[0], None, 0.0
     r0 = np.where(w > 0, y - np.where(np.isfinite(ev.healthy_prediction()), ev.healthy_prediction(), 0.0), 0.0)
     rho = float(np.clip(np.sum(w * s0 * r0) / info, lo, hi))
+    if not exact:
+        rho = float(np.clip(_outside(rho, blo, bhi), lo, hi))
+        pred = np.where(np.isfinite(ev.healthy_prediction()), ev.healthy_prediction() + s0 * rho,
+                        ev.healthy_prediction())
+        sd = float(np.sqrt(1.0 / info))
+        return Fault(part.ref, "drift", float(part.value * np.exp(rho))), pred, sd, _occam(sd, spec)
     best = None
     for _ in range(_GN_STEPS):
         rho = float(np.clip(_outside(rho, blo, bhi), lo, hi))
@@ -328,9 +337,10 @@ def fit_junction_drift(ev, part):
     return f, pred, sd, occam
 
 
-def fit_leak(ev, part):
+def fit_leak(ev, part, refine=True):
     """Best leak resistance of a leaky diode ``part`` (grid + parabolas on the exact re-solve).
 
+    ``refine`` False (large boards' first pass): the grid's best only.
     Five points over ``ln r`` in :data:`LEAK_RANGE`, then Gauss-Newton from the
     best of them (the derivative by a forward difference): a diode test across
     the leak reads it nearly in proportion, which no coarse parabola follows.
@@ -367,7 +377,7 @@ def fit_leak(ev, part):
     y = np.where(np.isfinite(ev.ev.y), ev.ev.y, 0.0)
     x = float(grid[int(np.argmin(cc))])
     g = None
-    for _ in range(_GN_STEPS + 1):
+    for _ in range(_GN_STEPS + 1 if refine else 0):
         c0, _, p0 = score(x)
         c1, _, p1 = score(x + _FD)
         if not (np.isfinite(c0) and np.isfinite(c1)):
@@ -406,13 +416,14 @@ def junction_first_pass(ev, parts):
         In the form of :func:`.hypotheses._first_pass`'s candidates.
     """
     ex = _exact(ev)
+    full = len(ev.circuit.parts) <= EXACT_METER_PARTS   # large boards: fits refined if they lead
     cands = []
     for p in parts:
         for mode in p.fault_modes:
             if mode == "drift":
-                cands.append(fit_junction_drift(ev, p))
+                cands.append(fit_junction_drift(ev, p, exact=full))
             elif mode == "leaky":
-                cands.append(fit_leak(ev, p))
+                cands.append(fit_leak(ev, p, refine=full))
             else:
                 f = Fault(p.ref, mode)
                 cands.append((f, ex.solve([f])[0], None, 0.0))
@@ -445,8 +456,14 @@ def nonlinear_candidates(ev, parts, linear_candidates):
 
 
 def is_exact(ev, h) -> bool:
-    """True when ``h``'s prediction came from an exact re-solve (or it is the healthy board)."""
-    return not h.faults or _key(h.faults) in _exact(ev).cache
+    """True when ``h``'s prediction came from an exact re-solve and fit (or it is the
+    healthy board); a large board's first-pass leak is solved but not yet refined."""
+    if not h.faults:
+        return True
+    if (len(h.faults) == 1 and h.faults[0].mode == "leaky"
+            and len(ev.circuit.parts) > EXACT_METER_PARTS and not getattr(h, "_refined", False)):
+        return False
+    return _key(h.faults) in _exact(ev).cache
 
 
 def rescore_leaders(ev, hyps, top=NONLINEAR_TOP):
@@ -482,7 +499,12 @@ def rescore_leaders(ev, hyps, top=NONLINEAR_TOP):
 def _resolve(ev, h):
     """``h`` predicted again by the exact re-solve (a linear drift refitted); its score
     drops out when the faulted board has no operating point."""
-    if len(h.faults) == 1 and h.faults[0].mode == "drift" and h.faults[0].seen:
+    part = ev.circuit.part(h.faults[0].ref) if len(h.faults) == 1 else None
+    if part is not None and part.is_semiconductor and h.faults[0].mode in ("drift", "leaky"):
+        fit = fit_junction_drift if h.faults[0].mode == "drift" else fit_leak
+        f, pred, sd, occam = fit(ev, part)
+        faults = [f]
+    elif len(h.faults) == 1 and h.faults[0].mode == "drift" and h.faults[0].seen:
         f, pred, sd, occam = _refit_linear_drift(ev, h)
         faults = [f]
     else:
@@ -491,7 +513,9 @@ def _resolve(ev, h):
     if np.isnan(pred).any():
         h.log_post = -np.inf
         return h
-    return ev.make(faults, pred, drift_sd=sd, occam=occam)
+    out = ev.make(faults, pred, drift_sd=sd, occam=occam)
+    out._refined = True
+    return out
 
 
 def _refit_linear_drift(ev, h):

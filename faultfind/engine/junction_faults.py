@@ -210,8 +210,9 @@ class Exact:
             except _ERRORS:
                 return val, None
             val[self.live], S[self.live] = v[self.live], s[self.live]
-        fill = ev.off_fill if getattr(ev, "off_fill", None) is not None else \
-            np.where(ev.ev.ol, np.inf, np.nan_to_num(ev.ev.y))
+        fill = getattr(ev, "off_fill", None)
+        if fill is None:   # a Board without readings' values (advice): the reading is unknown
+            fill = np.full(ev.n, np.nan)
         for i in off:
             try:
                 v, s = self._solve(circuit, overrides, [i])

@@ -434,3 +434,35 @@ print v(b) v(e) v(c)
             got[k.strip()[2:-1]] = float(v)
     ours = oracle_readings(c, READ[:3], IDEAL, {"Q1": "open"}).real
     assert_allclose(ours, [got["b"], got["c"], got["e"]], rtol=1e-4, atol=1e-7)
+
+
+def test_a_voltmeter_on_a_node_held_only_by_junctions_is_solved_in_place():
+    # an LED string with one LED open: the pads above the open hang on LEDs passing
+    # picoamperes; a 10 Mohm voltmeter pulls them by volts.  The prediction is the
+    # re-solve with the meter in the circuit (the oracle), not a first-order correction.
+    parts = [Part("V1", "voltage-source", ("vcc", "0"), 24.0), Part("R1", "resistor", ("vcc", "a0"), 470.0)]
+    for k in range(6):
+        parts.append(Part(f"D{k + 1}", "led", (f"a{k}", f"a{k + 1}" if k < 5 else "0"), 3.0,
+                          test_current=20e-3))
+    c = Circuit("string", "0", tuple(parts))
+    rd = [Reading("voltage", "dc", f"a{k}", "0") for k in range(5)]
+    p = predict(c, rd, METERS, {"D4": "open"}).value
+    o = oracle_readings(c, rd, METERS, {"D4": "open"}).real
+    assert_allclose(p, o, rtol=1e-9, atol=1e-12)
+    assert p[3] > 10.0          # volts above the open, not the 0 V of the linearization
+
+
+def test_a_diode_test_into_a_base_with_its_emitter_open_reads_OL():
+    # power off: the meter's 1 mA into a base whose base-emitter junction is open meets a
+    # 10 kOhm pull-down (10 V > the 3 V open circuit) and a collector section reached
+    # only through the base-collector junction (coil and flyback diode, supply open)
+    c = Circuit("relay", "0", (
+        Part("PS1", "voltage-source", ("v24", "0"), 24.0), Part("R2", "resistor", ("b", "0"), 10e3),
+        Part("Q1", "npn", ("c", "b", "0"), gain=150.0),
+        Part("K1", "inductor", ("v24", "c"), 1.0, resistance=480.0),
+        Part("D1", "diode", ("c", "v24"), 0.6)))
+    rd = [Reading("diode-test", None, "b", "0"), Reading("diode-test", None, "0", "b"),
+          Reading("diode-test", None, part="D1")]
+    p = predict(c, rd, METERS, {"Q1": "base-emitter-open"}).value
+    assert p[0] == np.inf and p[1] == np.inf
+    assert 0.4 < p[2] < 0.6       # the flyback diode still reads (its own section)

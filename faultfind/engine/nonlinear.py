@@ -16,9 +16,11 @@ parallel with a current ``i(v) - g(v) v``; the linear system
 is solved (one sparse LU, on a sparsity pattern built once), the new element
 voltages are read from ``x`` and limited (SPICE's ``pnjlim``, see
 :func:`.junctions.limit`).  The iteration has converged when no voltage was
-limited and every element voltage moved less than :data:`VTOL`; the last
-``x`` then satisfies the nonlinear equations (its linearization point and
-its solution agree).  Past :data:`DAMP_AFTER` iterations the element voltage
+limited and every element voltage moved less than :data:`VTOL` (or its
+current at the new voltage is its tangent's to 1e-9: a junction deep in
+reverse behind picosiemens, whose voltage is round-off, settles by its
+current); the last ``x`` then satisfies the nonlinear equations (its
+linearization point and its solution agree).  Past :data:`DAMP_AFTER` iterations the element voltage
 updates are halved (damping).  When plain Newton fails: gmin stepping (a
 conductance from every node to the reference, 10 mS down to 1 pS, each step
 starting from the last), then source stepping (every source ramped from 0 to
@@ -55,6 +57,10 @@ __all__ = ["System", "OperatingPoint", "operating_point", "ConvergenceError",
 
 #: Newton has converged when every element voltage moved less than this (volts).
 VTOL = 1e-9
+#: ... or when every element's current at its new voltage is its tangent's
+#: current to this (relative) plus :data:`ITOL_ABS` (amperes).
+ITOL_REL = 1e-9
+ITOL_ABS = 1e-15
 #: Newton iterations per attempt.
 MAXITER = 150
 #: After this many iterations the element voltage updates are halved.
@@ -135,7 +141,7 @@ class System:
     CLAMP_NVT = 0.025
 
     def __init__(self, circuit, analysis, frequency=None, overrides=None, floating=False,
-                 probe=None, source=None, pindex=None):
+                 probe=None, source=None, pindex=None, loads=()):
         overrides = overrides or {}
         self.circuit = circuit
         self.analysis = analysis
@@ -213,6 +219,8 @@ class System:
             for el in dev.elements:
                 els.append((p.ref, el, roles))
             self.devices[p.ref] = (dev, roles)
+        for na, nb, g in loads:     # a meter's input resistance across two nodes
+            cond(idx[na], idx[nb], g)
         b_extra = {}
         if source is not None:
             plus, minus, cur, voc = source
@@ -375,7 +383,16 @@ class System:
             vraw = self.control(x)
             vnew, lim = limit(vraw - self.voff, v - self.voff, self.nvt, self.vcrit)
             vnew = vnew + self.voff
-            bad = lim | (np.abs(vraw - v) > VTOL)
+            # settled: each element voltage moved less than VTOL, or its current at the
+            # new voltage is its tangent's to ITOL (a junction deep in reverse behind
+            # picosiemens, whose voltage is round-off, settles by its current)
+            moved = np.abs(vraw - v) > VTOL
+            if moved.any():
+                i_new, _ = law(vraw, self.log_is, self.nvt)
+                i_lin = i + g * (vraw - v)
+                off = np.abs(i_new - i_lin) > ITOL_REL * np.maximum(np.abs(i_new), np.abs(i_lin)) + ITOL_ABS
+                moved &= off
+            bad = lim | moved
             if not bad.any():
                 return x, v, it, True, bad
             if it > DAMP_AFTER:

@@ -10,6 +10,9 @@ DC readings
     resistance and a linear part's current shunt enter as the same rank-one
     corrections as on a linear board (exact to first order in the loading;
     10 MΩ across a node changes the answer by parts in 10^9 beyond that).
+    Where the meter loads a node heavily (more than :data:`LOAD_EXACT` of
+    its Thevenin conductance: a node held only by junctions at a tiny
+    current), the reading is an exact re-solve with the meter in place.
     A current reading through a semiconductor (a diode's anode lead, a
     transistor's collector lead) is an exact re-solve with the meter's shunt
     in that lead.
@@ -100,12 +103,14 @@ class DCGroup(Stamps):
         the solution: what predict's block solves read.
     """
 
-    def __init__(self, circuit, overrides, pindex, warm=None, floating=False, probe=None):
+    def __init__(self, circuit, overrides, pindex, warm=None, floating=False, probe=None,
+                 loads=()):
         self.circuit = circuit
         self.overrides = dict(overrides or {})
         self.cols = {}
         self.keep = False
-        self.sys = System(circuit, "dc", None, overrides, floating, probe=probe, pindex=pindex)
+        self.sys = System(circuit, "dc", None, overrides, floating, probe=probe, pindex=pindex,
+                          loads=loads)
         self.op = self.sys.solve(warm)
         J = self.sys.jacobian(self.op)
         net = self.sys.linear_network(J)
@@ -187,6 +192,39 @@ def junction_current(circuit, overrides, key, ref, meter, pindex, npar, dc):
     return complex(u @ grp.x), G[:, 0]
 
 
+#: A DC voltage reading whose meter takes more than this share of the
+#: node's Thevenin conductance (``z / R_in``: the node's resistance over the
+#: meter's) is solved with the meter in the circuit, not to first order: a
+#: node held only by junctions at a tiny current (pads above an open LED)
+#: moves by volts under a 10 Mohm meter.
+LOAD_EXACT = 1e-3
+
+
+def _heavy_loads(c, over, grp, readings, idx, meters, pindex, npar, value, sens):
+    """Voltage readings the meter loads heavily: exact re-solves with its input resistance.
+
+    Returns the readings left for the first-order path.
+    """
+    volt = [i for i in idx if readings[i].quantity == "voltage"]
+    if not volt:
+        return idx
+    U = np.column_stack([grp.net.node_vector(readings[i].plus, readings[i].minus) for i in volt])
+    z = np.einsum("ij,ij->j", U, grp.lu.solve(U))
+    heavy = set()
+    for q, i in enumerate(volt):
+        rd = readings[i]
+        g = 1.0 / meters[rd.meter or "default"].input_resistance
+        if not abs(z[q] * g) > LOAD_EXACT:
+            continue
+        loaded = DCGroup(c, over, pindex, warm=grp.op, loads=((rd.plus, rd.minus, g),))
+        u = loaded.net.node_vector(rd.plus, rd.minus)
+        lam = loaded.lu.solve_adjoint(u)
+        G = loaded.grad_block(lam[:, None], loaded.x[:, None], npar, [-1])
+        value[i], sens[i] = u @ loaded.x, G[:, 0]
+        heavy.add(i)
+    return [i for i in idx if i not in heavy]
+
+
 def predict_nonlinear(circuit: Circuit, readings, meters: dict, overrides: dict | None = None, *,
                       share: dict | None = None, warm=None) -> Prediction:
     """:func:`faultfind.engine.predict.predict` for a circuit with semiconductors.
@@ -250,6 +288,8 @@ def predict_nonlinear(circuit: Circuit, readings, meters: dict, overrides: dict 
                 value[i], sens[i] = junction_current(c, over, key, rd.part, meter, pindex, npar, dc)
             else:
                 plain.append(i)
+        if key[0] == "dc":
+            plain = _heavy_loads(c, over, grp, readings, plain, meters, pindex, npar, value, sens)
         if plain:
             _live_block(c, grp, readings, plain, meters, npar, pindex, value, sens)
     return finish(readings, value, sens, params, any_ac,

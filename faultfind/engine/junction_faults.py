@@ -40,7 +40,6 @@ from ..errors import SolveError
 from ..model import Part
 from .drifts import _occam
 from .faults import Fault
-from .oracle import oracle_readings
 from .predict import predict
 
 __all__ = ["JUNCTION_DRIFT", "LEAK_RANGE", "NONLINEAR_TOP", "EXACT_ALL", "RESCORE_WINDOW",
@@ -60,15 +59,11 @@ NONLINEAR_TOP = 8
 #: solved one is re-solved too, up to :data:`RESCORE_MAX` in all.
 RESCORE_WINDOW = 10.0
 RESCORE_MAX = 40
-#: On boards of at most this many parts the live readings of a hypothesis are
-#: re-solved with the meter in the circuit (the oracle), not by the linearised
-#: meter loading of ``predict``: a node held only by junctions at a tiny current
-#: (behind an open LED) is pulled by a 10 Mohm voltmeter far beyond first order.
-EXACT_METER_PARTS = 60
-#: A voltmeter's loading that moves a reading by more than this (volts: about a
-#: junction's n Vt) is re-solved with the meter in the circuit; below it the
-#: linearised loading holds.
-LOADING_CHECK = 0.02
+#: On boards of at most this many parts a junction's drift and a diode's leak are
+#: fitted by exact re-solves in the first pass; on larger ones the first pass takes
+#: the healthy linearisation's drift and the leak's grid, and the fits are refined
+#: by re-solves only for the hypotheses that lead (:func:`rescore_leaders`).
+FULL_FIT_PARTS = 60
 #: Boards with at most this many open / short / dead hypotheses of linear parts
 #: have each of them re-solved exactly in the first pass: an open or short near a
 #: junction moves its working point far beyond what the linearisation holds.
@@ -141,16 +136,10 @@ class Exact:
         # Newton starts from the healthy operating point (the DC group predict() shared)
         share = getattr(ev, "share", None) or {}
         self.warm = getattr(share.get(("dc", None)), "op", None)
-        # live readings re-solved with the meter in the circuit (see EXACT_METER_PARTS)
+        # live readings (one DC operating point) and the others (power off, lifted)
         self.live = [i for i, rd in enumerate(ev.readings)
                      if rd.quantity in ("voltage", "current")]
         self.live_set = set(self.live)
-        self.exact_meter = len(ev.circuit.parts) <= EXACT_METER_PARTS and bool(self.live)
-        # each DC voltage reading also read by a meter that draws nothing, in the same solve:
-        # where the two differ by more than LOADING_CHECK the loading is re-solved exactly
-        self.volts = [i for i in self.live if ev.readings[i].quantity == "voltage"
-                      and ev.readings[i].mode != "ac"]
-        self.meters = dict(ev.meters, __unloaded__=replace(ev.meters["default"], input_resistance=1e18))
 
     def solve(self, faults):
         """``(displays (n,), sensitivity (n, m))`` under ``faults``; NaN displays and
@@ -176,23 +165,16 @@ class Exact:
         ev = self.ev
         rows = list(rows)
         rds = [ev.readings[i] for i in rows]
-        probe = [i for i in rows if i in self.volts] if self.exact_meter else []
-        rds += [replace(ev.readings[i], meter="__unloaded__") for i in probe]
         kw = {"warm": self.warm} if self.warm is not None else {}
-        pr = predict(circuit, rds, self.meters, overrides=overrides, **kw)
+        # predict() re-solves with the meter in the circuit where the meter loads a node
+        # heavily (a pad above an open LED): docs/junction-models.md
+        pr = predict(circuit, rds, ev.meters, overrides=overrides, **kw)
         val = np.full(ev.n, np.nan)
-        val[rows] = np.asarray(pr.value, dtype=float)[:len(rows)]
-        if probe:
-            bare = np.asarray(pr.value, dtype=float)[len(rows):]
-            live = [i for i, b in zip(probe, bare) if not abs(val[i] - b) <= LOADING_CHECK]
-            if live:
-                o = oracle_readings(circuit, [ev.readings[i] for i in live], ev.meters, overrides)
-                ac = np.array([ev.readings[i].mode == "ac" for i in live])
-                val[live] = np.where(np.isnan(o.real), np.nan, np.where(ac, np.abs(o), o.real))
+        val[rows] = np.asarray(pr.value, dtype=float)
         S = np.zeros((ev.n, len(ev.params)))
         col = [ev.pindex.get(r, -1) for r in pr.params]
         have = [k for k, j in enumerate(col) if j >= 0]
-        S[np.ix_(rows, [col[k] for k in have])] = np.asarray(pr.sensitivity, dtype=float)[:len(rows)][:, have]
+        S[np.ix_(rows, [col[k] for k in have])] = np.asarray(pr.sensitivity, dtype=float)[:, have]
         return val, np.nan_to_num(S, nan=0.0, posinf=0.0, neginf=0.0)
 
     def _piecewise(self, circuit, overrides):
@@ -417,7 +399,7 @@ def junction_first_pass(ev, parts):
         In the form of :func:`.hypotheses._first_pass`'s candidates.
     """
     ex = _exact(ev)
-    full = len(ev.circuit.parts) <= EXACT_METER_PARTS   # large boards: fits refined if they lead
+    full = len(ev.circuit.parts) <= FULL_FIT_PARTS   # large boards: fits refined if they lead
     cands = []
     for p in parts:
         for mode in p.fault_modes:
@@ -462,7 +444,7 @@ def is_exact(ev, h) -> bool:
     if not h.faults:
         return True
     if (len(h.faults) == 1 and h.faults[0].mode == "leaky"
-            and len(ev.circuit.parts) > EXACT_METER_PARTS and not getattr(h, "_refined", False)):
+            and len(ev.circuit.parts) > FULL_FIT_PARTS and not getattr(h, "_refined", False)):
         return False
     return _key(h.faults) in _exact(ev).cache
 

@@ -466,3 +466,32 @@ def test_a_diode_test_into_a_base_with_its_emitter_open_reads_OL():
     p = predict(c, rd, METERS, {"Q1": "base-emitter-open"}).value
     assert p[0] == np.inf and p[1] == np.inf
     assert 0.4 < p[2] < 0.6       # the flyback diode still reads (its own section)
+
+
+def test_the_command_line_names_file_line_and_part_of_an_impossible_board(tmp_path, capsys):
+    from faultfind.cli.main import main
+    f = tmp_path / "bad.toml"
+    f.write_text('format = 1\ntitle = "bad"\nground = "0V"\n\n[[part]]\nref = "PS1"\n'
+                 'kind = "voltage-source"\nnodes = ["+24V", "0V"]\nvalue = "24 V"\n\n'
+                 '[[part]]\nref = "D3"\nkind = "diode"\nnodes = ["+24V", "0V"]\nvalue = "0.65 V"\n',
+                 encoding="utf-8")
+    assert main(["expect", str(f)]) == 2
+    err = capsys.readouterr().err
+    assert f"{f}:11: part D3:" in err and "Traceback" not in err
+
+
+def test_a_current_shunt_that_matters_is_solved_in_place():
+    # an LED fed through 10 ohm from 5 V: the meter's 1 ohm shunt is a tenth of the branch;
+    # the reading is the re-solve with the shunt in the circuit (the oracle)
+    c = Circuit("t", "0", (Part("V1", "voltage-source", ("a", "0"), 5.0),
+                           Part("R1", "resistor", ("a", "b"), 10.0),
+                           Part("D1", "led", ("b", "0"), 3.0, test_current=0.2)))
+    rd = [Reading("current", "dc", part="R1"), Reading("current", "dc", part="D1")]
+    p = predict(c, rd, METERS)
+    o = oracle_readings(c, rd, METERS).real
+    assert_allclose(p.value, o, rtol=1e-9)
+    h = 1e-6
+    for j, ref in enumerate(p.params):
+        up = oracle_readings(c, rd, METERS, {ref: c.part(ref).value * math.exp(h)}).real
+        dn = oracle_readings(c, rd, METERS, {ref: c.part(ref).value * math.exp(-h)}).real
+        assert_allclose(p.sensitivity[:, j], (up - dn) / (2 * h), rtol=1e-4, atol=1e-9)

@@ -286,6 +286,24 @@ class System:
         self.vcrit[-1] = critical_voltage(np.log(current), self.nvt[-1])
         self._src = (ip, im, current, voc)
 
+    def move_source(self, plus, minus, current, voc):
+        """Put the meter source between other probes (a power-off system built with one)."""
+        ip, im, cur, _ = self._src
+        for k, sgn in ((ip, 1.0), (im, -1.0)):
+            if k >= 0:
+                self.b[k] -= sgn * cur
+        ip, im = self.net.node_index[plus], self.net.node_index[minus]
+        for k, sgn in ((ip, 1.0), (im, -1.0)):
+            if k >= 0:
+                self.b[k] += sgn * cur
+        self.p[-1], self.q[-1] = ip, im
+        self.out[-1, :2] = (ip, im)
+        self.w[-1, :2] = (1.0 if ip >= 0 else 0.0, -1.0 if im >= 0 else 0.0)
+        self._src = (ip, im, cur, voc)
+        self._J = None
+        self._pattern()
+        self.set_source(current, voc)
+
     # ------------------------------------------------------------------ matrix
     def _pattern(self):
         """Sparsity pattern of linear part + element stamps + node diagonal, built once."""
@@ -480,7 +498,16 @@ class System:
             "no DC operating point found (Newton's method, gmin stepping and source stepping "
             "all failed); the junctions of " + _names(refs) + " did not settle: check how "
             "they are wired (a junction straight across a supply, a transistor reversed)",
-            parts=refs)
+            parts=refs, **self._place(refs))
+
+    def _place(self, refs):
+        """The circuit file and the first named part's line, for the error."""
+        line = None
+        for r in refs:
+            if self.circuit.has_part(r):
+                line = self.circuit.part(r).line
+                break
+        return {"file": self.circuit.source, "line": line}
 
     def _checked(self, op):
         """Refuse an operating point with a junction past 1 kA (its law's tangent continuation)."""
@@ -493,7 +520,8 @@ class System:
                     raise ConvergenceError(
                         "no physical DC operating point: the junctions of " + _names(refs)
                         + " would carry more than 1 kA (a junction straight across a supply "
-                        "or a source with nothing to limit its current?)", parts=refs)
+                        "or a source with nothing to limit its current?)", parts=refs,
+                        **self._place(refs))
         return op
 
     # ------------------------------------------------------------------ linearization

@@ -118,8 +118,7 @@ def off_reading(circuit: Circuit, plus: str, minus: str, quantity: str, meter, o
         top = np.inf
     else:
         raise ValueError(f"quantity: expected 'diode-test' or 'resistance', got {quantity!r}")
-    sysm = System(circuit, "off", None, overrides, source=(plus, minus, plan[0][1], voc),
-                  pindex=pindex)
+    sysm = _system(circuit, overrides, pindex, plus, minus, plan[0][1], voc)
     if not sysm.net0.connected(plus, minus):
         return np.inf, zeros
     ip, im = sysm.net.node_index[plus], sysm.net.node_index[minus]
@@ -141,6 +140,27 @@ def off_reading(circuit: Circuit, plus: str, minus: str, quantity: str, meter, o
         s = _sens(circuit, sysm, op, u, pindex or {}, npar)
         return shown, (s if quantity == "diode-test" else s / cur)
     return np.inf, zeros
+
+
+#: Power-off systems of the last few (circuit, overrides) pairs, the meter
+#: source moved between readings instead of assembling the network again.
+_CACHE: dict = {}
+_CACHE_SIZE = 8
+
+
+def _system(circuit, overrides, pindex, plus, minus, current, voc):
+    key = (id(circuit), repr(sorted((overrides or {}).items())), id(pindex))
+    hit = _CACHE.get(key)
+    if hit is not None and hit[0] is circuit and hit[1] is pindex:
+        sysm = hit[2]
+        sysm.move_source(plus, minus, current, voc)
+        return sysm
+    sysm = System(circuit, "off", None, overrides, source=(plus, minus, current, voc),
+                  pindex=pindex)
+    if len(_CACHE) >= _CACHE_SIZE:
+        _CACHE.pop(next(iter(_CACHE)))
+    _CACHE[key] = (circuit, pindex, sysm)
+    return sysm
 
 
 def _mini(part, fault):

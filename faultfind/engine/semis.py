@@ -12,7 +12,8 @@ DC readings
     10 MΩ across a node changes the answer by parts in 10^9 beyond that).
     Where the meter loads a node heavily (more than :data:`LOAD_EXACT` of
     its Thevenin conductance: a node held only by junctions at a tiny
-    current), the reading is an exact re-solve with the meter in place.
+    current), or its shunt changes a linear part's branch by more than that
+    share, the reading is an exact re-solve with the meter in place.
     A current reading through a semiconductor (a diode's anode lead, a
     transistor's collector lead) is an exact re-solve with the meter's shunt
     in that lead.
@@ -57,7 +58,7 @@ from dataclasses import replace
 
 import numpy as np
 
-from ..model import Circuit, MeterProfile, SEMICONDUCTORS
+from ..model import SEMICONDUCTORS, Circuit, MeterProfile, Part
 from .factor import Factorization
 from .junctions import law
 from .linpredict import Prediction, _lifted, _live_block, analysis_key, finish, parameters
@@ -207,7 +208,7 @@ def _heavy_loads(c, over, grp, readings, idx, meters, pindex, npar, value, sens)
     """
     volt = [i for i in idx if readings[i].quantity == "voltage"]
     if not volt:
-        return idx
+        return _heavy_shunts(c, over, grp, readings, idx, meters, pindex, npar, value, sens)
     U = np.column_stack([grp.net.node_vector(readings[i].plus, readings[i].minus) for i in volt])
     z = np.einsum("ij,ij->j", U, grp.lu.solve(U))
     heavy = set()
@@ -218,6 +219,51 @@ def _heavy_loads(c, over, grp, readings, idx, meters, pindex, npar, value, sens)
             continue
         loaded = DCGroup(c, over, pindex, warm=grp.op, loads=((rd.plus, rd.minus, g),))
         u = loaded.net.node_vector(rd.plus, rd.minus)
+        lam = loaded.lu.solve_adjoint(u)
+        G = loaded.grad_block(lam[:, None], loaded.x[:, None], npar, [-1])
+        value[i], sens[i] = u @ loaded.x, G[:, 0]
+        heavy.add(i)
+    return _heavy_shunts(c, over, grp, readings, [i for i in idx if i not in heavy], meters,
+                         pindex, npar, value, sens)
+
+
+_SHUNT_NODE = "__shunt_node__"
+_SHUNT = "__shunt__"
+
+
+def _heavy_shunts(c, over, grp, readings, idx, meters, pindex, npar, value, sens):
+    """Current readings through a linear part whose meter shunt matters (more than
+    :data:`LOAD_EXACT` of the branch): exact re-solves with the shunt in the circuit.
+
+    Returns the readings left for the first-order path.
+    """
+    net = grp.net
+    cand = []
+    for i in idx:
+        rd = readings[i]
+        if rd.quantity != "current" or c.part(rd.part).kind in SEMICONDUCTORS:
+            continue
+        el = net.element.get(rd.part)
+        rs = meters[rd.meter or "default"].current_shunt
+        if el is None or el[0] != "y" or rs <= 0:
+            continue
+        cand.append((i, el[1], rs))
+    if not cand:
+        return idx
+    U = np.column_stack([net.node_vector(*c.part(readings[i].part).nodes) for i, _, _ in cand])
+    z = np.einsum("ij,ij->j", U, grp.lu.solve(U))
+    heavy = set()
+    for q, (i, k, rs) in enumerate(cand):
+        y = net.y_val[k]
+        alpha = y / (1.0 + y * rs) - y
+        if not abs(alpha * z[q]) > LOAD_EXACT:
+            continue
+        p = c.part(readings[i].part)
+        parts = [replace(x, nodes=(x.nodes[0], _SHUNT_NODE)) if x is p else x for x in c.parts]
+        parts.append(Part(_SHUNT, "resistor", (_SHUNT_NODE, p.nodes[1]), rs))
+        cm = replace(c, parts=tuple(parts))
+        loaded = DCGroup(cm, over, pindex, warm=grp.op)
+        u = loaded.net.node_vector(_SHUNT_NODE, p.nodes[1]) / rs
         lam = loaded.lu.solve_adjoint(u)
         G = loaded.grad_block(lam[:, None], loaded.x[:, None], npar, [-1])
         value[i], sens[i] = u @ loaded.x, G[:, 0]
@@ -269,7 +315,7 @@ def predict_nonlinear(circuit: Circuit, readings, meters: dict, overrides: dict 
         g = share.get(key) if usable else None
         return g if g is not None and g.circuit is c else None
 
-    if by_key or warm is not None or share is not None:
+    if by_key:      # power-off readings alone need no operating point
         dc = shared(("dc", None)) or DCGroup(c, over, pindex, warm=warm)
         if share is not None and usable:
             share[("dc", None)] = dc

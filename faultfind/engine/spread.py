@@ -21,11 +21,13 @@ anywhere in its tolerance (a lifted 100 ohm +/-5 % resistor's band is
 all parts' extremes (the worst case).  Parts below the threshold keep the
 linear treatment.
 
-On a circuit with semiconductors (and for diode-test readings) the exact
-excursions are re-solves of the circuit (:func:`~.predict.predict` with the
-part's value changed, Newton starting from the nominal operating point)
-instead of rank-one updates; the linear treatment uses the linearization
-at the operating point (engine/semis.py).
+On a circuit with semiconductors the exact excursions are re-solves of the
+circuit (:func:`~.predict.predict` with the part's value changed, Newton
+starting from the nominal operating point) instead of rank-one updates, and
+only the junctions' values (forward and zener voltages, whose effect is
+exponential) are moved so; the linear parts take the linear treatment on
+the linearization at the operating point (engine/semis.py).  Diode-test
+readings on a linear circuit are moved by re-solves too.
 """
 
 from __future__ import annotations
@@ -60,6 +62,14 @@ def _resolved(circuit, readings, meters, part, factors, rows, y0, warm):
                                 warm=warm).value
         except SolveError:
             P[k, idx] = np.nan
+    # a diode test a part's tolerance carries over the display's top reads OL there:
+    # its band reaches the top (an LED drawn high in its tolerance reads OL when healthy)
+    for i in idx:
+        rd = readings[i]
+        if rd.quantity == "diode-test":
+            m = meters[rd.meter or "default"]
+            top = min(m.diode_test_max, m.diode_test_voltage)
+            P[:, i] = np.where(np.isinf(P[:, i]), top, P[:, i])
     return P
 
 
@@ -97,6 +107,14 @@ def tolerance_bands(circuit, readings, meters, significant=0.01):
     with np.errstate(divide="ignore", invalid="ignore"):
         share = np.where(worst[:, None] > 0, contrib / worst[:, None], 0.0)
     E = share >= significant            # per reading: the parts moved exactly for it
+    # a circuit with semiconductors (or a diode-test reading) is moved by exact
+    # re-solves, each starting from the nominal operating point; there only the
+    # junctions' values are moved exactly (their effect is exponential), the linear
+    # parts take the linearization at the operating point
+    resolve = circuit.is_nonlinear or any(rd.quantity == "diode-test" for rd in readings)
+    if resolve and circuit.is_nonlinear:
+        junction = np.array([circuit.part(r).is_semiconductor for r in pred.params], dtype=bool)
+        E &= junction[None, :]
     exact = E.any(axis=0)
     # per-part effects: additive deviations d (linear) and log ratios g (log)
     acc = {k: np.zeros(n) for k in ("m", "v", "lo", "hi", "olo", "ohi",
@@ -110,9 +128,6 @@ def tolerance_bands(circuit, readings, meters, significant=0.01):
         acc[key + "v" if key else "v"] += (ML ** 2) @ (half ** 2 / 3.0)
         acc[key + "lo" if key else "lo"] += ML @ centre - np.abs(ML) @ half
         acc[key + "hi" if key else "hi"] += ML @ centre + np.abs(ML) @ half
-    # a circuit with semiconductors (or a diode-test reading) is moved by exact
-    # re-solves, each starting from the nominal operating point
-    resolve = circuit.is_nonlinear or any(rd.quantity == "diode-test" for rd in readings)
     if exact.any():
         board = None if resolve else Board(circuit, readings, meters)
         for j in np.flatnonzero(exact):

@@ -176,8 +176,10 @@ def test_zener_short_is_told_from_a_shorted_load_by_the_load_current():
 
 def test_base_emitter_open_driver():
     c = relay_driver()
-    plan = [V("+24V"), V("B"), V("C"), V("+24V", "C"), DT(plus="B", minus="C")]
+    plan = [V("+24V"), V("B"), V("C"), V("+24V", "C"), DT(plus="B", minus="C"),
+            DT(plus="B", minus="0V")]
     rd = planted(c, plan, ("Q1", "base-emitter-open", None), 21)
+    assert rd[5].overrange == 1            # the open base-emitter junction: OL
     # the physics first: no base current, base at the divider, collector at the supply
     assert rd[1].value == pytest.approx(5.0 * 10e3 / 12.2e3, rel=0.06)
     assert rd[2].value > 22.0

@@ -97,13 +97,13 @@ def survey_readings(circuit: Circuit) -> list[Reading]:
             out.append(Reading("resistance", None, part=p.ref, setup="in-circuit"))
     for p in circuit.parts:
         if p.kind in JUNCTION_KINDS:
-            out.append(Reading("diode-test", None, part=p.ref, setup="in-circuit"))
+            out.append(Reading("diode-test", None, part=p.ref))
         elif p.kind in ("npn", "pnp"):
             c, b, e = p.nodes
             for other in (e, c):
                 plus, minus = (b, other) if p.kind == "npn" else (other, b)
                 if plus != minus:
-                    out.append(Reading("diode-test", None, plus, minus, setup="in-circuit"))
+                    out.append(Reading("diode-test", None, plus, minus))
     return out
 
 

@@ -495,3 +495,26 @@ def test_a_current_shunt_that_matters_is_solved_in_place():
         up = oracle_readings(c, rd, METERS, {ref: c.part(ref).value * math.exp(h)}).real
         dn = oracle_readings(c, rd, METERS, {ref: c.part(ref).value * math.exp(-h)}).real
         assert_allclose(p.sensitivity[:, j], (up - dn) / (2 * h), rtol=1e-4, atol=1e-9)
+
+
+def test_the_diagnosis_reads_a_diode_test_on_a_linear_board_as_volts():
+    # a diode test across a resistor of a board without junctions: the meter's 1 mA
+    # through it (Ohm's law), OL above the 2 V top; the rank-one engine agrees
+    from faultfind.diagnose import diagnose
+    from faultfind.io.meters_file import meters_with_default
+    from faultfind.simulate import simulate_readings
+    m = meters_with_default()
+    c = Circuit("t", "0", (Part("V1", "voltage-source", ("a", "0"), 10.0, 0.02, 0.02),
+                           Part("R1", "resistor", ("a", "b"), 1e3, 0.05, 0.05),
+                           Part("R2", "resistor", ("b", "0"), 1e3, 0.05, 0.05)))
+    rds = [Reading("voltage", "dc", "b", "0"), Reading("diode-test", None, "b", "0")]
+    for fault, top in ((("R2", "drift", 1500.0), "R2 drift"), (("R2", "open", None), "R2 open")):
+        sim = simulate_readings(c, rds, m, [fault], rng=1)
+        d = diagnose(c, sim, m, advise=False)
+        assert d.verdict == "fault" and d.hypotheses[0].label == top, [h.label for h in d.hypotheses]
+
+
+def test_a_lifted_junction_without_a_meter_uses_the_default_test_currents():
+    from faultfind.engine.predict import lifted_value
+    p = Part("D1", "diode", ("a", "k"), 0.65)
+    assert_allclose(lifted_value(p), forward_voltage_at(p, 1e-4) / 1e-4, rtol=1e-9)

@@ -309,7 +309,7 @@ def _ohms_block(circuit, grp, readings, idx, npar, value, sens, meters=None):
         if rd.quantity == "diode-test":    # the meter's test current through that resistance
             meter = meters[rd.meter or "default"]
             it = meter.diode_test_current
-            v = value[i] * it
+            v = value[i] * it if np.isfinite(value[i]) else np.inf
             if not np.isfinite(v) or v.real > diode_test_limit(meter):
                 value[i] = np.inf
                 sens[i] = 0.0

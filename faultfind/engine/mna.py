@@ -27,6 +27,13 @@ Elements are stamped in one of three ways:
   A short is an exact zero-volt branch, never a large conductance;
 * an *injection* into the right-hand side (current sources).
 
+Semiconductors (diodes, LEDs, zeners, transistors) leave no stamps here:
+engine/nonlinear.py adds their junctions to this linear network.  They do
+join their nodes for the connectivity of ``"off"`` and ``floating``
+networks, and a two-terminal part's ``"short"`` override is a zero-volt
+branch here as any part's (a transistor's internal shorts are wires of
+engine/nonlinear.py, inside its leads).
+
 The unknown vector is ``[v_0 .. v_{n-1}, i_0 .. i_{m-1}]``: node voltages to
 the reference, then branch currents.  A branch current is the current that
 enters the branch at its first node (for a voltage source, the current into
@@ -159,6 +166,8 @@ def assemble(circuit: Circuit, analysis: str, frequency: float | None = None,
         Part ref to a replacement value (SI), or to the strings ``"open"`` or
         ``"short"`` (for a source, ``"dead"`` sets it to zero).  Used by the
         re-solve path that checks the fast diagnosis engine, and by drills.
+        Semiconductors' overrides (engine/semis.py) only change which nodes
+        they join here.
     floating : bool, optional
         Give every part of the network that has no connection to ground a
         reference node of its own (always done for ``"off"``).  Voltages

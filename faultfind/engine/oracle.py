@@ -42,7 +42,7 @@ def apply_faults(circuit: Circuit, overrides: dict) -> tuple[Circuit, dict]:
 
     Returns the circuit with drifted values written into its parts, and the
     overrides left for :func:`~faultfind.engine.mna.assemble` ("open", "short",
-    "dead").
+    "dead") and for the semiconductors (their strings, ``("leaky", ohms)``).
     """
     parts, rest = [], {}
     for p in circuit.parts:

@@ -37,14 +37,20 @@ def draw_board(circuit: Circuit, rng) -> Circuit:
     return replace(circuit, parts=tuple(parts))
 
 
+#: Leak resistance of a leaky diode planted without one (ohms): a leak a diode
+#: test shows plainly; common practice (no source).
+LEAK_DEFAULT = 1e3
+
+
 def fault_overrides(faults) -> dict:
-    """``[(ref, mode, value), ...]`` to the overrides the engine takes."""
+    """``[(ref, mode, value), ...]`` to the overrides the engine takes (a leaky diode:
+    ``("leaky", ohms)``, :data:`LEAK_DEFAULT` when ``value`` is None)."""
     out = {}
     for ref, mode, value in faults:
         if mode == "drift":
             out[ref] = float(value)
         elif mode == "leaky":     # a junction's leak resistance, ohms
-            out[ref] = ("leaky", float(value))
+            out[ref] = ("leaky", float(value) if value else LEAK_DEFAULT)
         else:
             out[ref] = mode
     return out

@@ -100,7 +100,16 @@ def describe_fault(circuit, f) -> str:
         return f"{f.ref} short (welded contacts)" + (f" (about {format_value(f.value, 'Ω')})" if f.value else "")
     if f.mode == "short" and f.value:
         return f"{f.ref} short (about {format_value(f.value, 'Ω')})"
+    if f.mode == "leaky":
+        return f"{f.ref} leaky" + (f" (about {format_value(f.value, 'Ω')} across it)" if f.value else "")
+    if p.kind in ("npn", "pnp"):
+        return f"{f.ref} " + JUNCTION_WORDS.get(f.mode, f.mode)
     return f"{f.ref} {f.mode}"
+
+
+#: How a transistor's fault modes read in a finding.
+JUNCTION_WORDS = {"short": "collector-emitter short", "open": "open (no collector current)",
+                  "base-emitter-open": "base-emitter open", "base-emitter-short": "base-emitter short"}
 
 
 def _shown(ev: Evaluator, h: Hypothesis):
@@ -111,12 +120,29 @@ def _shown(ev: Evaluator, h: Hypothesis):
     return ev.pred0 if not h.faults else h.predicted
 
 
+def _exact_residuals(ev: Evaluator, h: Hypothesis, zh):
+    """On a board with junctions: the residuals with the faulted board's own tolerance
+    spread (a clamped base voltage spreads like a divider once its junction is open),
+    as its score has them; ``zh`` where that is unknown."""
+    S = ev.faulted_sensitivity(h.faults)
+    if S is None:
+        return zh
+    e = ev.ev
+    var = (np.nan_to_num(S) ** 2) @ e.var_p + e.u ** 2
+    t = e._chi2_terms(np.asarray(h.predicted, dtype=float)[None, :], var)[0]
+    with np.errstate(invalid="ignore"):
+        sign = np.sign(np.where(np.isfinite(h.predicted) & ~e.ol, e.y - h.predicted, 1.0))
+    return sign * np.sqrt(t)
+
+
 def _explain(ev: Evaluator, h: Hypothesis, healthy: Hypothesis, limit=4):
     out = []
     e = ev.ev
     drop = ev.drop_cols(h.faults)
     z0 = e.residuals(healthy.predicted)
     zh = e.residuals(h.predicted, drop, ev.weak(h.faults))
+    if ev.circuit.is_nonlinear and h.faults:
+        zh = _exact_residuals(ev, h, zh)
     label = " + ".join(describe_fault(ev.circuit, f) for f in h.faults) or "a healthy circuit"
     order = np.argsort(-np.abs(z0))
     n_for = 0
@@ -432,6 +458,9 @@ def _estimates(ev: Evaluator, h: Hypothesis) -> dict:
             else:
                 lo, hi = f.value * np.exp(-1.96 * sd), f.value * np.exp(1.96 * sd)
             fixed[f.ref] = (f.value, float(lo), float(hi), "drift")
+        elif p.is_semiconductor and (p.value is None or f.mode not in ("open", "short")):
+            if p.value is not None:   # a leaky diode keeps its forward voltage
+                fixed[f.ref] = (p.value, p.value, p.value, f.mode)
         else:
             v = limit_value(p, f.mode)
             if f.mode == "short" and f.value and p.kind in ("resistor", "fuse", "switch"):

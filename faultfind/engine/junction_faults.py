@@ -71,6 +71,8 @@ EXACT_ALL = 150
 #: Gauss-Newton steps of a junction drift fit.
 _GN_STEPS = 4
 _LEAK_GRID = 5
+#: Leak resistance of a large board's one-solve leak screen (ohms).
+LEAK_PROBE = 1e4
 #: Forward-difference step of the leak fit, in ln r.
 _FD = 1e-3
 _ERRORS = (SolveError, ValueError, ZeroDivisionError, FloatingPointError, ArithmeticError,
@@ -346,6 +348,8 @@ def fit_leak(ev, part, refine=True):
             seen[x] = (c2, f, pred)
         return seen[x]
 
+    if not refine:   # large boards: one re-solve, the leak's conductance fitted on the line
+        return _leak_on_line(ev, part, score, lo, hi)
     grid = np.linspace(lo, hi, _LEAK_GRID)
     cc = np.array([score(x)[0] for x in grid])
     fin = cc[np.isfinite(cc)]
@@ -388,6 +392,25 @@ def fit_leak(ev, part, refine=True):
         sd = float(np.sqrt(1.0 / g))
         occam = float(np.log(min(np.sqrt(2 * np.pi) * sd, span) / span))
     return best[1], best[2], None, occam
+
+
+def _leak_on_line(ev, part, score, lo, hi):
+    """A leak's first-pass screen on a large board: one re-solve at :data:`LEAK_PROBE`, the
+    readings taken as linear in the leak's conductance through it and the healthy board,
+    the conductance fitted in closed form (refined by re-solves if it leads)."""
+    c1, f1, p1 = score(np.log(LEAK_PROBE))
+    p0 = ev.healthy_prediction()
+    w = _weights(ev, -1)
+    ok = np.isfinite(p0) & np.isfinite(p1) & (w > 0)
+    d = np.where(ok, p1 - p0, 0.0)
+    y = np.where(np.isfinite(ev.ev.y), ev.ev.y, 0.0)
+    info = float(np.sum(w * d * d))
+    if not np.isfinite(c1) or info < 1e-6:   # the readings do not see a leak here
+        return f1, p1, None, 0.0
+    t = float(np.sum(w * d * np.where(ok, y - p0, 0.0)) / info)
+    g = float(np.clip(t / LEAK_PROBE, 1.0 / np.exp(hi), 1.0 / np.exp(lo)))
+    pred = np.where(ok, p0 + d * g * LEAK_PROBE, p1)
+    return Fault(part.ref, "leaky", 1.0 / g), pred, None, 0.0
 
 
 def junction_first_pass(ev, parts):

@@ -142,6 +142,9 @@ class Exact:
         self.live = [i for i, rd in enumerate(ev.readings)
                      if rd.quantity in ("voltage", "current")]
         self.live_set = set(self.live)
+        # what a first pass on a large board solves: the live and lifted readings
+        self.cheap = [i for i, rd in enumerate(ev.readings)
+                      if i in self.live_set or rd.setup == "lifted"]
 
     def solve(self, faults):
         """``(displays (n,), sensitivity (n, m))`` under ``faults``; NaN displays and
@@ -160,6 +163,29 @@ class Exact:
         if len(self.cache) > 4096:
             self.cache.clear()
         self.cache[key] = got
+        return got
+
+    def solve_live(self, faults):
+        """:meth:`solve` without the power-off readings (each its own Newton solve): they
+        stand at ``Board.off_fill`` (what was read) until the hypothesis is re-solved in
+        full (:func:`rescore_leaders`).  The full solve when there is nothing to save."""
+        ev = self.ev
+        fill = getattr(ev, "off_fill", None)
+        if fill is None or len(self.cheap) == ev.n:
+            return self.solve(faults)
+        key = ("live",) + _key(faults)
+        got = self.cache.get(key)
+        if got is None:
+            circuit, overrides = _faulted(ev.circuit, faults)
+            try:
+                val, S = self._solve(circuit, overrides, self.cheap) if self.cheap else \
+                    (np.full(ev.n, np.nan), np.zeros((ev.n, len(ev.params))))
+                rest = [i for i in range(ev.n) if i not in set(self.cheap)]
+                val[rest] = fill[rest]
+                got = (val, S)
+            except _ERRORS:
+                got = (np.full(ev.n, np.nan), None)
+            self.cache[key] = got
         return got
 
     def _solve(self, circuit, overrides, rows):
@@ -395,10 +421,13 @@ def fit_leak(ev, part, refine=True):
 
 
 def _leak_on_line(ev, part, score, lo, hi):
-    """A leak's first-pass screen on a large board: one re-solve at :data:`LEAK_PROBE`, the
+    """A leak's first-pass screen on a large board: one re-solve at :data:`LEAK_PROBE`
+    (without the power-off readings, :meth:`Exact.solve_live`), the
     readings taken as linear in the leak's conductance through it and the healthy board,
     the conductance fitted in closed form (refined by re-solves if it leads)."""
-    c1, f1, p1 = score(np.log(LEAK_PROBE))
+    f1 = Fault(part.ref, "leaky", float(LEAK_PROBE))
+    p1 = _exact(ev).solve_live([f1])[0]
+    c1 = np.inf if np.isnan(p1).any() else float(_chi2(ev, p1, ev.pindex.get(part.ref, -1))[0])
     p0 = ev.healthy_prediction()
     w = _weights(ev, -1)
     ok = np.isfinite(p0) & np.isfinite(p1) & (w > 0)
@@ -432,7 +461,7 @@ def junction_first_pass(ev, parts):
                 cands.append(fit_leak(ev, p, refine=full))
             else:
                 f = Fault(p.ref, mode)
-                cands.append((f, ex.solve([f])[0], None, 0.0))
+                cands.append((f, (ex.solve if full else ex.solve_live)([f])[0], None, 0.0))
     return cands
 
 

@@ -232,8 +232,8 @@ _SHUNT = "__shunt__"
 
 
 def _heavy_shunts(c, over, grp, readings, idx, meters, pindex, npar, value, sens):
-    """Current readings through a linear part whose meter shunt matters (more than
-    :data:`LOAD_EXACT` of the branch): exact re-solves with the shunt in the circuit.
+    """Current readings through a linear part, a supply or a wire whose meter shunt matters
+    (more than :data:`LOAD_EXACT` of the branch): exact re-solves with the shunt in the circuit.
 
     Returns the readings left for the first-order path.
     """
@@ -241,21 +241,32 @@ def _heavy_shunts(c, over, grp, readings, idx, meters, pindex, npar, value, sens
     cand = []
     for i in idx:
         rd = readings[i]
-        if rd.quantity != "current" or c.part(rd.part).kind in SEMICONDUCTORS:
+        if rd.quantity != "current" or rd.part in grp.sys.devices:
             continue
         el = net.element.get(rd.part)
         rs = meters[rd.meter or "default"].current_shunt
-        if el is None or el[0] != "y" or rs <= 0:
+        if el is None or el[0] not in ("y", "br") or rs <= 0:
             continue
-        cand.append((i, el[1], rs))
+        cand.append((i, el, rs))
     if not cand:
         return idx
-    U = np.column_stack([net.node_vector(*c.part(readings[i].part).nodes) for i, _, _ in cand])
+    cols = []
+    for i, el, _ in cand:
+        if el[0] == "y":
+            cols.append(net.node_vector(*c.part(readings[i].part).nodes))
+        else:               # a branch (a supply, a wire): its current unknown
+            u = np.zeros(net.size)
+            u[net.n + el[1]] = 1.0
+            cols.append(u)
+    U = np.column_stack(cols)
     z = np.einsum("ij,ij->j", U, grp.lu.solve(U))
     heavy = set()
-    for q, (i, k, rs) in enumerate(cand):
-        y = net.y_val[k]
-        alpha = y / (1.0 + y * rs) - y
+    for q, (i, el, rs) in enumerate(cand):
+        if el[0] == "y":
+            y = net.y_val[el[1]]
+            alpha = y / (1.0 + y * rs) - y
+        else:
+            alpha = -rs
         if not abs(alpha * z[q]) > LOAD_EXACT:
             continue
         p = c.part(readings[i].part)
@@ -263,12 +274,46 @@ def _heavy_shunts(c, over, grp, readings, idx, meters, pindex, npar, value, sens
         parts.append(Part(_SHUNT, "resistor", (_SHUNT_NODE, p.nodes[1]), rs))
         cm = replace(c, parts=tuple(parts))
         loaded = DCGroup(cm, over, pindex, warm=grp.op)
-        u = loaded.net.node_vector(_SHUNT_NODE, p.nodes[1]) / rs
+        # through the shunt from the meter node on: through the part (a source delivers the reverse)
+        u = loaded.net.node_vector(_SHUNT_NODE, p.nodes[1]) / (-rs if p.is_source else rs)
         lam = loaded.lu.solve_adjoint(u)
         G = loaded.grad_block(lam[:, None], loaded.x[:, None], npar, [-1])
         value[i], sens[i] = u @ loaded.x, G[:, 0]
         heavy.add(i)
     return [i for i in idx if i not in heavy]
+
+
+def _meter_shifts_operating_point(grp, readings, idx, meters, value):
+    """AC voltage readings: the voltmeter's input resistance also loads the DC operating
+    point (a handheld's input divider is DC-coupled on its AC ranges, as in the oracle),
+    which moves the junction conductances the AC reading sees.  First order:
+    ``d r = -sum_k c_k g'_k d_k^T dx_dc`` with ``dx_dc`` the meter's DC loading."""
+    volt = [i for i in idx if readings[i].quantity == "voltage"]
+    s, dc = grp.sys, grp.dc
+    if not volt or not len(s.keys):
+        return
+    Ua = np.column_stack([grp.net.node_vector(readings[i].plus, readings[i].minus) for i in volt])
+    Ud = np.column_stack([dc.net.node_vector(readings[i].plus, readings[i].minus) for i in volt])
+    g_in = np.array([1.0 / meters[readings[i].meter or "default"].input_resistance for i in volt])
+    Wa, Ma = grp.lu.solve(Ua), grp.lu.solve_adjoint(Ua)
+    za = np.einsum("ij,ij->j", Ua, Wa)
+    den = 1.0 + g_in * za
+    X = grp.x[:, None] - Wa * (g_in * (Ua.T @ grp.x) / den)[None, :]
+    Lam = Ma / den[None, :]
+    Wd = dc.lu.solve(Ud)
+    zd = np.einsum("ij,ij->j", Ud, Wd)
+    dxd = -Wd * (g_in * (Ud.T @ dc.x) / (1.0 + g_in * zd))[None, :]      # DC shift by the meter
+    lw = (np.where(s.out[:, :, None] >= 0, Lam[np.maximum(s.out, 0)], 0.0) * s.w[:, :, None]).sum(axis=1)
+    xp = np.where(s.p[:, None] >= 0, X[np.maximum(s.p, 0)], 0.0)
+    xq = np.where(s.q[:, None] >= 0, X[np.maximum(s.q, 0)], 0.0)
+    cst = lw * (xp - xq)                                                  # (k, readings)
+    d = dc.sys
+    kd = grp.dc_index
+    dp = np.where(d.p[kd][:, None] >= 0, dxd[np.maximum(d.p[kd], 0)], 0.0)
+    dq = np.where(d.q[kd][:, None] >= 0, dxd[np.maximum(d.q[kd], 0)], 0.0)
+    dv = dp - dq                                                          # (k, readings)
+    delta = -(cst * (grp.g / s.nvt)[:, None] * dv).sum(axis=0)
+    value[volt] = value[volt] + delta
 
 
 def predict_nonlinear(circuit: Circuit, readings, meters: dict, overrides: dict | None = None, *,
@@ -338,5 +383,7 @@ def predict_nonlinear(circuit: Circuit, readings, meters: dict, overrides: dict 
             plain = _heavy_loads(c, over, grp, readings, plain, meters, pindex, npar, value, sens)
         if plain:
             _live_block(c, grp, readings, plain, meters, npar, pindex, value, sens)
+        if key[0] == "ac":
+            _meter_shifts_operating_point(grp, readings, plain, meters, value)
     return finish(readings, value, sens, params, any_ac,
                   dc.op.voltages() if dc is not None else None)

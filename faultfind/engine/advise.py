@@ -136,13 +136,16 @@ def condition_on_taken(mu, noise, factor, sens, var, taken, observed):
             or var.shape != (sens.shape[1],) or observed.shape != taken.shape:
         raise ValueError("mu, noise, factor, sens, var, taken, observed: inconsistent shapes")
     cand = np.setdiff1d(np.arange(R), taken)
-    g_cc = (sens[cand] ** 2) @ var
+    # the sensitivities are the large array (rows x parts): rows in one run are
+    # read as a view, not copied
+    s_cand, s_taken = _rows(sens, cand), _rows(sens, taken)
+    g_cc = np.einsum("cp,cp,p->c", s_cand, s_cand, var)
     mean = mu[cand].copy()
     sd2 = factor[cand] ** 2 * g_cc[:, None] + noise[cand] ** 2
     if taken.size:
-        St = sens[taken] * var[None, :]
-        G_ct = sens[cand] @ St.T                       # (C, M)
-        G_tt = sens[taken] @ St.T                      # (M, M)
+        St = s_taken * var[None, :]
+        G_ct = s_cand @ St.T                           # (C, M)
+        G_tt = s_taken @ St.T                          # (M, M)
         for k in range(K):
             ft = factor[taken, k]
             A = ft[:, None] * G_tt * ft[None, :] + np.diag(noise[taken, k] ** 2)
@@ -153,3 +156,10 @@ def condition_on_taken(mu, noise, factor, sens, var, taken, observed):
             sd2[:, k] -= np.einsum("cm,mc->c", B, X[:, 1:])
     sd2 = np.maximum(sd2, noise[cand] ** 2)
     return mean, np.sqrt(sd2)
+
+
+def _rows(a, idx):
+    """``a[idx]``, as a view when ``idx`` is a run of consecutive rows."""
+    if idx.size and idx[-1] - idx[0] + 1 == idx.size and np.all(np.diff(idx) == 1):
+        return a[idx[0]:idx[-1] + 1]
+    return a[idx]

@@ -145,6 +145,22 @@ class Exact:
         # what a first pass on a large board solves: the live and lifted readings
         self.cheap = [i for i, rd in enumerate(ev.readings)
                       if i in self.live_set or rd.setup == "lifted"]
+        # power-off readings' solutions on the healthy board, where their Newton solves
+        # on a faulted variant start (filled on first use: :meth:`_off_warm`)
+        self.off_warm = None
+
+    def _off_warm(self):
+        """The healthy board's power-off solutions by (plus, minus, quantity)."""
+        if self.off_warm is None:
+            self.off_warm = {}
+            ev = self.ev
+            off = [ev.readings[i] for i in range(ev.n) if i not in set(self.cheap)]
+            if off:
+                try:
+                    predict(ev.circuit, off, ev.meters, off_warm=self.off_warm)
+                except _ERRORS:
+                    pass     # a reading without a healthy solution starts from cold
+        return self.off_warm
 
     def solve(self, faults):
         """``(displays (n,), sensitivity (n, m))`` under ``faults``; NaN displays and
@@ -194,6 +210,8 @@ class Exact:
         rows = list(rows)
         rds = [ev.readings[i] for i in rows]
         kw = {"warm": self.warm} if self.warm is not None else {}
+        if any(i not in self.live_set for i in rows):
+            kw["off_warm"] = self._off_warm()
         # predict() re-solves with the meter in the circuit where the meter loads a node
         # heavily (a pad above an open LED): docs/junction-models.md
         pr = predict(circuit, rds, ev.meters, overrides=overrides, **kw)

@@ -317,12 +317,15 @@ def _meter_shifts_operating_point(grp, readings, idx, meters, value):
 
 
 def predict_nonlinear(circuit: Circuit, readings, meters: dict, overrides: dict | None = None, *,
-                      share: dict | None = None, warm=None) -> Prediction:
+                      share: dict | None = None, warm=None, off_warm=None) -> Prediction:
     """:func:`faultfind.engine.predict.predict` for a circuit with semiconductors.
 
     ``warm``: an earlier prediction's ``operating_point`` (or an
     OperatingPoint) to start Newton from.  ``share`` holds the DC group under
     ``("dc", None)`` and AC groups under ``("ac", f)`` as the linear path does.
+    ``off_warm``: a dict of power-off readings' solutions by ``(plus, minus,
+    quantity)`` to start their Newton solves from; a reading not in it is
+    solved from cold and its solution added (engine/offnet.py).
 
     Raises
     ------
@@ -350,7 +353,12 @@ def predict_nonlinear(circuit: Circuit, readings, meters: dict, overrides: dict 
             value[i], sens[i] = _lifted(c, rd, pindex, npar, over, meter)
         elif key[0] == "off":
             plus, minus = c.part(rd.part).nodes[:2] if rd.part is not None else (rd.plus, rd.minus)
-            value[i], sens[i] = off_reading(c, plus, minus, rd.quantity, meter, over, pindex, npar)
+            okey = (plus, minus, rd.quantity)
+            hold = {} if off_warm is not None and okey not in off_warm else None
+            value[i], sens[i] = off_reading(c, plus, minus, rd.quantity, meter, over, pindex, npar,
+                                            warm=(off_warm or {}).get(okey), keep=hold)
+            if hold and "op" in hold:
+                off_warm[okey] = hold["op"]
         else:
             by_key.setdefault(key, []).append(i)
     dc = None

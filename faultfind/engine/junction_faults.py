@@ -172,10 +172,12 @@ class Exact:
         ev = self.ev
         circuit, overrides = _faulted(ev.circuit, faults)
         self.solves += 1
-        try:
-            got = self._solve(circuit, overrides, range(ev.n))
-        except _ERRORS:
-            got = self._piecewise(circuit, overrides)
+        got = self._from_live(key, circuit, overrides)
+        if got is None:
+            try:
+                got = self._solve(circuit, overrides, range(ev.n))
+            except _ERRORS:
+                got = self._piecewise(circuit, overrides)
         if len(self.cache) > 4096:
             self.cache.clear()
         self.cache[key] = got
@@ -203,6 +205,25 @@ class Exact:
                 got = (np.full(ev.n, np.nan), None)
             self.cache[key] = got
         return got
+
+    def _from_live(self, key, circuit, overrides):
+        """The full solve from a :meth:`solve_live` result already cached: its live and
+        lifted rows (the same operating point and linearisation a full solve computes)
+        and the power-off readings solved now (they need no operating point).  None when
+        there is no such result or the power-off solve fails (the caller solves it all)."""
+        live = self.cache.get(("live",) + key)
+        if live is None or live[1] is None or np.isnan(live[0][self.cheap]).any():
+            return None
+        ev = self.ev
+        cheap = set(self.cheap)
+        off = [i for i in range(ev.n) if i not in cheap]
+        try:
+            v, s = self._solve(circuit, overrides, off)
+        except _ERRORS:
+            return None
+        val, S = live[0].copy(), live[1].copy()
+        val[off], S[off] = v[off], s[off]
+        return val, S
 
     def _solve(self, circuit, overrides, rows):
         """Displays and sensitivities of the readings ``rows`` (raises when unsolvable)."""

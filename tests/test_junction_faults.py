@@ -349,3 +349,24 @@ def test_full_solve_after_a_live_one_equals_a_fresh_full_solve():
         ref = Exact(Evaluator(c, rd, METERS)).solve([f])
         np.testing.assert_allclose(got[0], ref[0], rtol=1e-9, atol=1e-12)
         np.testing.assert_allclose(got[1], ref[1], rtol=1e-7, atol=1e-9)
+
+
+def test_displays_only_then_sensitivities_equal_a_fresh_full_solve():
+    # Exact.solve(sens=False) skips the power-off readings' sensitivity rows; the same
+    # displays as a full solve, and a later call wanting sensitivities fills those rows
+    # to what a fresh full solve gives
+    from faultfind.engine.faults import Fault
+    from faultfind.engine.hypotheses import Evaluator
+    from faultfind.engine.junction_faults import Exact
+    c = relay_driver()
+    plan = [V("+24V"), V("B"), V("C"), DT(plus="B", minus="0V"), DT(part="D1")]
+    rd = planted(c, plan, ("Q1", "base-emitter-open", None), 21)
+    for f in (Fault("Q1", "base-emitter-short"), Fault("D1", "leaky", 1e4), Fault("D1", "drift", 0.7)):
+        a = Exact(Evaluator(c, rd, METERS))
+        ref = Exact(Evaluator(c, rd, METERS)).solve([f])
+        vals = a.solve([f], sens=False)
+        np.testing.assert_allclose(vals[0], ref[0], rtol=1e-9, atol=1e-12)
+        assert np.all(vals[1][3:] == 0.0) and np.any(ref[1][3:] != 0.0)   # rows skipped
+        got = a.solve([f])
+        np.testing.assert_allclose(got[0], ref[0], rtol=1e-9, atol=1e-12)
+        np.testing.assert_allclose(got[1], ref[1], rtol=1e-7, atol=1e-9)

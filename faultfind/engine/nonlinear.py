@@ -340,6 +340,31 @@ class System:
 
     def matrix(self, g, gmin=0.0, lin_vals=None):
         """The linearized matrix: linear part + element conductances ``g`` + ``gmin`` on node diagonals."""
+        data = self._values(g, gmin, lin_vals)
+        J = getattr(self, "_J", None)
+        if J is None or J.dtype != data.dtype:
+            J = self._J = sp.csc_matrix((data, self._indices, self._indptr),
+                                        shape=(self.size, self.size))
+            return J.copy()
+        J = J.copy()     # a new matrix object sharing the pattern (no format checks)
+        J.data = data
+        return J
+
+    def _work_matrix(self, g, gmin=0.0):
+        """:meth:`matrix` written into one matrix object kept for Newton's iterations
+        (factored at once and not kept: no new object, no format checks, per iteration)."""
+        data = self._values(g, gmin)
+        J = getattr(self, "_Jw", None)
+        if J is None or J.dtype != data.dtype or J.indices is not self._indices:
+            J = self._Jw = sp.csc_matrix((data, self._indices, self._indptr),
+                                         shape=(self.size, self.size), copy=False)
+            J.indices = self._indices
+        else:
+            J.data[:] = data
+        return J
+
+    def _values(self, g, gmin=0.0, lin_vals=None):
+        """The matrix's nonzero values in the pattern's order."""
         lin = self.lin_vals if lin_vals is None else lin_vals
         dev = (self._ew * self._es[None, :] * np.asarray(g)[:, None])[self._emask] if len(g) else np.zeros(0)
         diag = np.full(len(self.n_nodes), gmin)
@@ -349,14 +374,7 @@ class System:
                     + 1j * np.bincount(self._inv, weights=vals.imag, minlength=self._nuniq))
         else:
             data = np.bincount(self._inv, weights=vals, minlength=self._nuniq)
-        J = getattr(self, "_J", None)
-        if J is None or J.dtype != data.dtype:
-            J = self._J = sp.csc_matrix((data, self._indices, self._indptr),
-                                        shape=(self.size, self.size))
-            return J.copy()
-        J = J.copy()     # a new matrix object sharing the pattern (no format checks)
-        J.data = data
-        return J
+        return data
 
     def control(self, x):
         """Element control voltages of a solution ``x``."""
@@ -401,7 +419,7 @@ class System:
         x = None
         for it in range(1, maxiter + 1):
             i, g = law(v, self.log_is, self.nvt)
-            J = self.matrix(g, gmin)
+            J = self._work_matrix(g, gmin)
             rhs = self.companion_rhs(b, i, g, v)
             try:
                 x = splu(J, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.1,

@@ -108,6 +108,24 @@ class OperatingPoint:
         return dict(zip(self.keys, self.v.tolist()))
 
 
+#: Devices built from (part, override) pairs, by the part's identity: every re-solve of a
+#: faulted variant builds the same devices again (the parts are immutable).
+_DEVICES: dict = {}
+
+
+def _device(part, override):
+    """:func:`~.junctions.device`, cached (the part kept, so its id is not reused)."""
+    key = (id(part), override)
+    hit = _DEVICES.get(key)
+    if hit is not None and hit[0] is part:
+        return hit[1]
+    dev = device(part, override)
+    if len(_DEVICES) >= 4096:
+        _DEVICES.clear()
+    _DEVICES[key] = (part, dev)
+    return dev
+
+
 class System:
     """The nonlinear network of one analysis of a circuit.
 
@@ -182,9 +200,9 @@ class System:
             if p.kind in _KEY_TWO:
                 if ov in ("open", "short"):
                     continue
-                dev = device(p, ov if isinstance(ov, tuple) else None)
+                dev = _device(p, ov if isinstance(ov, tuple) else None)
             else:
-                dev = device(p, ov)
+                dev = _device(p, ov)
             roles = {}
             for role, node in dev.terminals.items():
                 if node is None:

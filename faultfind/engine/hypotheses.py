@@ -37,6 +37,7 @@ from .estimate import weighted_gram
 from .evidence import Evidence
 from .faults import Fault
 from .limits import apply_limits
+from .modelspread import model_spread_columns
 from .oracle import oracle_readings
 from .predict import analysis_key, lifted_value, parameters, predict
 from .priors import HANDBOOK
@@ -321,7 +322,11 @@ class Evaluator(Board, DriftFits):
         self.share = share
         self.pred0 = nominal.value if self.n else np.zeros(0)
         self.S0 = nominal.sensitivity if self.n else np.zeros((0, len(self.params)))
-        self.ev = Evidence(self.readings, meters, self.pred0, self.S0, self.tol_low, self.tol_high)
+        # semiconductors' model spread (vbe, gain, zener forward voltage): no parameters,
+        # extra covariance (engine/spread.py); nothing on a linear board
+        ms = model_spread_columns(circuit, self.readings, meters, nominal) if self.n else None
+        self.ev = Evidence(self.readings, meters, self.pred0, self.S0, self.tol_low, self.tol_high,
+                           model_spread=ms)
         if self.offnl:   # the fast path's stand-in: what was read (.junction_faults re-solves)
             self.off_fill = np.where(self.ev.ol, np.inf, np.nan_to_num(self.ev.y))
 
@@ -352,6 +357,8 @@ class Evaluator(Board, DriftFits):
         ev = self.ev
         T = weighted_gram(S, ev.var_p)
         pred = h.predicted
+        sc = ev._scales(pred)
+        T = T + ev.T_model * np.outer(sc, sc)
         num = (~ev.ol) & np.isfinite(pred)
         if not num.any():
             return h

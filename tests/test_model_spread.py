@@ -100,7 +100,7 @@ def test_collector_band_holds_each_spread_alone():
             ys.append(oracle_readings(with_key(c, ref, key, f), DC, METERS).real)
     ys = np.array(ys)
     assert np.all(ys >= low - 1e-9) and np.all(ys <= high + 1e-9)
-    # the collector band is wider than the resistors' alone gave (vbe moves Ie)
+    # the collector band is wider than any one spread alone moves it (the parts add)
     assert high[1] - low[1] > (ys[:, 1].max() - ys[:, 1].min())
 
 

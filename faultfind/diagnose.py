@@ -111,12 +111,28 @@ def _shown(ev: Evaluator, h: Hypothesis):
     return ev.pred0 if not h.faults else h.predicted
 
 
+def _residuals(ev: Evaluator, h: Hypothesis):
+    """Standardized residuals of the readings under ``h``, with the spread its score used.
+
+    A hypothesis scored exactly (:meth:`Evaluator.exact`) has the faulted
+    circuit's own tolerance spread: with L1 open, the resistance read across
+    it is the rest of the network's (spread by those parts' tolerances), not
+    the winding's; the healthy spread rescaled would call a reading 4 % off
+    "against" a hypothesis that fits it.
+    """
+    tol_var = None
+    if h.exact and h.faults:
+        S = ev.faulted_sensitivity(h.faults)
+        if S is not None and np.all(np.isfinite(S)):
+            tol_var = (S ** 2) @ ev.ev.var_p
+    return ev.ev.residuals(h.predicted, ev.drop_cols(h.faults), ev.weak(h.faults), tol_var=tol_var)
+
+
 def _explain(ev: Evaluator, h: Hypothesis, healthy: Hypothesis, limit=4):
     out = []
     e = ev.ev
-    drop = ev.drop_cols(h.faults)
     z0 = e.residuals(healthy.predicted)
-    zh = e.residuals(h.predicted, drop, ev.weak(h.faults))
+    zh = _residuals(ev, h)
     label = " + ".join(describe_fault(ev.circuit, f) for f in h.faults) or "a healthy circuit"
     order = np.argsort(-np.abs(z0))
     n_for = 0

@@ -185,7 +185,8 @@ def contact_strings(circuit: Circuit, parts=None, longest=STRING_MAX):
     parts long, whose inner nodes join exactly two such parts (a node where
     contacts branch ends a run: the contacts beyond it are not in series
     with these); a pair of end nodes is listed once (the shortest run
-    between them).
+    between them), its plus end the one nearer a supply (the reading is then
+    positive on a DC feed).
 
     Returns
     -------
@@ -218,7 +219,35 @@ def contact_strings(circuit: Circuit, parts=None, longest=STRING_MAX):
             for nxt, ref in adj.get(node, ()):
                 if nxt not in path and nxt != g and ref not in refs:
                     stack.append((nxt, path + (nxt,), refs + (ref,)))
-    return sorted(found.values(), key=lambda t: (t[0], t[1]))
+    dist = _supply_distance(circuit)
+    runs = []
+    for a, b, refs in found.values():
+        if dist.get(b, math.inf) < dist.get(a, math.inf):   # plus probe on the supply side
+            a, b, refs = b, a, refs[::-1]
+        runs.append((a, b, refs))
+    return sorted(runs, key=lambda t: (t[0], t[1]))
+
+
+def _supply_distance(circuit):
+    """Parts between each node and the nearest voltage source's + terminal (breadth first)."""
+    g = circuit.ground
+    adj = {}
+    for p in circuit.parts:
+        if p.kind != "opamp":
+            a, b = p.nodes[:2]
+            adj.setdefault(a, set()).add(b)
+            adj.setdefault(b, set()).add(a)
+    frontier = [p.nodes[0] for p in circuit.parts if p.kind == "voltage-source" and p.nodes[0] != g]
+    dist = {n: 0 for n in frontier}
+    while frontier:
+        nxt = []
+        for n in frontier:
+            for m in adj.get(n, ()):
+                if m != g and m not in dist:
+                    dist[m] = dist[n] + 1
+                    nxt.append(m)
+        frontier = nxt
+    return dist
 
 
 def near_suspects(circuit: Circuit, suspects, cap=NEAR_CAP):

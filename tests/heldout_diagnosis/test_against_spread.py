@@ -11,6 +11,10 @@ healthy spread rescaled to the open's prediction calls that reading far off
 and the finding was reported "inconsistent"; by the spread of the circuit
 with L1 open (R5's and R7's tolerances) it fits.  A reading 38 % high is
 beyond both tolerances and stays against the finding.
+
+The second board (loop_sense_open/) has a current source beside the open
+part: there the leading part's other modes must be scored on the same exact
+terms as the leader (see the test's docstring).
 """
 
 from __future__ import annotations
@@ -53,3 +57,29 @@ def test_reading_beyond_every_tolerance_is_still_against_the_finding():
     assert [(f.ref, f.mode) for f in d.hypotheses[0].faults] == [("L1", "open")]
     assert any(line.startswith("against: R(L1)") for line in d.explanations[0])
     assert d.verdict == "inconsistent"
+
+
+# ---------------------------------------------------------------- the leader's other modes
+
+LOOP = Path(__file__).resolve().parent / "loop_sense_open"
+
+
+def test_open_beside_a_current_source_is_scored_on_equal_terms_with_its_drift():
+    """TX1 drives 5 mA into the sense resistor R8 (240 ohm).  With R8 open the
+    current goes through R9 into R13 || (R11 + R12): TP5 reads
+    5 mA x (6k2 + 4k7 || 11k3) = 47.6 V (Ohm's law; the 10 Mohm meter takes
+    0.1 % of it), set by R9's and R13's 5 % tolerances where the healthy
+    node (1.2 V across R8) is set by R8's 1 %.  The board here has R9 and R13
+    4 % low and TX1 1.5 % low (readings worked out by hand the same way).
+    Scored on the healthy spread the open looked 7 standard deviations off
+    and R8 "drifted to 185 kOhm" took 100 %; scored like its drift, on the
+    spread of the circuit with R8 open, the open is the finding."""
+    circuit = load_circuit(LOOP / "circuit.toml")
+    readings = load_readings(LOOP / "readings.csv", circuit, METERS)
+    d = diagnose(circuit, readings, METERS, advise=False)
+    top = d.hypotheses[0]
+    assert [(f.ref, f.mode) for f in top.faults] == [("R8", "open")]
+    r9, z6, meter = 6200.0, 1.0 / (1 / 4700.0 + 1 / 11300.0), 10e6
+    assert_allclose(top.predicted[0], 5e-3 * (r9 + z6) * meter / (meter + r9 + z6), rtol=2e-3)
+    assert top.exact and top.chi2 < 7.81     # chi-square 95 % point, 3 degrees of freedom (tables)
+    assert d.verdict == "fault"

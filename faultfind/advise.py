@@ -52,6 +52,7 @@ DEFAULT_COSTS = {
 ELV_AC = 50.0
 ELV_DC = 120.0
 
+import os as _os
 _MAX_HYP = 40
 _CHUNK = 60
 #: On a circuit with more candidate readings than this, only the readings near
@@ -305,6 +306,12 @@ def _prior_hypotheses(circuit, priors=None):
     return [(f, pr / s) for f, pr in hyps]
 
 
+def _repair_groups(kept):
+    """One group per set of faulted parts: the modes of a part call for one repair."""
+    keys = {}
+    return np.array([keys.setdefault(frozenset(f.ref for f in faults), len(keys)) for faults, _ in kept])
+
+
 def _spread_unseen(circuit, hypotheses):
     """Unseen drifts (value unknown over the whole drift range) as a few values across it.
 
@@ -451,8 +458,9 @@ def _suggest(circuit, readings, meters, hypotheses, costs, power, top, factors, 
     fed = np.where(np.array([k in drawn for k in range(len(kept))]), 0.0, probs_eff)
     if fed.sum() <= 0:
         return []
+    groups = _repair_groups(kept) if not _os.environ.get("FF_EXP_NOGROUP") else None
     gain = np.concatenate([expected_information_gain(fed / fed.sum(), mean_s[a:a + _CHUNK],
-                                                     sd_s[a:a + _CHUNK])
+                                                     sd_s[a:a + _CHUNK], groups)
                            for a in range(0, C, _CHUNK)]) * fed.sum()
     for c in range(C):   # a reading that repeats one taken, another way, tells nothing new
         if any(_coincide(mu_s[c], noise_s[c], mu_s[C + t], fed) for t in range(M)

@@ -328,8 +328,13 @@ class Evaluator(Board, DriftFits):
                           occam=occam)
 
     def exact(self, h: Hypothesis) -> Hypothesis:
-        """Re-score ``h`` with the faulted circuit's own sensitivities (one re-solve)."""
-        if not h.faults:
+        """Re-score ``h`` with the faulted circuit's own sensitivities (one re-solve).
+
+        A hypothesis predicted with a supply in current limit (:mod:`.limits`)
+        is returned as it is: the faulted circuit's sensitivities are those
+        of the supply holding its voltage, which would spread the limited
+        prediction by the full fault current."""
+        if not h.faults or h.limited:
             return h
         S = self.faulted_sensitivity(h.faults)
         if S is None or not np.all(np.isfinite(S)):

@@ -21,10 +21,11 @@ from .blas import threads_for
 from .engine.advise import condition_on_taken, expected_information_gain
 from .engine.drifts import DRIFT_RANGE, RESISTOR_FLOOR, SOURCE_RANGE
 from .engine.hypotheses import Board, Fault, rank
+from .engine.junction_faults import exact_faults
 from .engine.meter import standard_uncertainty
 from .engine.predict import predict
 from .engine.priors import HANDBOOK
-from .errors import InputError
+from .errors import InputError, SolveError
 from .io.meters_file import meters_with_default
 from .model import QUANTITY_UNITS, Circuit, Reading
 from .units import format_value
@@ -52,8 +53,10 @@ DEFAULT_COSTS = {
 ELV_AC = 50.0
 ELV_DC = 120.0
 
-import os as _os
 _MAX_HYP = 40
+#: Leak resistance of a leaky diode before any reading (ohms), for the first suggestion;
+#: common practice (no source): a leak a diode test shows plainly.
+LEAK_TYPICAL = 1e3
 _CHUNK = 60
 #: On a circuit with more candidate readings than this, only the readings near
 #: the leading suspects are weighed (:func:`near_suspects`).
@@ -120,7 +123,24 @@ def load_costs(path) -> dict:
 
 
 def _power(rd: Reading) -> str:
-    return "off" if rd.quantity == "resistance" else "on"
+    """A resistance and a diode test are power-off readings."""
+    return "off" if rd.quantity in ("resistance", "diode-test") else "on"
+
+
+def junction_probes(part):
+    """The diode-test readings of a semiconductor ``part``: ``[(plus, minus, what)]``.
+
+    A two-terminal junction is read forward (red probe on the anode); a
+    transistor's base-emitter and base-collector junctions forward (npn: red
+    on the base; pnp: black on the base), the usual check of a bipolar
+    transistor with a meter's diode test (common practice, no source).
+    """
+    if part.kind in ("npn", "pnp"):
+        c, b, e = part.nodes
+        if part.kind == "npn":
+            return [(b, e, f"{part.ref} base-emitter"), (b, c, f"{part.ref} base-collector")]
+        return [(e, b, f"{part.ref} emitter-base"), (c, b, f"{part.ref} collector-base")]
+    return [(part.nodes[0], part.nodes[1], f"across {part.ref}")]
 
 
 def candidate_readings(circuit: Circuit, suspects=(), frequencies=None, *, nodes=None,
@@ -129,7 +149,8 @@ def candidate_readings(circuit: Circuit, suspects=(), frequencies=None, *, nodes
 
     Node voltages to ground and voltages across two-terminal parts (DC; AC at
     the circuit frequency and at ``frequencies`` when AC sources exist),
-    currents through parts, in-circuit resistances across passive parts, and
+    currents through parts, in-circuit resistances across passive parts,
+    diode tests across every junction (power off: :func:`junction_probes`), and
     lifted-part resistances of the ``suspects``.  ``nodes`` and ``parts``
     (sets of names), when given, restrict the readings to those nodes and parts.
     """
@@ -140,7 +161,7 @@ def candidate_readings(circuit: Circuit, suspects=(), frequencies=None, *, nodes
         fs = frequencies if frequencies is not None else [circuit.frequency / 10, circuit.frequency * 10]
         modes += [("ac", None)] + [("ac", float(f)) for f in fs]
     pool = circuit.parts if parts is None else [circuit.part(r) for r in sorted(parts)]
-    two = [p for p in pool if p.kind != "opamp"]
+    two = [p for p in pool if p.kind not in ("opamp", "npn", "pnp")]
     node_list = circuit.nodes if nodes is None else [n for n in circuit.nodes if n in nodes] \
         if len(nodes) * 50 > len(circuit.nodes) else sorted(nodes)
     for mode, f in modes:
@@ -159,8 +180,15 @@ def candidate_readings(circuit: Circuit, suspects=(), frequencies=None, *, nodes
                 if f is None:
                     out.append(Reading("voltage", mode, a, b, label=f"across {' + '.join(refs)}"))
     for p in two:
-        if not p.is_source:
+        if not p.is_source and not p.is_semiconductor:
             out.append(Reading("resistance", None, part=p.ref, setup="in-circuit", label=f"across {p.ref}"))
+    for p in pool:
+        if p.is_semiconductor:
+            for plus, minus, what in junction_probes(p):
+                if len(p.nodes) == 2:
+                    out.append(Reading("diode-test", None, part=p.ref, label=f"diode test {what}"))
+                else:
+                    out.append(Reading("diode-test", None, plus, minus, label=f"diode test {what}"))
     for ref in suspects:
         p = circuit.part(ref)
         if p.kind in ("resistor", "fuse", "switch", "inductor", "capacitor"):
@@ -298,8 +326,12 @@ def _prior_hypotheses(circuit, priors=None):
                 continue
             if mode == "drift":
                 factors = (0.8,) if p.is_source else ((3.0,) if p.kind in ("fuse", "switch") else (0.5, 2.0))
+                if p.is_semiconductor:
+                    factors = (0.8, 1.25)   # a forward or zener voltage 20 % off
                 for fct in factors:
                     hyps.append(((Fault(p.ref, "drift", p.value * fct),), pr / len(factors)))
+            elif mode == "leaky":
+                hyps.append(((Fault(p.ref, "leaky", LEAK_TYPICAL),), pr))
             else:
                 hyps.append(((Fault(p.ref, mode),), pr))
     s = sum(pr for _, pr in hyps)
@@ -326,10 +358,10 @@ def _spread_unseen(circuit, hypotheses):
     out = []
     for faults, pr in hypotheses:
         f = faults[0] if len(faults) == 1 else None
-        if f is None or f.mode != "drift" or f.seen:
+        p = circuit.part(f.ref) if f is not None else None
+        if f is None or f.mode != "drift" or f.seen or p.is_semiconductor:
             out.append((faults, pr))
             continue
-        p = circuit.part(f.ref)
         lo, hi, blo, bhi = _drift_span(p)
         sides = [(a, b) for a, b in ((lo, min(blo, hi)), (max(bhi, lo), hi)) if b - a > 1e-9]
         total = sum(b - a for a, b in sides)
@@ -350,9 +382,24 @@ def _drift_span(part):
     return (float(lo), float(hi), float(np.log1p(-min(part.tol_low, 0.999))), float(np.log1p(part.tol_high)))
 
 
+def _solvable(circuit, rd, meters) -> bool:
+    """False for a power-off reading of a board with junctions that has no solution."""
+    if rd.quantity not in ("resistance", "diode-test") or rd.setup == "lifted":
+        return True
+    try:
+        predict(circuit, [rd], meters)
+    except (ValueError, ArithmeticError, SolveError):   # ConvergenceError is both
+        return False
+    return True
+
+
 def _scale(rd, meter, values):
-    """Map displays to the scale the reading's noise is Gaussian on (log for ohms)."""
+    """Map displays to the scale the reading's noise is Gaussian on (log for ohms; an OL
+    diode test above the display's top, apart from a shorted junction's 0 V)."""
     v = np.asarray(values, dtype=float)
+    if rd.quantity == "diode-test":
+        top = meter.diode_test_max
+        return np.where(np.isfinite(v) & (v <= top), v, 1.5 * top)
     if rd.quantity == "resistance":
         top = meter.max_resistance * 2.0
         r = np.where(np.isfinite(v), np.clip(np.abs(v), 1e-3, top), top)
@@ -431,6 +478,8 @@ def _suggest(circuit, readings, meters, hypotheses, costs, power, top, factors, 
     else:
         cands = candidate_readings(circuit, suspects)
     cands = [c for c in cands if _same(circuit, c) not in taken]
+    if circuit.is_nonlinear:   # a power-off reading the engine cannot solve is not offered
+        cands = [c for c in cands if _solvable(circuit, c, meters)]
     if not cands or len(kept) < 2:
         return []
     seen = [r for r in readings if r.value is not None and r.overrange == 0
@@ -458,7 +507,7 @@ def _suggest(circuit, readings, meters, hypotheses, costs, power, top, factors, 
     fed = np.where(np.array([k in drawn for k in range(len(kept))]), 0.0, probs_eff)
     if fed.sum() <= 0:
         return []
-    groups = _repair_groups(kept) if not _os.environ.get("FF_EXP_NOGROUP") else None
+    groups = _repair_groups(kept)   # the information about which part to repair
     gain = np.concatenate([expected_information_gain(fed / fed.sum(), mean_s[a:a + _CHUNK],
                                                      sd_s[a:a + _CHUNK], groups)
                            for a in range(0, C, _CHUNK)]) * fed.sum()
@@ -505,6 +554,10 @@ class _Model:
                   None if x.mode != "drift" else np.array([x.value / circuit.part(x.ref).value]))
                  for _, x in singles]
         mu = np.zeros((len(rows), len(kept)))
+        if circuit.is_nonlinear:   # a board with junctions: each fault re-solved exactly
+            for i, x in singles:
+                mu[:, i] = exact_faults(board, [x])
+            singles, items = [], []
         for (i, _), P in zip(singles, board.predict_many(items)):
             mu[:, i] = P[0]
         for i, (f, _) in enumerate(kept):
@@ -588,7 +641,7 @@ def _limit_note(circuit, kept, probs, drawn):
 
 def _cost(rd, power, costs, circuit):
     q = rd.quantity
-    if q == "resistance":
+    if q in ("resistance", "diode-test"):
         base = costs["lifted"] if rd.setup == "lifted" else costs["resistance"]
         return base + (costs["isolate"] if power == "on" else 0.0)
     base = costs["current"] if q == "current" else costs["voltage"]
@@ -610,6 +663,9 @@ def _live_caution(circuit):
 
 
 def _off_caution(rd):
+    if rd.quantity == "diode-test":
+        return ("power off: isolate, lock out and tag out, verify dead with a proven tester and "
+                "discharge capacitors before the diode test")
     return ("isolate, lock out and tag out, verify dead with a proven tester and discharge "
             "capacitors before connecting the ohmmeter")
 
@@ -649,7 +705,7 @@ def _why(circuit, rd, kept, probs, mu, mu_s, sd_s, power):
 
     a, b = best
     text = f"if {_label(circuit, kept[a][0])}, it reads {val(a)}; if {_label(circuit, kept[b][0])}, {val(b)}"
-    if rd.quantity == "resistance" and power == "off":
+    if rd.quantity in ("resistance", "diode-test") and power == "off":
         text += " (the circuit is already isolated: take the power-off readings together now)"
     return text
 

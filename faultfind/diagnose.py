@@ -100,7 +100,16 @@ def describe_fault(circuit, f) -> str:
         return f"{f.ref} short (welded contacts)" + (f" (about {format_value(f.value, 'Ω')})" if f.value else "")
     if f.mode == "short" and f.value:
         return f"{f.ref} short (about {format_value(f.value, 'Ω')})"
+    if f.mode == "leaky":
+        return f"{f.ref} leaky" + (f" (about {format_value(f.value, 'Ω')} across it)" if f.value else "")
+    if p.kind in ("npn", "pnp"):
+        return f"{f.ref} " + JUNCTION_WORDS.get(f.mode, f.mode)
     return f"{f.ref} {f.mode}"
+
+
+#: How a transistor's fault modes read in a finding.
+JUNCTION_WORDS = {"short": "collector-emitter short", "open": "open (no collector current)",
+                  "base-emitter-open": "base-emitter open", "base-emitter-short": "base-emitter short"}
 
 
 def _shown(ev: Evaluator, h: Hypothesis):
@@ -118,13 +127,17 @@ def _residuals(ev: Evaluator, h: Hypothesis):
     circuit's own tolerance spread: with L1 open, the resistance read across
     it is the rest of the network's (spread by those parts' tolerances), not
     the winding's; the healthy spread rescaled would call a reading 4 % off
-    "against" a hypothesis that fits it.
+    "against" a hypothesis that fits it.  On a board with junctions every
+    fault is scored so (a clamped base voltage spreads like a divider once
+    its junction is open).
     """
     tol_var = None
-    if h.exact and h.faults:
+    if h.faults and (h.exact or ev.circuit.is_nonlinear):
         S = ev.faulted_sensitivity(h.faults)
         if S is not None and np.all(np.isfinite(S)):
             tol_var = (S ** 2) @ ev.ev.var_p
+        elif S is not None and ev.circuit.is_nonlinear:
+            tol_var = (np.nan_to_num(S) ** 2) @ ev.ev.var_p
     return ev.ev.residuals(h.predicted, ev.drop_cols(h.faults), ev.weak(h.faults), tol_var=tol_var)
 
 
@@ -447,6 +460,9 @@ def _estimates(ev: Evaluator, h: Hypothesis) -> dict:
             else:
                 lo, hi = f.value * np.exp(-1.96 * sd), f.value * np.exp(1.96 * sd)
             fixed[f.ref] = (f.value, float(lo), float(hi), "drift")
+        elif p.is_semiconductor and (p.value is None or f.mode not in ("open", "short")):
+            if p.value is not None:   # a leaky diode keeps its forward voltage
+                fixed[f.ref] = (p.value, p.value, p.value, f.mode)
         else:
             v = limit_value(p, f.mode)
             if f.mode == "short" and f.value and p.kind in ("resistor", "fuse", "switch"):

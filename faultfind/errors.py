@@ -18,6 +18,7 @@ __all__ = [
     "LogbookError",
     "PriorsError",
     "SolveError",
+    "ConvergenceError",
 ]
 
 
@@ -102,3 +103,28 @@ class PriorsError(InputError):
 
 class SolveError(FaultfindError):
     """The network equations have no unique solution (singular system)."""
+
+
+class ConvergenceError(InputError, SolveError):
+    """The nonlinear (semiconductor) equations did not settle on an operating point.
+
+    Raised when Newton's method, then gmin stepping, then source stepping all
+    fail (engine/nonlinear.py).  It is an :class:`InputError` (and so a
+    ``ValueError``): the circuit as drawn has no operating point the engine
+    can find, usually a drawing mistake (a junction across a supply with
+    nothing to limit its current, a transistor wired backwards).  It is also a
+    :class:`SolveError`, so code that treats an unsolvable faulted variant as
+    undefined keeps doing so.
+
+    Attributes
+    ----------
+    parts : tuple of str
+        The semiconductor parts whose junctions had not settled.
+    """
+
+    def __init__(self, message, *, parts=(), **kw):
+        self.parts = tuple(parts)
+        if kw.get("part") is None and self.parts:
+            kw["part"] = ", ".join(self.parts[:8]) + (
+                f" and {len(self.parts) - 8} more" if len(self.parts) > 8 else "")
+        super().__init__(message, **kw)

@@ -22,6 +22,8 @@ __all__ = ["Expected", "expect", "survey_readings", "UNITS", "power_state"]
 UNITS = QUANTITY_UNITS
 
 PASSIVE_KINDS = ("resistor", "capacitor", "inductor", "fuse", "switch")
+#: Two-terminal junction kinds (a diode-test reading across each in the survey).
+JUNCTION_KINDS = ("diode", "led", "zener")
 
 
 @dataclass(frozen=True)
@@ -41,7 +43,7 @@ class Expected:
     sigma : float or None
         Standard deviation the tolerances cause.
     unit : str
-        "V", "A" or "Ω".
+        "V", "A" or "Ω" (a diode-test reading: "V").
     power : str
         "on" when the circuit must be energized for the reading, "off" when it
         must be isolated.
@@ -64,8 +66,8 @@ EXPECT_CHUNK = 512
 
 
 def power_state(reading: Reading) -> str:
-    """"off" for a resistance reading (circuit isolated), else "on"."""
-    return "off" if reading.quantity == "resistance" else "on"
+    """"off" for a resistance or diode-test reading (circuit isolated), else "on"."""
+    return "off" if reading.quantity in ("resistance", "diode-test") else "on"
 
 
 def survey_readings(circuit: Circuit) -> list[Reading]:
@@ -74,6 +76,10 @@ def survey_readings(circuit: Circuit) -> list[Reading]:
     Every node's voltage to ground (DC, and AC when AC sources exist), every
     part's current (op-amps excepted; AC too when AC sources exist), and the
     in-circuit resistance across every two-terminal passive part (power off).
+    On a board with semiconductors also: the diode test across every diode,
+    LED and zener (red probe on the anode), and across each transistor's
+    base-emitter and base-collector junctions in their forward direction
+    (power off); a transistor's current is not surveyed.
     """
     out = []
     ground = circuit.ground
@@ -84,11 +90,20 @@ def survey_readings(circuit: Circuit) -> list[Reading]:
             if node != ground:
                 out.append(Reading("voltage", mode, node, ground, frequency=f))
         for p in circuit.parts:
-            if p.kind != "opamp":
+            if p.kind not in ("opamp", "npn", "pnp"):
                 out.append(Reading("current", mode, part=p.ref, frequency=f))
     for p in circuit.parts:
         if p.kind in PASSIVE_KINDS:
             out.append(Reading("resistance", None, part=p.ref, setup="in-circuit"))
+    for p in circuit.parts:
+        if p.kind in JUNCTION_KINDS:
+            out.append(Reading("diode-test", None, part=p.ref))
+        elif p.kind in ("npn", "pnp"):
+            c, b, e = p.nodes
+            for other in (e, c):
+                plus, minus = (b, other) if p.kind == "npn" else (other, b)
+                if plus != minus:
+                    out.append(Reading("diode-test", None, plus, minus))
     return out
 
 

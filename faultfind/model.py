@@ -10,7 +10,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
-__all__ = ["KindInfo", "KINDS", "Part", "Circuit", "Reading", "Accuracy", "MeterProfile",
+__all__ = ["KindInfo", "KINDS", "SEMICONDUCTORS", "JUNCTION_DEFAULTS", "TRANSISTOR_DEFAULTS",
+           "Part", "Circuit", "Reading", "Accuracy", "MeterProfile",
            "QUANTITIES", "QUANTITY_UNITS", "MODES", "SETUPS"]
 
 
@@ -59,16 +60,54 @@ KINDS: dict[str, KindInfo] = {
         KindInfo("voltage-source", 2, "V", ("drift", "dead"), (0.05, 0.05)),
         KindInfo("current-source", 2, "A", ("drift", "dead"), (0.05, 0.05)),
         KindInfo("opamp", 3, None, (), (0.0, 0.0)),
+        # Semiconductors (formats.md section 4).  The value of a diode or LED
+        # is its forward voltage at ``test_current``, of a zener its reverse
+        # breakdown voltage; transistors have no value.  Tolerances: the
+        # part-to-part spread of forward voltage at a fixed current is of the
+        # order of +/-10 % for small-signal diodes and LEDs (common practice,
+        # no source); a zener's letter C grade is +/-5 % (the BZX55/BZX79
+        # "C" suffix, from memory).
+        KindInfo("diode", 2, "V", ("open", "short", "drift", "leaky"), (0.10, 0.10),
+                 default_value=0.65),
+        KindInfo("led", 2, "V", ("open", "short", "drift"), (0.10, 0.10), default_value=2.0),
+        KindInfo("zener", 2, "V", ("open", "short", "drift"), (0.05, 0.05)),
+        KindInfo("npn", 3, None, ("open", "short", "base-emitter-open", "base-emitter-short"),
+                 (0.0, 0.0)),
+        KindInfo("pnp", 3, None, ("open", "short", "base-emitter-open", "base-emitter-short"),
+                 (0.0, 0.0)),
     )
 }
+
+#: The kinds with a junction: they make a circuit nonlinear.
+SEMICONDUCTORS = frozenset({"diode", "led", "zener", "npn", "pnp"})
+
+#: Defaults of the two-terminal junction kinds when the file gives none.
+#: ``test_current`` is the current at which ``value`` holds (formats.md
+#: section 4 fixes 1 mA, 10 mA and 5 mA).  Emission coefficients (from
+#: memory): small-signal silicon diodes about 1.7 to 2 (1N4148 models use
+#: about 1.9), LEDs about 2; a zener's breakdown is sharp (n = 1), its
+#: dynamic resistance comes from ``series_resistance``.  A zener's forward
+#: voltage holds at its ``test_current``.  A zener's value has no default.
+JUNCTION_DEFAULTS = {
+    "diode": {"test_current": 1e-3, "ideality": 1.8, "series_resistance": 0.0},
+    "led": {"test_current": 10e-3, "ideality": 2.0, "series_resistance": 0.0},
+    "zener": {"test_current": 5e-3, "ideality": 1.0, "series_resistance": 0.0,
+              "forward_voltage": 0.7},
+}
+
+#: Defaults of the transistor kinds: DC current gain 100 and a base-emitter
+#: voltage of 0.65 V at 1 mA collector current, the order of a small-signal
+#: silicon transistor such as a 2N3904 / BC547 (from memory).
+TRANSISTOR_DEFAULTS = {"gain": 100.0, "vbe": 0.65}
 
 #: Open-loop gain of an op-amp stage whose file gives none: 10^5 (100 dB), the
 #: order of a general-purpose op-amp's DC gain (from memory).
 DEFAULT_OPAMP_GAIN = 1.0e5
 
-QUANTITIES = ("voltage", "current", "resistance")
-#: Display unit of each quantity.
-QUANTITY_UNITS = {"voltage": "V", "current": "A", "resistance": "Ω"}
+QUANTITIES = ("voltage", "current", "resistance", "diode-test")
+#: Display unit of each quantity.  A diode-test reading displays the voltage
+#: the meter's test current develops (formats.md section 4).
+QUANTITY_UNITS = {"voltage": "V", "current": "A", "resistance": "Ω", "diode-test": "V"}
 MODES = ("dc", "ac")
 SETUPS = ("in-circuit", "lifted")
 
@@ -103,6 +142,23 @@ class Part:
         Inductors: winding resistance in ohms (None: ideal winding).
     gain : float or None
         Opamps: open-loop gain (None: :data:`DEFAULT_OPAMP_GAIN`).
+        Transistors: DC current gain (None: :data:`TRANSISTOR_DEFAULTS`).
+    test_current : float or None
+        Diodes, LEDs, zeners: the current at which ``value`` holds (None:
+        the kind's default, :data:`JUNCTION_DEFAULTS`).
+    ideality : float or None
+        Diodes, LEDs, zeners: emission coefficient n (None: the default).
+    series_resistance : float or None
+        Diodes, LEDs, zeners: ohmic resistance in series with the junction.
+    reverse_leakage : float or None
+        Diodes, LEDs: reverse current at 1 V reverse bias, in amperes, as a
+        resistance-like leak across the junction (None: none modelled).
+    forward_voltage : float or None
+        Zeners: forward voltage at ``test_current`` (None: the default).
+    vbe : float or None
+        Transistors: base-emitter voltage at 1 mA collector current (None:
+        :data:`TRANSISTOR_DEFAULTS`).  ``gain`` holds a transistor's DC
+        current gain.
     current_limit : float or None
         Voltage sources: the most current the supply delivers, in amperes
         (RMS for an AC source); None: no limit known (an ideal source).  A
@@ -127,12 +183,37 @@ class Part:
     resistance: float | None = None
     gain: float | None = None
     current_limit: float | None = None
+    test_current: float | None = None
+    ideality: float | None = None
+    series_resistance: float | None = None
+    reverse_leakage: float | None = None
+    forward_voltage: float | None = None
+    vbe: float | None = None
     label: str = ""
     line: int | None = None
 
     @property
     def info(self) -> KindInfo:
         return KINDS[self.kind]
+
+    @property
+    def is_semiconductor(self) -> bool:
+        return self.kind in SEMICONDUCTORS
+
+    def junction(self, key: str) -> float:
+        """A junction key of this part with the kind's default filled in.
+
+        ``key`` is one of ``test_current``, ``ideality``, ``series_resistance``,
+        ``forward_voltage`` (zener), ``gain``, ``vbe`` (transistors).
+        """
+        v = getattr(self, key)
+        if v is not None:
+            return v
+        if self.kind in JUNCTION_DEFAULTS and key in JUNCTION_DEFAULTS[self.kind]:
+            return JUNCTION_DEFAULTS[self.kind][key]
+        if self.kind in ("npn", "pnp") and key in TRANSISTOR_DEFAULTS:
+            return TRANSISTOR_DEFAULTS[key]
+        raise KeyError(f"{self.kind} has no junction key {key!r}")
 
     @property
     def is_source(self) -> bool:
@@ -207,6 +288,13 @@ class Circuit:
         return ref in self._by_ref
 
     @property
+    def is_nonlinear(self) -> bool:
+        """True when any part is a semiconductor (computed once)."""
+        if getattr(self, "_nonlinear", None) is None:
+            object.__setattr__(self, "_nonlinear", any(p.kind in SEMICONDUCTORS for p in self.parts))
+        return self._nonlinear
+
+    @property
     def has_ac(self) -> bool:
         """True when any source has an AC waveform (computed once)."""
         if getattr(self, "_has_ac", None) is None:
@@ -221,9 +309,9 @@ class Reading:
     Attributes
     ----------
     quantity : str
-        "voltage", "current" or "resistance".
+        "voltage", "current", "resistance" or "diode-test".
     mode : str or None
-        "dc" or "ac"; None for resistance.
+        "dc" or "ac"; None for resistance and diode-test (power off).
     plus, minus : str or None
         Probe nodes (voltage; resistance across nodes).  ``minus`` is already
         resolved to the circuit's ground when the file left it empty.
@@ -265,7 +353,7 @@ class Reading:
         """Short description of where the probes sit, e.g. ``V(A,0V)`` or ``I(R1)``."""
         if self.quantity == "current":
             return f"I({self.part})"
-        sym = "V" if self.quantity == "voltage" else "R"
+        sym = {"voltage": "V", "diode-test": "D"}.get(self.quantity, "R")
         if self.part is not None:
             return f"{sym}({self.part}{', lifted' if self.setup == 'lifted' else ''})"
         return f"{sym}({self.plus},{self.minus})"
@@ -285,6 +373,13 @@ class MeterProfile:
 
     The built-in default (``faultfind.io.meters_file.DEFAULT_METER``) is a
     typical 6000-count handheld; see docs/meter-model.md for its sources.
+
+    The diode-test keys (formats.md section 4): ``diode_test_current`` is the
+    meter's test current, ``diode_test_voltage`` its open-circuit voltage,
+    ``diode_test_max`` the top of the display (above it: OL),
+    ``diode_test`` the accuracy; ``diode_test_resolution`` (a key of this
+    project's) the display step.  Defaults (from memory, a typical handheld):
+    1 mA, 3 V, 2 V, 1 % + 3 counts, 1 mV.
     """
 
     name: str
@@ -300,12 +395,19 @@ class MeterProfile:
     voltage_resolution: float
     current_resolution: float
     resistance_resolution: float
+    diode_test_current: float = 1e-3
+    diode_test_voltage: float = 3.0
+    diode_test_max: float = 2.0
+    diode_test: Accuracy = Accuracy(1.0, 3.0)
+    diode_test_resolution: float = 1e-3
 
     def accuracy(self, quantity: str, mode: str | None) -> Accuracy:
         """The accuracy specification for a quantity and mode."""
         if quantity == "resistance":
             return self.resistance
+        if quantity == "diode-test":
+            return self.diode_test
         return getattr(self, f"{mode or 'dc'}_{quantity}")
 
     def finest_resolution(self, quantity: str) -> float:
-        return getattr(self, f"{quantity}_resolution")
+        return getattr(self, f"{quantity.replace('-', '_')}_resolution")

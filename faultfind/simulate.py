@@ -37,11 +37,22 @@ def draw_board(circuit: Circuit, rng) -> Circuit:
     return replace(circuit, parts=tuple(parts))
 
 
+#: Leak resistance of a leaky diode planted without one (ohms): a leak a diode
+#: test shows plainly; common practice (no source).
+LEAK_DEFAULT = 1e3
+
+
 def fault_overrides(faults) -> dict:
-    """``[(ref, mode, value), ...]`` to the overrides the engine takes."""
+    """``[(ref, mode, value), ...]`` to the overrides the engine takes (a leaky diode:
+    ``("leaky", ohms)``, :data:`LEAK_DEFAULT` when ``value`` is None)."""
     out = {}
     for ref, mode, value in faults:
-        out[ref] = float(value) if mode == "drift" else mode
+        if mode == "drift":
+            out[ref] = float(value)
+        elif mode == "leaky":     # a junction's leak resistance, ohms
+            out[ref] = ("leaky", float(value) if value else LEAK_DEFAULT)
+        else:
+            out[ref] = mode
     return out
 
 
@@ -58,7 +69,8 @@ def simulate_readings(circuit: Circuit, readings, meters: dict, faults=(), rng=N
     meters : dict
         Meter profiles with "default".
     faults : sequence of (ref, mode, value)
-        Faults to plant; ``value`` is the drifted value (SI) for a drift.
+        Faults to plant; ``value`` is the drifted value (SI) for a drift and
+        the leak resistance (ohms) for a junction's "leaky".
     rng : numpy Generator or int, optional
     board : Circuit, optional
         A board from :func:`draw_board`; drawn from ``rng`` when omitted.
@@ -79,7 +91,7 @@ def simulate_readings(circuit: Circuit, readings, meters: dict, faults=(), rng=N
         meter = meters[rd.meter or "default"]
         if np.isnan(t):
             t = 0.0
-        if rd.quantity == "resistance":
+        if rd.quantity in ("resistance", "diode-test"):
             x = float(abs(t.real)) if np.isfinite(t) else np.inf
         elif rd.mode == "ac":
             x = float(abs(t))

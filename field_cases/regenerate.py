@@ -30,7 +30,11 @@ def case_fault(folder: Path):
     faults = []
     for f in doc.get("fault", []):
         part = circuit.part(f["ref"])
-        value = parse_value(f["value"], part.info.unit) if f["mode"] == "drift" else None
+        value = None
+        if f["mode"] == "drift":
+            value = parse_value(f["value"], part.info.unit)
+        elif f["mode"] == "leaky" and "value" in f:   # a leaky diode: its leak resistance
+            value = parse_value(f["value"], "Ω")
         faults.append((f["ref"], f["mode"], value))
     return circuit, faults, int(doc.get("seed", 0))
 

@@ -379,7 +379,7 @@ def test_fuse_and_switch_value_not_required(board):
     assert c.part("F1").value > 0 and c.part("SW1").value > 0
 
 
-@pytest.mark.parametrize("kind", ["diode", "Resistor", "transistor"])
+@pytest.mark.parametrize("kind", ["triode", "Resistor", "transistor"])
 def test_unknown_kind(tmp_path, kind):
     err = part_error(tmp_path, with_change("R1", kind=kind), "R1", "kind", "unknown kind")
     assert "resistor" in err.message          # the known kinds are listed

@@ -170,3 +170,25 @@ def test_show_and_report_say_an_old_diagnosis_was_made_on_another_circuit(book, 
     report = markdown_report(book.get_session(s.id))
     assert (f"made on circuit version 1 ({circuit_sha256(TEXT)[:8]}); the session's circuit "
             f"changed since (now {v2.sha256[:8]})") in report
+
+
+def test_saved_under_a_new_file_name_the_session_names_that_file(book, tmp_path):
+    s = _session(book)
+    before = book.get_session(s.id).circuit_name
+    target = str(tmp_path / "booster-12V.toml")
+    v2 = revise_circuit(book, s.id, TEXT_12V, name=target)
+    s2 = book.get_session(s.id)
+    assert s2.circuit_name == target != before
+    assert v2.reason.endswith(f"saved as {target}")
+    # the same text saved under yet another name: no new version, but the name follows
+    other = str(tmp_path / "copy.toml")
+    assert revise_circuit(book, s.id, TEXT_12V, name=other).version == 2
+    s3 = book.get_session(s.id)
+    assert s3.circuit_name == other
+    assert any(e["text"] == f"circuit saved as {other} (unchanged)" for e in s3.events)
+    # without a name the name stays
+    revise_circuit(book, s.id, TEXT)
+    assert book.get_session(s.id).circuit_name == other
+    for bad in ("", "  ", "a\nb", 3):
+        with pytest.raises(LogbookError, match="name must be"):
+            revise_circuit(book, s.id, TEXT_12V, name=bad)

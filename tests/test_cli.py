@@ -131,7 +131,7 @@ CIRCUIT_ERRORS = [
     ("unknown-top-key", render(BASE, dict(TOP, voltage=3)), ["voltage"]),
     ("missing-value", render(changed("R2", value=None)), ["R2", "value"]),
     ("missing-ground", render(BASE, {"format": 1, "title": "bay 2"}), ["ground"]),
-    ("unknown-kind", render(changed("R2", kind="diode")), ["R2", "kind", "diode"]),
+    ("unknown-kind", render(changed("R2", kind="triode")), ["R2", "kind", "triode"]),
     ("duplicate-ref", render(BASE + [dict(BASE[2])]), ["R1", "ref"]),
     ("node-count", render(changed("R2", nodes=["SENSE"])), ["R2", "nodes"]),
     ("bad-value", render(changed("R2", value="2q2x")), ["R2", "value", "2q2x"]),

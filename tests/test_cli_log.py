@@ -317,3 +317,27 @@ def test_installed_command_in_a_subprocess(tmp_path):
     assert p.returncode == 0 and p.stdout.startswith("Stored reading 1 of session 1")
     p = cli("add", "1", "R", "F1", "-5")
     assert p.returncode == 2 and "Traceback" not in p.stderr
+
+
+def test_show_and_list_carry_the_tags(book_path, capsys):
+    first, second = started(capsys), started(capsys)
+    assert run(capsys, "tag", first, "North-Pumps", "site:Harbour")[0] == 0
+    code, out, _ = run(capsys, "show", first)
+    assert code == 0 and "  tags: North-Pumps, site:Harbour\n" in out
+    code, out, _ = run(capsys, "show", second)
+    assert code == 0 and "tags:" not in out            # no line for an untagged session
+    assert run_json(capsys, "show", first)["session"]["tags"] == ["North-Pumps", "site:Harbour"]
+    assert run_json(capsys, "show", second)["session"]["tags"] == []
+    listed = run_json(capsys, "list")["sessions"]
+    assert [(s["id"], s["tags"]) for s in listed] == [(first, ["North-Pumps", "site:Harbour"]),
+                                                      (second, [])]
+    code, out, _ = run(capsys, "list")
+    header, _rule, *rows = out.splitlines()[:4]
+    assert header.split()[-1] == "tags"
+    assert rows[0].rstrip().endswith("North-Pumps, site:Harbour") and rows[1].rstrip().endswith("—")
+    # the filter ignores case, like the tags themselves
+    assert [s["id"] for s in run_json(capsys, "list", "--tag", "north-pumps")["sessions"]] == [first]
+    code, out, _ = run(capsys, "list", "--tag", "south")
+    assert code == 0 and out == "No sessions match.\n"
+    code, _, err = run(capsys, "list", "--tag", "  ")
+    assert code == 2 and "a tag must not be empty" in err

@@ -42,8 +42,13 @@ def answer_key(folder: Path):
 
 
 def test_every_case_is_here():
-    """field_cases/README.md lists nine cases, one of them healthy."""
-    assert len(CASES) == 9
+    """field_cases/README.md lists eleven cases, one of them healthy, three with semiconductors."""
+    assert len(CASES) == 11
+    semi = [c for c in CASES if load_circuit(c / "circuit.toml").is_nonlinear]
+    assert {c.name for c in semi} == {"canopy_led_string_board", "greenhouse_sensor_zener_supply",
+                                      "irrigation_valve_relay_driver"}
+    for c in semi:   # each takes diode tests, power off (formats.md section 4)
+        assert "diode-test" in (c / "readings.csv").read_text(encoding="utf-8")
     assert sum(1 for c in CASES if not answer_key(c)) == 1
     for c in CASES:
         assert (c / "circuit.toml").is_file() and (c / "readings.csv").is_file()
@@ -109,7 +114,7 @@ def test_expect_json_keys(folder, capsys):
         assert r["unit"] in ("V", "A", "Ω")
         if r["expected"] is None:
             # cli.md: no path between the probes -> expected, low and high null
-            assert r["quantity"] == "resistance" and r["low"] is None and r["high"] is None
+            assert r["quantity"] in ("resistance", "diode-test") and r["low"] is None and r["high"] is None
         else:
             assert r["low"] <= r["expected"] <= r["high"], r
 

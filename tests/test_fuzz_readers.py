@@ -48,6 +48,76 @@ READINGS_BYTES = {c: (ROOT / "field_cases" / c / "readings.csv").read_bytes() fo
 METERS = meters_with_default()
 CIRCUITS = {c: load_circuit(ROOT / "field_cases" / c / "circuit.toml") for c in CASES}
 
+# An invented board with every semiconductor kind and its keys (formats.md section 4),
+# and readings with diode-test rows, mutated with the field cases.
+SEMI = "vent_relay_driver"
+CIRCUIT_BYTES[SEMI] = """format = 1
+title = "Greenhouse vent: relay driver and sensor reference"
+ground = "0V"
+
+[[part]]
+ref = "PS1"
+kind = "voltage-source"
+nodes = ["+12V", "0V"]
+value = "12 V"
+
+[[part]]
+ref = "K1"
+kind = "resistor"
+nodes = ["+12V", "COIL"]
+value = "400"
+
+[[part]]
+ref = "D1"
+kind = "diode"
+nodes = ["COIL", "+12V"]
+value = "0.62 V"
+test_current = "1 mA"
+ideality = 1.9
+series_resistance = "R5"
+reverse_leakage = "20 nA"
+
+[[part]]
+ref = "Q1"
+kind = "npn"
+nodes = ["COIL", "B", "0V"]
+gain = 150
+vbe = "0.66 V"
+
+[[part]]
+ref = "RB"
+kind = "resistor"
+nodes = ["+12V", "B"]
+value = "10k"
+
+[[part]]
+ref = "ZD1"
+kind = "zener"
+nodes = ["0V", "B"]
+value = "5.1 V"
+tolerance = "±0.1 V"
+forward_voltage = "0.72 V"
+
+[[part]]
+ref = "LED1"
+kind = "led"
+nodes = ["B", "LK"]
+
+[[part]]
+ref = "Q2"
+kind = "pnp"
+nodes = ["0V", "LK", "+12V"]
+""".encode()
+READINGS_BYTES[SEMI] = b"""quantity,mode,plus,minus,part,setup,value,label
+voltage,dc,COIL,,,,0.08,relay on
+diode-test,,,,D1,,0.587,flyback forward
+diode-test,,+12V,COIL,,,OL,flyback reversed
+diode-test,,B,0V,,,0.652,Q1 base-emitter
+diode-test,,,,ZD1,,-0.002,shorted?
+resistance,,,,RB,,9.95k,
+"""
+CIRCUITS[SEMI] = parse_circuit(CIRCUIT_BYTES[SEMI].decode(), "vent.toml")
+
 FUZZ = settings(max_examples=200, deadline=None, derandomize=True, database=None,
                 suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large])
 
@@ -148,6 +218,19 @@ def test_mutated_readings_files(folder, example):
         assert all(r.line is not None and r.line >= 2 for r in readings)
 
 
+@FUZZ
+@given(mutated({SEMI: CIRCUIT_BYTES[SEMI]}), mutated({SEMI: READINGS_BYTES[SEMI]}))
+def test_mutated_semiconductor_files(folder, circuit_example, readings_example):
+    # the semiconductor board and its diode-test rows alone, so that every example
+    # mutates them (the field-case tests above draw them among nine others)
+    path = write(folder, "semi.toml", circuit_example[1])
+    circuit = loads_or_input_error(load_circuit, path)
+    if circuit is not None:
+        assert all(isinstance(w, str) for w in circuit_warnings(circuit))
+    path = write(folder, "semi.csv", readings_example[1])
+    loads_or_input_error(lambda p: load_readings(p, CIRCUITS[SEMI], METERS), path)
+
+
 def _single_line_values(text):
     """Line numbers of one-line ``key = value`` assignments."""
     return [i for i, line in enumerate(text.split("\n"))
@@ -162,7 +245,7 @@ TOML_VALUES = ["true", "1979-05-27", "07:32:00", "nan", "-inf", "inf", "1e400", 
 
 
 @FUZZ
-@given(st.sampled_from(CASES), st.data())
+@given(st.sampled_from(CASES + [SEMI]), st.data())
 def test_wrong_types_in_circuit_files(folder, case, data):
     text = CIRCUIT_BYTES[case].decode("utf-8")
     lines = text.split("\n")
@@ -213,6 +296,14 @@ def test_bom_and_line_ends_load_the_same(folder, case, how):
     got = load_readings(write(folder, "r.csv", _variant(READINGS_BYTES[case], how)), original,
                         METERS)
     assert got == load_readings(ROOT / "field_cases" / case / "readings.csv", original, METERS)
+
+
+def test_the_semiconductor_originals_load():
+    # the unmutated semiconductor board and its diode-test rows are good files
+    circuit = CIRCUITS[SEMI]
+    assert {p.kind for p in circuit.parts} >= {"diode", "led", "zener", "npn", "pnp"}
+    got = parse_readings(READINGS_BYTES[SEMI].decode(), "r.csv", circuit, METERS)
+    assert [r.quantity for r in got].count("diode-test") == 4
 
 
 # Labels with the characters CSV quoting exists for (RFC 4180: comma, quote,

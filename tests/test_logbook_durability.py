@@ -390,3 +390,38 @@ def test_locked_logbook_gives_a_clear_error_and_writes_nothing(tmp_path, capsys,
         holder.execute("ROLLBACK")
         holder.close()
     assert _stored(path, sid) == ()
+
+
+def test_0007_keeps_ids_strike_outs_and_the_trigger_and_takes_diode_tests(tmp_path):
+    # 0007 rebuilds the readings table for diode-test readings (formats.md section 4):
+    # every row copied, the AUTOINCREMENT mark kept (SQLite "AUTOINCREMENT": an id is
+    # never reused), the keep-readings trigger made again.
+    path = tmp_path / "v6.sqlite"
+    conn = sqlite3.connect(path, isolation_level=None)
+    mig.migrate(conn, target=6)
+    conn.execute("BEGIN")
+    _fill(conn, 6)
+    conn.execute("INSERT INTO readings (session_id, seq, taken_at, quantity, raw, origin) "
+                 "VALUES (1, 3, '2025-01-02T03:06:30.000+00:00', 'voltage', '1', 'entered')")
+    conn.execute("UPDATE readings SET struck_at = '2025-01-02T03:06:40.000+00:00', "
+                 "struck_reason = 'wrong probe' WHERE seq = 3")
+    conn.execute("DELETE FROM readings WHERE seq = 3")        # the highest id is gone
+    conn.execute("UPDATE readings SET struck_reason = 'kept' WHERE seq = 2")
+    conn.execute("COMMIT")
+    mark = conn.execute("SELECT seq FROM sqlite_sequence WHERE name = 'readings'").fetchone()[0]
+    with pytest.raises(sqlite3.IntegrityError):
+        conn.execute("INSERT INTO readings (session_id, seq, taken_at, quantity, raw) VALUES "
+                     "(1, 9, 'x', 'diode-test', '0.6')")
+    rows = conn.execute("SELECT * FROM readings ORDER BY id").fetchall()
+    conn.close()
+    with Logbook(path) as book:
+        assert book.upgraded == ["0007_diode_test_readings"]
+        assert book._conn.execute("SELECT * FROM readings ORDER BY id").fetchall() == rows
+        book._conn.execute("UPDATE sessions SET ended_at = NULL")
+        got = book.add_reading(1, quantity="diode-test", part="F1", value="0.012")
+        assert got.reading.quantity == "diode-test" and got.reading.value == 0.012
+        new_id = book._conn.execute("SELECT max(id) FROM readings").fetchone()[0]
+        assert new_id == mark + 1
+        with pytest.raises(sqlite3.DatabaseError, match="never changed"):
+            book._conn.execute("UPDATE readings SET raw = '1' WHERE seq = 1")
+        assert book.check() == []

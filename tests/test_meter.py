@@ -317,3 +317,25 @@ def test_bad_arguments(call, key):
     assert info.value.key == key
     assert isinstance(info.value, ValueError)
     assert key in str(info.value)
+
+
+def test_diode_test_display_ol_and_uncertainty():
+    # formats.md section 4: a diode test shows the voltage the test current develops, OL
+    # above the display's top (default 2 V); a handheld's diode range is 1 % + 3 counts
+    # with 1 mV steps (from memory), uncertainty rectangular (JCGM 100:2008, 4.3.7).
+    m = H6000
+    assert meter.overrange(m, "diode-test", 2.5) and meter.overrange(m, "diode-test", math.inf)
+    assert not meter.overrange(m, "diode-test", 0.62)
+    assert meter.simulate(m, "diode-test", None, math.inf, 1) == (None, 1)
+    # a white LED at 1 mA develops about 2.8 V: over the 2 V top, OL (common practice)
+    assert meter.simulate(m, "diode-test", None, 2.8, 1) == (None, 1)
+    for seed in range(20):
+        v, ol = meter.simulate(m, "diode-test", None, 0.612, seed)
+        assert ol == 0 and abs(v - 0.612) <= 0.01 * 0.612 + 3e-3 + 0.5e-3
+        assert v == pytest.approx(round(v, 3), abs=1e-12)          # 1 mV steps
+    a = 0.01 * 0.612 + 3 * 1e-3
+    r = 1e-3
+    want = math.sqrt(a ** 2 / 3 + r ** 2 / 12)
+    assert meter.standard_uncertainty(m, "diode-test", None, 0.612) == pytest.approx(want, rel=1e-9)
+    # never below zero: a shorted junction reads 0.000
+    assert all(meter.simulate(m, "diode-test", None, 0.0, s)[0] >= 0 for s in range(20))

@@ -286,21 +286,22 @@ def test_every_unmapped_line_is_listed_with_its_line():
         "R4 b 0 1k",                                  # 19
     ])
     got = imp(text)
-    assert [p.ref for p in got.circuit.parts] == ["V1", "R1", "R4"]
+    # the diode and its model card are read (formats.md section 4); Q1's model is missing
+    assert [p.ref for p in got.circuit.parts] == ["V1", "R1", "D1", "R4"]
     listed = [(u.line, u.element) for u in got.unmapped]
-    assert listed == [(2, None), (3, None), (4, None), (7, "D1"), (8, "Q1"), (9, "R2"),
+    assert listed == [(3, None), (4, None), (8, "Q1"), (9, "R2"),
                       (10, "R3"), (11, "R1"), (12, "RM"), (13, "S1"), (14, None), (17, None),
                       (18, None)]
     reasons = [u.reason for u in got.unmapped]
-    assert "model card" in reasons[0] and ".param is not read" in reasons[1]
-    assert "not read" in reasons[2] and "no diode kind yet" in reasons[3]
-    assert "no transistor kind yet" in reasons[4] and "parameter expression" in reasons[5]
-    assert "shorted by its own wiring" in reasons[6] and "second element" in reasons[7]
-    assert "no value" in reasons[8] and "switch" in reasons[9]
-    assert "lines 14-16" in reasons[10] and "simulator command" in reasons[11]
-    assert ".foo command faultfind does not know" in reasons[12]
-    assert got.unmapped[3].text == "D1 b 0 dmod"
-    assert "Not mapped: D1, Q1, R2, R3, R1, RM, S1" in got.circuit.notes.replace("\n", " ")
+    assert ".param is not read" in reasons[0]
+    assert "not read" in reasons[1]
+    assert "no .model qmod" in reasons[2] and "parameter expression" in reasons[3]
+    assert "shorted by its own wiring" in reasons[4] and "second element" in reasons[5]
+    assert "no value" in reasons[6] and "switch" in reasons[7]
+    assert "lines 14-16" in reasons[8] and "simulator command" in reasons[9]
+    assert ".foo command faultfind does not know" in reasons[10]
+    assert got.unmapped[2].text == "Q1 a b 0 qmod"
+    assert "Not mapped: Q1, R2, R3, R1, RM, S1" in got.circuit.notes.replace("\n", " ")
 
 
 def test_a_dropped_part_can_leave_the_circuit_unchecked():
@@ -319,7 +320,9 @@ def test_a_dropped_part_can_leave_the_circuit_unchecked():
     ("t\nR1 a 0 1e999\n", 2, "is not a number"),
     ("t\nV1 a 0 DC\n", 2, "DC needs a value"),
     ("t\nE1 o 0 a\n", 2, "takes 4 nodes and a gain"),
-    ("t\nD1 a 0 dmod\n.model dmod d\n", 2, "nothing in the netlist maps"),
+    ("t\nD1 a 0 dmod\n.model dmod nmos\n", 2, "nothing in the netlist maps"),
+    ("t\nD1 a 0\n", 2, "needs two nodes and a model name"),
+    ("t\nQ1 c b e\n", 2, "needs three nodes (collector base emitter) and a model"),
     ("t\n* only comments\n.end\n", 1, "it holds no elements"),
     ("t\n.control\nop\n", 2, ".control has no .endc"),
 ])
@@ -356,14 +359,15 @@ def test_import_writes_a_circuit_file(tmp_path, capsys):
     out = tmp_path / "sump.toml"
     code, stdout, stderr = run(capsys, ["import", str(src), "-o", str(out)])
     assert code == 0
-    assert f"wrote {out}: 4 part(s) mapped from 5 element line(s)" in stdout
-    assert f"not mapped: {src}:6: D1 SENSE 0 dmod  -- a diode" in stderr
-    assert f"not mapped: {src}:7: .model dmod d" in stderr
+    assert f"wrote {out}: 5 part(s) mapped from 5 element line(s)" in stdout
+    # the diode and its model card are read (SPICE defaults IS 1e-14 A, N 1)
+    assert "D1 SENSE" not in stderr and ".model dmod" not in stderr
     assert f"not mapped: {src}:8: .op" in stderr
     assert "every part takes its kind's default (voltage-source ±5 %, resistor ±5 %, " \
-           "capacitor ±20 %)" in stderr
+           "capacitor ±20 %, diode ±10 %)" in stderr
     c = load_circuit(out)
-    assert [p.ref for p in c.parts] == ["V1", "R1", "R2", "C1"]
+    assert [p.ref for p in c.parts] == ["V1", "R1", "R2", "C1", "D1"]
+    assert c.part("D1").kind == "diode" and c.part("D1").ideality == 1.0
     assert c.part("V1").label == "alarm supply"
     code, stdout, _ = run(capsys, ["check", str(out)])
     assert code == 0 and "circuit file OK" in stdout
@@ -389,12 +393,12 @@ def test_import_to_stdout_and_json(tmp_path, capsys):
     src.write_text(NETLIST, encoding="utf-8")
     code, stdout, stderr = run(capsys, ["import", str(src)])
     assert code == 0 and stdout.startswith("format = 1\ntitle = \"Sump pump alarm SP-3")
-    assert "4 part(s) mapped" in stderr
+    assert "5 part(s) mapped" in stderr
     code, stdout, _ = run(capsys, ["import", str(src), "--json"])
     doc = json.loads(stdout)
-    assert code == 0 and doc["parts"] == 4 and doc["elements"] == 5
-    assert [u["line"] for u in doc["unmapped"]] == [6, 7, 8]
-    assert doc["unmapped"][0]["element"] == "D1"
+    assert code == 0 and doc["parts"] == 5 and doc["elements"] == 5
+    assert [u["line"] for u in doc["unmapped"]] == [8]
+    assert doc["unmapped"][0]["element"] is None
     assert doc["default_tolerances"]["resistor"] == [0.05, 0.05]
     assert doc["circuit_file"].startswith("format = 1")
 

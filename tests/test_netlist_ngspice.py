@@ -115,6 +115,16 @@ def test_node_voltages_match_ngspice(path, tmp_path):
     # (the feature netlist hangs each of them off a stiff supply, so no other node moves)
     dropped = {n.lower() for u in got.unmapped if u.element
                for p in [u.text.split()] for n in p[1:4]}
+    # The import's own check: the linear parts.  Diodes and transistors (mapped since
+    # formats.md section 4) are left out here with their nodes, as the unmapped
+    # elements are (each hangs off a stiff supply); their values are checked against
+    # ngspice in tests/test_netlist_semiconductors.py, the nonlinear operating point
+    # belongs to the engine's tests.
+    semis = [p for p in circuit.parts if p.is_semiconductor]
+    dropped |= {n.lower() for p in semis for n in p.nodes}
+    if semis:
+        circuit = dataclasses.replace(circuit, parts=tuple(p for p in circuit.parts
+                                                           if not p.is_semiconductor))
     nodes = [n for n in circuit.nodes if n != "0" and n.lower() not in dropped]
     assert len(nodes) >= 3
     for mode in ["dc"] + (["ac"] if circuit.has_ac else []):

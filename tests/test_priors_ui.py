@@ -63,3 +63,4 @@ def test_the_work_order_report_names_learned_priors(tmp_path):
         assert words in markdown_report(book.get_session(bench.session_id))
         assert words in html_report(book.get_session(bench.session_id))
         assert "Fault priors" not in markdown_report(book.get_session(plain.session_id))
+

@@ -19,7 +19,7 @@ from faultfind.model import KINDS, Circuit, Part
 
 
 def P(ref, kind, *nodes, value=1.0, **kw):
-    if kind == "opamp":
+    if kind in ("opamp", "npn", "pnp"):
         value = None
     return Part(ref=ref, kind=kind, nodes=tuple(nodes), value=value, **kw)
 
@@ -44,11 +44,20 @@ def spec_edges(circuit, zero_impedance):
     ("A DC reading sees capacitors as open and inductors as their winding
     resistance"); zero impedance at DC are voltage sources and inductors without
     winding resistance.  An op-amp output is referred to ground (formats.md kinds
-    table): an edge output-ground in both."""
+    table): an edge output-ground in both.  Semiconductors (formats.md section 4)
+    pass current by their exponential law at any bias, so each junction is a DC path
+    (never a zero impedance): a diode, LED or zener joins its two nodes, a transistor
+    its collector to its base and its base to its emitter."""
     edges = []
     for p in circuit.parts:
         if p.kind == "opamp":
             edges.append((p.nodes[2], circuit.ground, p.ref))
+        elif p.kind in ("npn", "pnp"):
+            if not zero_impedance:
+                edges += [(p.nodes[0], p.nodes[1], p.ref), (p.nodes[1], p.nodes[2], p.ref)]
+        elif p.kind in ("diode", "led", "zener"):
+            if not zero_impedance:
+                edges.append((*p.nodes, p.ref))
         elif zero_impedance:
             if p.kind == "voltage-source" or (p.kind == "inductor" and p.resistance is None):
                 edges.append((*p.nodes, p.ref))
@@ -267,6 +276,20 @@ def test_ground_touched_once_but_for_an_opamp():
     c = C(P("PS1", "voltage-source", "V", "0V"), P("U1", "opamp", "V", "OUT", "OUT"),
           P("R1", "resistor", "V", "OUT"))
     assert dangling_nodes(c) == [] == nx_dangling(c)
+
+
+def test_node_behind_a_junction_is_not_floating():
+    # An LED on a current source's node and a transistor's base fed through a
+    # resistor from a node reached only through its emitter: every junction passes
+    # current (formats.md section 4: I = Is (exp(V / n Vt) - 1) at any bias), so
+    # every node's DC voltage is set; a capacitor still leaves its node floating.
+    c = C(P("PS1", "voltage-source", "V", "0V"), P("I1", "current-source", "V", "LED"),
+          P("D1", "led", "LED", "0V"), P("Q1", "npn", "V", "B", "E"),
+          P("R1", "resistor", "B", "X"), P("D2", "diode", "E", "0V"),
+          P("C1", "capacitor", "X", "Y"), P("Z1", "zener", "0V", "V"))
+    assert floating_nodes(c) == ["Y"] == nx_floating(c)
+    assert ("V", "B", "Q1") in dc_path_edges(c) and ("B", "E", "Q1") in dc_path_edges(c)
+    assert not any(ref in ("D1", "D2", "Q1", "Z1") for *_, ref in zero_impedance_edges(c))
 
 
 def test_type_checked():

@@ -5,6 +5,7 @@ from __future__ import annotations
 from collections import Counter
 
 from ..io.circuit_file import circuit_warnings, load_circuit
+from ..io.junction_keys import KEYS_OF
 from ..model import KINDS
 from ..units import format_tolerance, format_value
 from .output import emit_json, table
@@ -37,8 +38,32 @@ def summary(circuit) -> dict:
         "kinds": dict(kinds),
         "sources": [{"ref": p.ref, "kind": p.kind, "nodes": list(p.nodes), "value": p.value,
                      "waveform": p.waveform, "off_state": p.off_state} for p in sources],
+        "semiconductors": [semiconductor(p) for p in circuit.parts if p.is_semiconductor],
         "warnings": circuit_warnings(circuit),
     }
+
+
+def semiconductor(p) -> dict:
+    """A semiconductor's keys with the kind's defaults filled in (``defaults``: those
+    the file left out), SI units."""
+    keys = {k: p.reverse_leakage if k == "reverse_leakage" else p.junction(k)
+            for k in KEYS_OF[p.kind]}          # no leakage given: none is modelled
+    return {"ref": p.ref, "kind": p.kind, "nodes": list(p.nodes), "value": p.value, **keys,
+            "defaults": [k for k in KEYS_OF[p.kind] if getattr(p, k) is None]}
+
+
+def value_text(p) -> str:
+    """The value column: value and unit; a junction's at its test current, a
+    transistor's gain and vbe."""
+    if p.kind in ("npn", "pnp"):
+        return f"gain {p.junction('gain'):g}, vbe {format_value(p.junction('vbe'), 'V')}"
+    unit = KINDS[p.kind].unit or ""
+    val = format_value(p.value, unit) if p.value is not None else "—"
+    if p.is_semiconductor:
+        val += f" at {format_value(p.junction('test_current'), 'A')}"
+    if p.is_source and p.waveform == "ac":
+        val += " rms"
+    return val
 
 
 def run(args) -> int:
@@ -60,12 +85,8 @@ def run(args) -> int:
     if not listed:
         print(f"({len(circuit.parts)} parts: the table is left out; --all lists them)")
     for p in listed:
-        unit = KINDS[p.kind].unit or ""
-        val = format_value(p.value, unit) if p.value is not None else "—"
-        if p.is_source and p.waveform == "ac":
-            val += " rms"
         tol = format_tolerance(p.tol_low, p.tol_high) if p.value is not None else ""
-        rows.append([p.ref, p.kind, "-".join(p.nodes), val, tol, p.label])
+        rows.append([p.ref, p.kind, "-".join(p.nodes), value_text(p), tol, p.label])
     if rows:
         table(["ref", "kind", "nodes", "value", "tolerance", "label"], rows)
     print()

@@ -65,6 +65,8 @@ def run(args) -> int:
             ("Part currents, DC (+ from the part's first node to its second; sources: delivered)", [e for e in results if e.reading.quantity == "current" and e.reading.mode == "dc"]),
             ("Part currents, AC (RMS)", [e for e in results if e.reading.quantity == "current" and e.reading.mode == "ac"]),
             ("In-circuit resistance across each part, power off", [e for e in results if e.reading.quantity == "resistance"]),
+            ("Diode tests, power off (red probe on the anode; on a transistor's base for an npn)",
+             [e for e in results if e.reading.quantity == "diode-test"]),
         ]
     n = 0
     for title, items in sections:
@@ -77,7 +79,8 @@ def run(args) -> int:
             n += 1
             rd = e.reading
             if e.expected is None:
-                exp, band = "OL", "no path between the probes"
+                exp, band = "OL", ("reversed or open junction" if rd.quantity == "diode-test"
+                                   else "no path between the probes")
             else:
                 exp = _value(e.expected, e.unit)
                 band = f"{_value(e.low, e.unit, 3)} .. {_value(e.high, e.unit, 3)}"

@@ -36,7 +36,9 @@ def reading_json(rd: Reading, unit: str) -> dict:
 
 
 def describe_reading(rd: Reading) -> str:
-    """Short human form: ``V dc TP1-0V``, ``I ac R3 @ 1 kHz``, ``R R2 lifted``."""
+    """Short human form: ``V dc TP1-0V``, ``I ac R3 @ 1 kHz``, ``R R2 lifted``, ``D D3``."""
+    if rd.quantity == "diode-test":
+        return "D " + (rd.part if rd.part is not None else f"{rd.plus}-{rd.minus}")
     if rd.quantity == "resistance":
         where = rd.part if rd.part is not None else f"{rd.plus}-{rd.minus}"
         return f"R {where}" + (" lifted" if rd.setup == "lifted" else "")

@@ -36,7 +36,9 @@ class DrillFault:
     mode : str or None
         One of the part's fault modes.
     value : float or None
-        For a drift: the actual (hidden fault) or named (verdict) value, SI.
+        For a drift: the actual (hidden fault) or named (verdict) value, SI;
+        for a leaky diode: its leak resistance in ohms (a verdict need not
+        name it).
     """
 
     ref: str | None = None
@@ -54,6 +56,8 @@ class DrillFault:
         """``F1 open``, ``R9 drift 6.8 kΩ (+45 % of 4.7 kΩ)``, ``no fault (healthy unit)``."""
         if self.ref is None:
             return "no fault (a healthy unit)"
+        if self.mode == "leaky" and self.value is not None:
+            return f"{self.ref} leaky (about {format_value(self.value, 'Ω')} across it)"
         if self.mode != "drift" or self.value is None:
             return f"{self.ref} {self.mode}"
         p = circuit.part(self.ref)
@@ -114,9 +118,17 @@ def check_fault(circuit: Circuit, ref, mode, value=None, *, what="fault") -> Dri
     if mode not in modes:
         raise InputError(f"{mode or 'no mode'!r} is not a fault mode of {ref} ({part.kind}): "
                          f"{', '.join(modes) or 'it has none'}", part=ref, key=what)
+    if mode == "leaky" and value not in (None, ""):   # the leak's resistance, optional
+        try:
+            v = parse_value(value, "Ω", what=f"{ref}'s leak") if isinstance(value, str) else float(value)
+        except (InputError, TypeError, ValueError) as exc:
+            raise InputError(getattr(exc, "message", str(exc)), part=ref, key=what) from None
+        if not (math.isfinite(v) and v > 0):
+            raise InputError(f"a leak resistance must be above zero, got {value!r}", part=ref, key=what)
+        return DrillFault(ref, "leaky", v)
     if mode != "drift":
         if value not in (None, ""):
-            raise InputError(f"only a drift takes a value; '{ref} {mode}' takes none",
+            raise InputError(f"only a drift or a leak takes a value; '{ref} {mode}' takes none",
                              part=ref, key=what)
         return DrillFault(ref, mode)
     unit = part.info.unit
@@ -180,7 +192,8 @@ def _outside(e, value, meters, rd, k=2.0) -> int:
     """-1/+1 when ``value`` is below/above the healthy band ``e`` widened by ``k`` meter
     accuracy limits, else 0 (OL counts as above)."""
     meter = meters[rd.meter or "default"]
-    ol = not np.isfinite(value) or (rd.quantity == "resistance" and value > meter.max_resistance)
+    ol = (not np.isfinite(value) or (rd.quantity == "resistance" and value > meter.max_resistance)
+          or (rd.quantity == "diode-test" and value > meter.diode_test_max))
     if e.overrange or e.expected is None:
         return 0 if ol else -1
     if ol:
@@ -190,6 +203,12 @@ def _outside(e, value, meters, rd, k=2.0) -> int:
 
 
 def _drift_value(part, rng) -> float:
+    if part.is_semiconductor:   # a forward or zener voltage clearly out of its tolerance
+        if rng.random() < 0.5:
+            f = rng.uniform((1 + part.tol_high) * 1.15, 1.6)
+        else:
+            f = rng.uniform(0.65, (1 - part.tol_low) / 1.15)
+        return float(f"{part.value * f:.3g}")
     if part.is_source:  # a sagging supply
         f = rng.uniform(0.5, 0.8)
     elif part.kind in ("fuse", "switch"):  # a high-resistance contact or fuse
@@ -251,7 +270,12 @@ def draw_fault(circuit: Circuit, rng, meters=None, priors=None) -> DrillFault:
     while w.sum() > 0:
         i = int(rng.choice(len(opts), p=w / w.sum()))
         part, mode = opts[i]
-        fault = DrillFault(part.ref, mode, _drift_value(part, rng) if mode == "drift" else None)
+        value = None
+        if mode == "drift":
+            value = _drift_value(part, rng)
+        elif mode == "leaky":   # a leak a diode test shows: 100 ohm .. 5 kohm
+            value = float(f"{math.exp(rng.uniform(math.log(100), math.log(5000))):.2g}")
+        fault = DrillFault(part.ref, mode, value)
         if _detectable(circuit, fault, meters, probes):
             return fault
         w[i] = 0.0

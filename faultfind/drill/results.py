@@ -30,8 +30,10 @@ def describe_reading(rd: Reading, circuit: Circuit | None = None) -> str:
         where = rd.part
     else:
         where = rd.plus if rd.minus in (None, ground) else f"{rd.plus},{rd.minus}"
-    kind = {"voltage": "V", "current": "I", "resistance": "R"}[rd.quantity]
+    kind = {"voltage": "V", "current": "I", "resistance": "R", "diode-test": "D"}[rd.quantity]
     text = f"{kind} {where}"
+    if rd.quantity == "diode-test":
+        return text
     if rd.quantity == "resistance":
         return text + (" lifted" if rd.setup == "lifted" else "")
     if rd.mode == "ac":

@@ -30,9 +30,9 @@ WASTED_CHANGE = 0.05
 COMMANDS = {
     "ack": "acknowledge the safety caution (first, before anything else)",
     "read": "take a reading: read V TP1 | read V A,B | read I R3 | read R F1 | read R R2 lifted "
-            "| read V OUT ac | read V OUT ac 1k",
+            "| read D D3 (diode test) | read V OUT ac | read V OUT ac 1k",
     "isolate": "isolate the board: lock out, tag out, prove dead, discharge (before resistance "
-               "readings)",
+               "readings and diode tests)",
     "energize": "restore power (before voltage and current readings)",
     "suggest": f"ask faultfind for the next reading (a hint: -{HINT_POINTS} points)",
     "status": "power state, readings and effort so far",

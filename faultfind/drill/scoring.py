@@ -239,7 +239,7 @@ def _settle_line(drill, r) -> str:
         return "faultfind had no reading to suggest on this board."
     first = adv.readings[0]
     e = expect(drill.circuit, [first], drill.meters)[0]
-    state = "isolated" if first.quantity == "resistance" else "energized"
+    state = "isolated" if first.quantity in ("resistance", "diode-test") else "energized"
     words = describe_reading(first, drill.circuit)
     return (f"Soonest: faultfind's first advice from the start was {words} (board {state}); "
             f"on this board it reads {first.raw} where a healthy board reads "

@@ -32,9 +32,14 @@ _KINDS = {"v": ("voltage", "dc", None), "vdc": ("voltage", "dc", None),
           "vac": ("voltage", "ac", None), "i": ("current", "dc", None),
           "idc": ("current", "dc", None), "iac": ("current", "ac", None),
           "r": ("resistance", None, "in-circuit"), "rl": ("resistance", None, "lifted"),
-          "rlifted": ("resistance", None, "lifted")}
-_READ_HELP = ("a reading is KIND WHERE, KIND one of V, I, R (Vac, Iac, Rlifted): read V TP1, "
-              "read V A,B, read I R3, read R F1, read R R2 lifted, read V OUT ac 1k")
+          "rlifted": ("resistance", None, "lifted"),
+          # the meter's diode test (formats.md section 4), power off like an ohmmeter
+          "d": ("diode-test", None, None), "diode": ("diode-test", None, None)}
+_READ_HELP = ("a reading is KIND WHERE, KIND one of V, I, R, D (Vac, Iac, Rlifted; D the diode "
+              "test): read V TP1, read V A,B, read I R3, read R F1, read R R2 lifted, read D D3, "
+              "read D B,E, read V OUT ac 1k")
+# Readings taken with the board isolated.
+_POWER_OFF = ("resistance", "diode-test")
 
 
 # -- the drill ---------------------------------------------------------------------------
@@ -259,13 +264,14 @@ class Drill:
             return self._add(command, "refused", "REFUSED: no reading before the safety caution "
                              "is read and acknowledged (ack). Safety error "
                              f"{self.safety_errors}.", reading=rd, safety_error=True)
-        if rd.quantity == "resistance" and self.power == "on":
+        if rd.quantity in _POWER_OFF and self.power == "on":
             self.safety_errors += 1
-            return self._add(command, "refused", "REFUSED: the board is live. An ohmmeter on a "
+            what = "A diode test" if rd.quantity == "diode-test" else "An ohmmeter"
+            return self._add(command, "refused", f"REFUSED: the board is live. {what} on a "
                              "live circuit reads nonsense and can be damaged or hurt you: isolate "
                              f"first (isolate), then read again. Safety error "
                              f"{self.safety_errors}.", reading=rd, safety_error=True)
-        if rd.quantity != "resistance" and self.power == "off":
+        if rd.quantity not in _POWER_OFF and self.power == "off":
             return self._add(command, "refused", f"not taken: the board is isolated, so a "
                              f"{rd.quantity} reading shows nothing; restore power first "
                              "(energize).", reading=rd)
@@ -291,8 +297,8 @@ class Drill:
         cost = self.costs["isolate"]
         self.effort += cost
         return self._add(command, "power", "Isolated: locked out, tagged, proven dead with a "
-                         "proven tester, stored energy discharged. Resistance readings may be "
-                         f"taken now (effort {cost:g}).", effort=cost)
+                         "proven tester, stored energy discharged. Resistance readings and diode "
+                         f"tests may be taken now (effort {cost:g}).", effort=cost)
 
     def energize(self, *, command="energize") -> Step:
         """Restore power (locks off, covers on, stand clear)."""
@@ -305,8 +311,8 @@ class Drill:
         cost = self.costs["energize"]
         self.effort += cost
         return self._add(command, "power", "Power restored: locks removed, covers on, stand "
-                         f"clear. The board is live: no resistance readings (effort {cost:g}).",
-                         effort=cost)
+                         "clear. The board is live: no resistance readings or diode tests "
+                         f"(effort {cost:g}).", effort=cost)
 
     def hint(self, *, command="suggest") -> Step:
         """faultfind's next reading for the readings so far (a hint costs points)."""
@@ -444,6 +450,10 @@ class Drill:
         freq = None
         for i, word in enumerate(rest):
             w = word.lower()
+            if quantity == "diode-test":
+                raise InputError(f"{word!r} not understood after {where!r}: a diode test is "
+                                 "D and the part (read D D3) or the probes' nodes, red first "
+                                 "(read D B,E); it takes no ac, dc or lifted", key="reading")
             if w in ("ac", "dc") and quantity != "resistance":
                 mode = w
                 if w == "ac" and rest[i + 1:]:
@@ -476,6 +486,8 @@ class Drill:
         c = self.costs
         if rd.quantity == "resistance":
             return c["lifted"] if rd.setup == "lifted" else c["resistance"]
+        if rd.quantity == "diode-test":   # probes across a part, board isolated: as an ohmmeter
+            return c["resistance"]
         base = c["current"] if rd.quantity == "current" else c["voltage"]
         if rd.mode == "ac" and rd.frequency is not None and rd.frequency != self.circuit.frequency:
             base += c["frequency"]

@@ -87,7 +87,12 @@ class Evidence:
             meter = meters[rd.meter or "default"]
             if rd.overrange:
                 self.ol[i] = True
-                top = meter.max_resistance if rd.quantity == "resistance" else TOP_RANGE[rd.quantity]
+                if rd.quantity == "resistance":
+                    top = meter.max_resistance
+                elif rd.quantity == "diode-test":   # censored like a resistance OL
+                    top = min(meter.diode_test_max, meter.diode_test_voltage)
+                else:
+                    top = TOP_RANGE[rd.quantity]
                 self.top[i] = top
                 self.y[i] = np.nan
                 self.u[i] = float(standard_uncertainty(meter, rd.quantity, rd.mode, top))

@@ -112,9 +112,10 @@ def faulted_sensitivity(board, fault):
                 s = g.scale[q].real if real else g.scale[q]
                 val = s * (_cdot(g.U[:, q], X))
                 G = st.grad_block(Lam, X, npar, [-1] * q.size) * s[None, :]
-            else:
-                val = _cdot(g.U[:, q], X)
-                G = -st.minus_grad_block(Lam, X, npar)
+            else:   # ohms (a diode test on a linear network: scaled by its test current)
+                s = g.scale[q].real
+                val = _cdot(g.U[:, q], X) * s
+                G = -st.minus_grad_block(Lam, X, npar) * s[None, :]
             pred[rows] = val
             ac = g.analysis == "ac"
             if ac:

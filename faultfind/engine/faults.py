@@ -9,9 +9,12 @@ __all__ = ["Fault"]
 
 @dataclass(frozen=True)
 class Fault:
-    """One faulted part: ``mode`` is open, short, drift or dead; ``value`` the
-    fitted value (SI) for a drift, the fitted resistance (ohms) of a short the
-    readings resolve (:mod:`.shorts`), else None."""
+    """One faulted part: ``mode`` is one of the part's fault modes (open, short,
+    drift, dead; for semiconductors also leaky, base-emitter-open,
+    base-emitter-short); ``value`` the fitted value (SI) for a drift (a
+    junction's forward or zener voltage), the fitted resistance (ohms) of a
+    short the readings resolve (:mod:`.shorts`) or of a leaky diode's leak
+    (:mod:`.junction_faults`), else None."""
 
     ref: str
     mode: str

@@ -142,13 +142,21 @@ class Board:
                            dtype=bool)
         keys = {}
         self.lifted = []
+        #: power-off readings of a board with junctions: no linear network gives them
+        #: (each is its own nonlinear solve); the fast path leaves them at ``off_fill``
+        self.offnl, self.off_fill = [], None
         for i, rd in enumerate(self.readings):
             key = analysis_key(circuit, rd)
             if key[0] == "lifted":
                 self.lifted.append(i)
+            elif key[0] == "off" and circuit.is_nonlinear:
+                self.offnl.append(i)
             else:
                 keys.setdefault(key, []).append(i)
         share = share or {}
+        if circuit.is_nonlinear and not share and keys:
+            # a board with junctions: the groups are the linearisation at the operating point
+            predict(circuit, self.readings, meters, share=share)
         self.groups = {}
         for k, idx in keys.items():
             sh = share.get(k)
@@ -235,11 +243,16 @@ class Board:
                     outs[h][:, i] = [lifted_short(part, r, base) for r in factors]
                 else:
                     outs[h][:, i] = lifted_value(part, mode if mode in ("open", "short") else None)
+        if self.offnl:
+            big[:, self.offnl] = np.nan if self.off_fill is None else self.off_fill[self.offnl]
         disp = _display(big, self.ac)
         return [disp[offs[h]:offs[h + 1]] for h in range(len(items))]
 
     def predict_faults(self, faults) -> np.ndarray:
         """Displays under several faults at once (pairs), via the general update."""
+        if self.circuit.is_nonlinear:   # a nonlinear board: the exact re-solve
+            from .junction_faults import exact_faults
+            return exact_faults(self, faults)
         out = np.zeros(self.n, dtype=complex)
         overrides = {}
         for f in faults:
@@ -309,6 +322,8 @@ class Evaluator(Board, DriftFits):
         self.pred0 = nominal.value if self.n else np.zeros(0)
         self.S0 = nominal.sensitivity if self.n else np.zeros((0, len(self.params)))
         self.ev = Evidence(self.readings, meters, self.pred0, self.S0, self.tol_low, self.tol_high)
+        if self.offnl:   # the fast path's stand-in: what was read (.junction_faults re-solves)
+            self.off_fill = np.where(self.ev.ol, np.inf, np.nan_to_num(self.ev.y))
 
     def healthy_prediction(self):
         return self.pred0 + self.ev.shift0
@@ -383,6 +398,9 @@ class Evaluator(Board, DriftFits):
         return S
 
     def _faulted_sensitivity(self, faults):
+        if self.circuit.is_nonlinear:   # the faulted board's own linearisation
+            from .junction_faults import exact_sensitivity
+            return exact_sensitivity(self, faults)
         if len(faults) == 1:
             from .faulted import faulted_sensitivity
             S = faulted_sensitivity(self, faults[0])
@@ -440,6 +458,29 @@ def _first_pass(ev: Evaluator, parts):
     -------
     list of (Hypothesis, log Occam factor)
     """
+    if ev.circuit.is_nonlinear:   # a board with junctions (.junction_faults)
+        from .junction_faults import nonlinear_candidates
+        cands = nonlinear_candidates(ev, parts, _candidates)
+    else:
+        cands = _candidates(ev, parts)
+    cands = [c for c in cands if not np.isnan(c[1]).any()]  # no answer: a short across a source
+    first = []
+    if cands:
+        weak = [ev.weak([c[0]]) for c in cands]
+        W = (np.vstack([np.zeros(ev.n, dtype=bool) if w is None else w for w in weak])
+             if any(w is not None for w in weak) else None)
+        c2, logdet = ev.ev.chi2_rows(np.vstack([c[1] for c in cands]),
+                                     [[ev.pindex.get(c[0].ref, -1)] for c in cands], True, weak=W)
+        for (f, pred, sd, occam), x2, ld in zip(cands, c2, logdet):
+            lp = ev.prior([f])
+            ll = -0.5 * (float(x2) + float(ld)) + occam
+            first.append((Hypothesis((f,), pred, float(x2), ll, lp, lp + ll, drift_sd=sd, occam=occam), occam))
+    return first
+
+
+def _candidates(ev: Evaluator, parts):
+    """``[(Fault, prediction, drift sd, Occam factor)]`` of every single fault of ``parts``
+    by the fast path (rank-one updates, fitted shorts and drifts)."""
     items, drifting, shorting = [], [], []
     for part in parts:
         for mode in part.fault_modes:
@@ -455,19 +496,7 @@ def _first_pass(ev: Evaluator, parts):
     for part, (r, pred, occam) in zip(shorting, fit_shorts(ev, shorting)):
         cands.append((Fault(part.ref, "short", r), pred, None, occam))
     cands += ev.fit_drifts(drifting)
-    cands = [c for c in cands if not np.isnan(c[1]).any()]  # no answer: a short across a source
-    first = []
-    if cands:
-        weak = [ev.weak([c[0]]) for c in cands]
-        W = (np.vstack([np.zeros(ev.n, dtype=bool) if w is None else w for w in weak])
-             if any(w is not None for w in weak) else None)
-        c2, logdet = ev.ev.chi2_rows(np.vstack([c[1] for c in cands]),
-                                     [[ev.pindex.get(c[0].ref, -1)] for c in cands], True, weak=W)
-        for (f, pred, sd, occam), x2, ld in zip(cands, c2, logdet):
-            lp = ev.prior([f])
-            ll = -0.5 * (float(x2) + float(ld)) + occam
-            first.append((Hypothesis((f,), pred, float(x2), ll, lp, lp + ll, drift_sd=sd, occam=occam), occam))
-    return first
+    return cands
 
 
 @dataclass
@@ -597,9 +626,14 @@ def rank_with(ev: Evaluator, *, doubles=True, screen=None, progress=None) -> Ran
     for i in range(min(2 * EXACT_TOP, len(hyps))):
         h = hyps[i]
         if (len(h.faults) == 1 and h.faults[0].mode == "drift" and h.faults[0].seen
-                and h.log_post > lead - REFIT_WINDOW):
+                and h.log_post > lead - REFIT_WINDOW
+                and not ev.circuit.part(h.faults[0].ref).is_semiconductor):
             hyps[i] = ev.refit_drift(h)
     hyps.sort(key=lambda h: -h.log_post)
+    if ev.circuit.is_nonlinear:   # the linearisation's leaders, re-solved exactly
+        from .junction_faults import rescore_leaders
+        hyps = rescore_leaders(ev, hyps)
+        hyps.sort(key=lambda h: -h.log_post)
     # exact re-scoring of the leaders (those that can still matter)
     lead = hyps[0].log_post
     for i in range(min(EXACT_TOP, len(hyps))):

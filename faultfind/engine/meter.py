@@ -40,7 +40,15 @@ __all__ = [
     "simulate",
     "loading_conductance",
     "shunt_resistance",
+    "ohmmeter_ranges",
+    "OHMS_COMPLIANCE",
 ]
+
+#: Open-circuit voltage of the ohmmeter's test source, volts (at least 1.5
+#: times the full-scale voltage of the ranges, see :func:`ohmmeter_ranges`):
+#: handhelds' ohms ranges have open-circuit voltages of roughly 0.4 to 3 V
+#: (from memory).
+OHMS_COMPLIANCE = 1.0
 
 # Relative slack when comparing |value| with counts * step: a value within
 # float noise of a range's full scale (e.g. 0.6 V against 6000 * 1e-4 V, which
@@ -68,7 +76,7 @@ def _check_quantity(quantity) -> str:
 
 
 def _check_mode(quantity: str, mode) -> str | None:
-    if quantity == "resistance":
+    if quantity in ("resistance", "diode-test"):
         return None
     if mode is None:
         return "dc"
@@ -331,8 +339,9 @@ def overrange(profile, quantity, value):
     -------
     bool or ndarray of bool
         Resistance: ``value > profile.max_resistance`` (so ``inf`` is over
-        range).  Voltage and current: always False (version 1 models no top
-        range for them).
+        range).  Diode test: ``value`` above the display's top
+        (``diode_test_max``) or the open-circuit voltage.  Voltage and
+        current: always False (version 1 models no top range for them).
 
     Raises
     ------
@@ -344,6 +353,8 @@ def overrange(profile, quantity, value):
     arr = _as_array(value, "value", allow_inf=True)
     if quantity == "resistance":
         out = arr > profile.max_resistance
+    elif quantity == "diode-test":
+        out = arr > min(profile.diode_test_max, profile.diode_test_voltage)
     else:
         out = np.zeros(arr.shape, dtype=bool)
     return bool(out) if arr.ndim == 0 else out
@@ -395,9 +406,9 @@ def simulate(profile, quantity, mode, true_value, rng=None):
     x = float(true_value)
     if math.isnan(x):
         raise InputError("is NaN", key="true_value")
-    if quantity == "resistance":
+    if quantity in ("resistance", "diode-test"):
         if x < 0:
-            raise InputError(f"a resistance cannot be negative: {x!r}", key="true_value")
+            raise InputError(f"a {quantity} reading cannot be negative: {x!r}", key="true_value")
     elif math.isinf(x):
         raise InputError(f"a {quantity} must be finite", key="true_value")
     if isinstance(rng, np.random.Generator):
@@ -408,12 +419,14 @@ def simulate(profile, quantity, mode, true_value, rng=None):
         raise InputError(f"expected a numpy Generator, an int or None, got {rng!r}",
                          key="rng")
 
-    if quantity == "resistance" and x > profile.max_resistance:
+    top = {"resistance": profile.max_resistance,
+           "diode-test": min(profile.diode_test_max, profile.diode_test_voltage)}.get(quantity)
+    if top is not None and x > top:
         return None, 1
     a = float(_spec_limit_array(profile, quantity, mode, np.asarray(x)))
     y = x + gen.uniform(-a, a)
-    if quantity == "resistance":
-        if y > profile.max_resistance:
+    if top is not None:
+        if y > top:
             return None, 1
         y = max(y, 0.0)
     return float(_display_array(profile, quantity, np.asarray(y))), 0
@@ -447,3 +460,35 @@ def shunt_resistance(profile) -> float:
         ``profile.current_shunt``.
     """
     return float(_check_profile(profile).current_shunt)
+
+
+def ohmmeter_ranges(profile):
+    """The resistance ranges of the meter and the test current of each.
+
+    Parameters
+    ----------
+    profile : MeterProfile
+
+    Returns
+    -------
+    list of (float, float)
+        ``(full scale, test current)`` per range, lowest first: full scales
+        ``counts * resistance_resolution * 10**k`` up to the first that
+        reaches ``max_resistance``; the test current of a range is the
+        lowest voltage range's full scale (``counts * voltage_resolution``,
+        600 mV on a 6000-count meter) divided by the range's full scale
+        (1 mA on 600 Ω, 100 µA on 6 kΩ, ... 10 nA on 60 MΩ).  A
+        constant-current ohmmeter of this kind is typical of handhelds (from
+        memory; docs/meter-model.md).  On a linear network the reading does
+        not depend on the current; across a junction it does.
+    """
+    profile = _check_profile(profile)
+    vfs = profile.counts * profile.voltage_resolution
+    r = profile.counts * profile.resistance_resolution
+    out = []
+    for _ in range(30):
+        out.append((r, vfs / r))
+        if r >= profile.max_resistance:
+            break
+        r *= 10.0
+    return out

@@ -27,6 +27,13 @@ Elements are stamped in one of three ways:
   A short is an exact zero-volt branch, never a large conductance;
 * an *injection* into the right-hand side (current sources).
 
+Semiconductors (diodes, LEDs, zeners, transistors) leave no stamps here:
+engine/nonlinear.py adds their junctions to this linear network.  They do
+join their nodes for the connectivity of ``"off"`` and ``floating``
+networks, and a two-terminal part's ``"short"`` override is a zero-volt
+branch here as any part's (a transistor's internal shorts are wires of
+engine/nonlinear.py, inside its leads).
+
 The unknown vector is ``[v_0 .. v_{n-1}, i_0 .. i_{m-1}]``: node voltages to
 the reference, then branch currents.  A branch current is the current that
 enters the branch at its first node (for a voltage source, the current into
@@ -41,7 +48,7 @@ import numpy as np
 import scipy.sparse as sp
 from scipy.sparse.csgraph import connected_components
 
-from ..model import DEFAULT_OPAMP_GAIN, Circuit
+from ..model import DEFAULT_OPAMP_GAIN, SEMICONDUCTORS, Circuit
 
 __all__ = ["ANALYSES", "Network", "assemble"]
 
@@ -159,6 +166,8 @@ def assemble(circuit: Circuit, analysis: str, frequency: float | None = None,
         Part ref to a replacement value (SI), or to the strings ``"open"`` or
         ``"short"`` (for a source, ``"dead"`` sets it to zero).  Used by the
         re-solve path that checks the fast diagnosis engine, and by drills.
+        Semiconductors' overrides (engine/semis.py) only change which nodes
+        they join here.
     floating : bool, optional
         Give every part of the network that has no connection to ground a
         reference node of its own (always done for ``"off"``).  Voltages
@@ -183,10 +192,30 @@ def assemble(circuit: Circuit, analysis: str, frequency: float | None = None,
     ground = circuit.ground
 
     y_rows, br_rows, inj_rows, vcvs = [], [], [], []
+    semi_edges = []   # node pairs joined by a semiconductor (connectivity only)
     # (part index, node a name, node b name, value)
     for pi, p in enumerate(circuit.parts):
         ov = overrides.get(p.ref)
         kind = p.kind
+        if kind in SEMICONDUCTORS:
+            # no stamps here: engine/nonlinear.py adds the junctions.  Only
+            # the wires a fault puts in are branches of the linear network.
+            if len(p.nodes) == 2:
+                if ov == "short":
+                    br_rows.append((pi, p.nodes[0], p.nodes[1], 0.0))
+                elif ov != "open":
+                    semi_edges.append((p.nodes[0], p.nodes[1]))
+            else:
+                # a transistor's internal shorts are wires of its own (inside
+                # its leads: a current probe in the collector lead sees them)
+                c, b_, e = p.nodes
+                if ov == "short":
+                    semi_edges.append((c, e))
+                if ov != "open":
+                    semi_edges.append((c, b_))
+                if ov != "base-emitter-open":
+                    semi_edges.append((b_, e))
+            continue
         if kind == "opamp":
             if analysis != "off":
                 gain = p.gain if p.gain is not None else DEFAULT_OPAMP_GAIN
@@ -269,8 +298,10 @@ def assemble(circuit: Circuit, analysis: str, frequency: float | None = None,
     pos = {name: i for i, name in enumerate(names)}
     n_all = len(names)
     if analysis == "off" or floating:
-        ea = [pos[r[1]] for r in y_rows] + [pos[r[1]] for r in br_rows] + [pos[r[1]] for r in vcvs]
-        eb = [pos[r[2]] for r in y_rows] + [pos[r[2]] for r in br_rows] + [0 for r in vcvs]
+        ea = ([pos[r[1]] for r in y_rows] + [pos[r[1]] for r in br_rows] + [pos[r[1]] for r in vcvs]
+              + [pos[r[0]] for r in semi_edges])
+        eb = ([pos[r[2]] for r in y_rows] + [pos[r[2]] for r in br_rows] + [0 for r in vcvs]
+              + [pos[r[1]] for r in semi_edges])
         g = sp.coo_matrix((np.ones(len(ea)), (ea, eb)), shape=(n_all, n_all))
         _, comp = connected_components(g, directed=False)
         comp = np.asarray(comp)

@@ -1,204 +1,28 @@
 """What a meter would display on a circuit, and how that depends on every part.
 
-For each reading the prediction is the display of the meter named by the
-reading, with the meter's own loading: its input resistance across the probes
-for a voltage, its shunt in series with the part for a current.  The loading is
-applied exactly as a rank-one change of the network (Sherman-Morrison), so one
-factorization per analysis serves every reading:
-
-    A_L = A + alpha u u^T,  r = s u^T x_L = s (u^T x) / (1 + alpha z),
-    z = u^T A^{-1} u
-
-where ``u`` selects the probed nodes (or branch), ``alpha`` is the meter's
-conductance ``1/R_in`` (voltage), the change of the part's admittance caused by
-the shunt (current through an admittance), or ``-r_shunt`` on a branch row, and
-``s`` scales a branch or admittance value to a current.  Sensitivities to the
-logarithm of every part's value come from one adjoint solve per reading:
-
-    d r / d ln p_j = s lambda_L^T (d b_j - d A_j x_L),  A_L^T lambda_L = u.
-
-A resistance reading is taken on the power-off network: ``R = u^T A^{-1} u``
-with ``d R / d ln p_j = -(A^{-T} u)^T dA_j (A^{-1} u)``; probes on parts of the
-network that are not connected give ``inf`` (the meter shows OL).
+The entry point of the predictions.  A linear circuit (no semiconductor)
+goes to engine/linpredict.py, exactly as before semiconductors existed (one
+factorization per analysis, rank-one meter loading, adjoint sensitivities;
+its docstring has the formulas).  A circuit with semiconductors goes to
+engine/semis.py: the DC operating point by Newton's method, AC readings as
+the small-signal response about it, power-off readings with the junctions in
+place, and the same sensitivities on the linearized network.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass, replace
+from ..model import Circuit
+from .linpredict import (Prediction, Stamps, _lifted, analysis_key, lifted_value, parameters,
+                         predict_linear)
+from .semis import predict_nonlinear
 
-import numpy as np
-import scipy.sparse as sp
-
-from ..model import Circuit, MeterProfile, Reading
-from .factor import Factorization
-from .mna import BRANCH, INJECTION, Network, assemble
-
-__all__ = ["Prediction", "Stamps", "parameters", "predict", "analysis_key"]
-
-
-@dataclass(frozen=True)
-class Prediction:
-    """Predicted meter displays and their sensitivities.
-
-    Attributes
-    ----------
-    value : ndarray, shape (n_readings,)
-        What the meter would display: signed for DC voltage and current, the
-        RMS magnitude for AC, ohms for resistance (``inf`` where the probes
-        have no path between them).
-    phasor : ndarray of complex, shape (n_readings,)
-        The complex value before the magnitude is taken (equal to ``value``
-        for DC and resistance readings).
-    sensitivity : ndarray, shape (n_readings, n_params)
-        ``d value / d ln(p_j)`` for every parameter ``p_j`` (see
-        :func:`parameters`); zero rows where ``value`` is infinite.
-    params : tuple of str
-        Reference designators of the parameters, in column order.
-    """
-
-    value: np.ndarray
-    phasor: np.ndarray
-    sensitivity: np.ndarray
-    params: tuple
-
-
-def parameters(circuit: Circuit) -> tuple[str, ...]:
-    """Refs of the parts whose value is a parameter (every part but op-amps)."""
-    return tuple(p.ref for p in circuit.parts if p.value is not None and p.kind != "opamp")
-
-
-def analysis_key(circuit: Circuit, reading: Reading):
-    """The network a reading is taken on: ("dc", None), ("ac", f), ("off", None) or ("lifted", None)."""
-    if reading.quantity == "resistance":
-        return ("lifted", None) if reading.setup == "lifted" else ("off", None)
-    if reading.mode == "ac":
-        f = reading.frequency if reading.frequency is not None else circuit.frequency
-        return ("ac", float(f))
-    return ("dc", None)
-
-
-def _dstamps(circuit: Circuit, net: Network, pindex: dict):
-    """Derivatives of the admittances and sources w.r.t. ln(value) of their part.
-
-    Returns ``(jy, dy, jb, db_rows)``: for admittance element k, parameter
-    column ``jy[k]`` (-1 if none) and ``dy[k] = d y_k / d ln p``; and a list of
-    ``(column, row, d b)`` for source terms.
-    """
-    parts = circuit.parts
-    w = 2 * np.pi * net.frequency if net.analysis == "ac" else 0.0
-    jy = np.full(len(net.y_ref), -1, dtype=np.int64)
-    dy = np.zeros(len(net.y_ref), dtype=net.A.dtype)
-    for k, pi in enumerate(net.y_ref):
-        p = parts[pi]
-        j = pindex.get(p.ref, -1)
-        y = net.y_val[k]
-        if p.kind in ("resistor", "fuse", "switch"):
-            jy[k], dy[k] = j, -y
-        elif p.kind == "capacitor":
-            jy[k], dy[k] = j, y
-        elif p.kind == "inductor" and net.analysis == "ac":
-            jy[k], dy[k] = j, -y * y * 1j * w * p.value
-    src = []
-    for k, pi in enumerate(net.br_ref):
-        e = net.br_e[k]
-        if e != 0:
-            src.append((pindex[parts[pi].ref], net.n + k, e))
-    for k, pi in enumerate(net.inj_ref):
-        i = net.inj_i[k]
-        if i != 0:
-            j = pindex[parts[pi].ref]
-            if net.inj_a[k] >= 0:
-                src.append((j, net.inj_a[k], i))
-            if net.inj_b[k] >= 0:
-                src.append((j, net.inj_b[k], -i))
-    return jy, dy, src
-
-
-class Stamps:
-    """How a network's matrix and right-hand side depend on each parameter's log-value.
-
-    Gives the sensitivities ``lambda^T (db_j - dA_j x)`` of a block of
-    readings from their adjoint and forward vectors.
-    """
-
-    def __init__(self, circuit, net, pindex):
-        self.net = net
-        self.jy, self.dy, self.src = _dstamps(circuit, net, pindex)
-
-    def _scatter(self, n_params):
-        """Sparse (n_params x elements) matrix summing element terms into parameter columns."""
-        if getattr(self, "_M", None) is None or self._M.shape[0] != n_params:
-            ok = np.flatnonzero(self.jy >= 0)
-            self._M = sp.csr_matrix((np.ones(ok.size), (self.jy[ok], ok)),
-                                    shape=(n_params, len(self.jy)))
-        return self._M
-
-    def incidence(self):
-        """Sparse (elements x unknowns) matrix with ``D @ x = x[a] - x[b]`` per admittance element."""
-        if getattr(self, "_inc", None) is None:
-            net = self.net
-            a, b = np.asarray(net.y_a), np.asarray(net.y_b)
-            ka, kb = np.flatnonzero(a >= 0), np.flatnonzero(b >= 0)
-            rows = np.concatenate([ka, kb])
-            cols = np.concatenate([a[ka], b[kb]])
-            vals = np.concatenate([np.ones(ka.size), -np.ones(kb.size)])
-            self._inc = sp.csr_matrix((vals, (rows, cols)), shape=(len(a), net.size))
-        return self._inc
-
-    def pairs(self, X):
-        """``X[a] - X[b]`` per admittance element (rows), -1 meaning the reference."""
-        return self.incidence() @ np.ascontiguousarray(X)
-
-    def _gather_params(self, term, n_params):
-        """Sum element rows of ``term`` into parameter rows."""
-        if getattr(self, "_inj", None) is None:
-            ok = np.flatnonzero(self.jy >= 0)
-            self._inj = (ok, np.unique(self.jy[ok]).size == ok.size)
-        ok, injective = self._inj
-        if injective:
-            G = np.zeros((n_params,) + term.shape[1:], dtype=term.dtype)
-            G[self.jy[ok]] = term[ok]
-            return G
-        return np.asarray(self._scatter(n_params) @ term)
-
-    def grad_block(self, Lam, X, n_params, skips):
-        """Sensitivities ``lambda^T (db_j - dA_j x)`` for a block of columns (one
-        per reading); returns (n_params, k)."""
-        term = self.pairs(Lam) * self.pairs(X)
-        term *= -self.dy[:, None]
-        for q, k in enumerate(skips):
-            if k >= 0:
-                term[k, q] = 0.0
-        G = self._gather_params(term, n_params)
-        G = G.astype(np.result_type(G, Lam, X), copy=False)
-        for j, row, d in self.src:
-            G[j] += Lam[row] * d
-        return G
-
-    def minus_grad_block(self, Mu, W, n_params):
-        """``sum_k dy_k (mu_a - mu_b)(w_a - w_b)`` per parameter, for a block (real part)."""
-        term = self.pairs(Mu) * self.pairs(W)
-        term *= self.dy[:, None]
-        return self._gather_params(term, n_params).real
-
-
-class _Group(Stamps):
-    """One analysis of one circuit: network, factors, solution, stamp derivatives."""
-
-    def __init__(self, circuit, key, pindex, overrides=None):
-        analysis, f = key
-        self.cols = {}   # reading index -> (A^{-1} u, A^{-T} u), kept when shared
-        self.circuit = circuit
-        self.overrides = dict(overrides or {})
-        net = assemble(circuit, analysis, f, overrides)
-        self.lu = Factorization(net.A)
-        self.x = self.lu.solve(net.b) if analysis != "off" else None
-        super().__init__(circuit, net, pindex)
+__all__ = ["Prediction", "Stamps", "parameters", "predict", "analysis_key", "lifted_value"]
+_ = _lifted  # re-exported for engine/faulted.py
 
 
 def predict(circuit: Circuit, readings, meters: dict, overrides: dict | None = None, *,
-            share: dict | None = None) -> Prediction:
-    """Predict the meter displays of ``readings`` on a healthy ``circuit``.
+            share: dict | None = None, warm=None) -> Prediction:
+    """Predict the meter displays of ``readings`` on ``circuit``.
 
     Parameters
     ----------
@@ -211,19 +35,24 @@ def predict(circuit: Circuit, readings, meters: dict, overrides: dict | None = N
         Meter profile name to :class:`~faultfind.model.MeterProfile`; must
         hold ``"default"``, used where a reading names no meter.
     overrides : dict, optional
-        Faults to apply, as for :func:`~faultfind.engine.mna.assemble`
-        (ref to a value, ``"open"``, ``"short"`` or ``"dead"``).  This is the
-        plain re-assemble-and-solve path: the diagnosis engine's oracle.
+        Faults to apply: for linear parts a value, ``"open"``, ``"short"``
+        or ``"dead"`` (engine/mna.py); for semiconductors the forms listed
+        in engine/semis.py.  This is the plain re-assemble-and-solve path.
     share : dict, optional
         Filled with each analysis' network, factors and per-reading solves
-        (analysis key to the internal group object with ``net``, ``lu``,
-        ``x`` and ``cols``), so that a caller needing the same network does
-        not factor it again.  An analysis already in ``share`` (from an
-        earlier call on the same circuit, without overrides) is reused.
+        (analysis key to a group object with ``net``, ``lu``, ``x`` and
+        ``cols``) so that a caller needing the same network does not factor
+        it again.  An analysis already in ``share`` (from an earlier call on
+        the same circuit, without overrides) is reused.
+    warm : dict or OperatingPoint, optional
+        Circuits with semiconductors: element voltages to start Newton from
+        (an earlier prediction's ``operating_point``).  Ignored for a linear
+        circuit.
 
     Returns
     -------
     Prediction
+        ``operating_point`` is set for a circuit with semiconductors.
 
     Raises
     ------
@@ -232,186 +61,10 @@ def predict(circuit: Circuit, readings, meters: dict, overrides: dict | None = N
         or part the circuit lacks.
     SolveError
         The circuit's equations are singular.
+    ConvergenceError
+        A circuit with semiconductors has no operating point the engine can
+        find (an InputError naming the parts).
     """
-    if "default" not in meters:
-        raise ValueError("meters: must contain a 'default' profile")
-    params = parameters(circuit)
-    pindex = {r: j for j, r in enumerate(params)}
-    npar = len(params)
-    readings = list(readings)
-    nr = len(readings)
-    value = np.zeros(nr, dtype=complex)
-    any_ac = any(rd.quantity != "resistance" and rd.mode == "ac" for rd in readings)
-    sens = np.zeros((nr, npar), dtype=complex if any_ac else float)   # real work for DC and ohms
-    by_key: dict = {}
-    for i, rd in enumerate(readings):
-        meter: MeterProfile = meters.get(rd.meter or "default")
-        if meter is None:
-            raise ValueError(f"reading {i}: meter profile {rd.meter!r} is not defined")
-        key = analysis_key(circuit, rd)
-        if key[0] == "lifted":
-            value[i], sens[i] = _lifted(circuit, rd, pindex, npar, overrides or {})
-            continue
-        by_key.setdefault(key, []).append(i)
-    for key, idx in by_key.items():
-        grp = share.get(key) if share is not None and not overrides else None
-        if grp is None or grp.circuit is not circuit or grp.overrides:
-            grp = _Group(circuit, key, pindex, overrides)
-        grp.cols = {}
-        grp.keep = share is not None
-        if share is not None:
-            share[key] = grp
-        if key[0] == "off":
-            _ohms_block(circuit, grp, readings, idx, npar, value, sens)
-        else:
-            _live_block(circuit, grp, readings, idx, meters, npar, pindex, value, sens)
-    mag = np.where(np.isfinite(value), value, np.inf)
-    out_val = np.empty(nr)
-    out_sens = sens if not any_ac else np.zeros((nr, npar))
-    for i, rd in enumerate(readings):
-        v = mag[i]
-        if not np.isfinite(v):
-            out_val[i] = np.inf
-            out_sens[i] = 0.0
-            continue
-        if rd.quantity != "resistance" and rd.mode == "ac":
-            out_val[i] = abs(v)
-            out_sens[i] = (np.conj(v) * sens[i]).real / abs(v) if abs(v) > 0 else 0.0
-        else:
-            out_val[i] = v.real
-            if any_ac:
-                out_sens[i] = sens[i].real
-    return Prediction(out_val, value, out_sens, params)
-
-
-#: Readings solved per block (bounds the element-by-reading work arrays).
-_BLOCK = 32
-
-
-def _live_block(circuit, grp, readings, idx, meters, npar, pindex, value, sens):
-    """Live readings of one analysis: block solves, then vectorized gradients.
-
-    Per reading ``i`` (columns of ``U``) this is the Sherman-Morrison formula of
-    the module docstring: ``den = 1 + alpha z``, ``x_L = x - w alpha (u^T x) / den``,
-    ``lambda_L = mu / den``, ``r = s (u^T x) / den``.
-    """
-    net, lu, x = grp.net, grp.lu, grp.x
-    N = net.size
-    cols, alphas, ss, skips, selfs = [], [], [], [], []
-    for i in idx:
-        rd = readings[i]
-        meter = meters[rd.meter or "default"]
-        if rd.quantity == "voltage":
-            cols.append((i, net.node_vector(rd.plus, rd.minus)))
-            alphas.append(1.0 / meter.input_resistance); ss.append(1.0); skips.append(-1); selfs.append(None)
-            continue
-        elem = net.element.get(rd.part)
-        if elem is None:  # open in this analysis: no current flows
-            value[i] = 0.0
-            continue
-        kind, k = elem
-        if kind == INJECTION:
-            value[i] = net.inj_i[k]
-            sens[i, pindex[rd.part]] = net.inj_i[k]
-            continue
-        u = np.zeros(N, dtype=net.A.dtype)
-        rs = meter.current_shunt
-        if kind == BRANCH:
-            u[net.n + k] = 1.0
-            cols.append((i, u)); alphas.append(-rs)
-            ss.append(-1.0 if circuit.part(rd.part).kind == "voltage-source" else 1.0)
-            skips.append(-1); selfs.append(None)
-            continue
-        a, b = net.y_a[k], net.y_b[k]
-        if a >= 0:
-            u[a] += 1.0
-        if b >= 0:
-            u[b] -= 1.0
-        y = net.y_val[k]
-        y2 = y / (1.0 + y * rs)
-        cols.append((i, u)); alphas.append(y2 - y); ss.append(y2); skips.append(k)
-        selfs.append((grp.jy[k], grp.dy[k] / (1.0 + y * rs) ** 2, y2))
-    for c0 in range(0, len(cols), _BLOCK):
-        part = cols[c0:c0 + _BLOCK]
-        rows = [i for i, _ in part]
-        U = np.column_stack([u for _, u in part])
-        W, Mu = lu.solve_both(U)
-        alpha = np.array(alphas[c0:c0 + _BLOCK], dtype=complex)
-        s = np.array(ss[c0:c0 + _BLOCK], dtype=complex)
-        if not np.iscomplexobj(W) and not alpha.imag.any() and not s.imag.any():
-            alpha, s = alpha.real, s.real   # a real network: stay in real arithmetic
-        z = np.einsum("ij,ij->j", U, W)
-        ux = U.T @ x
-        den = 1.0 + alpha * z
-        XL = x[:, None] - W * (alpha * ux / den)[None, :]
-        Lam = Mu / den[None, :]
-        value[rows] = s * ux / den
-        if grp.keep:
-            for q, i in enumerate(rows):
-                grp.cols[i] = (W[:, q], Mu[:, q])
-        G = grp.grad_block(Lam, XL, npar, skips[c0:c0 + _BLOCK]) * s[None, :]
-        for q, i in enumerate(rows):
-            st = selfs[c0 + q]
-            if st is not None and st[0] >= 0:
-                j, dy2, y2 = st
-                G[j, q] += dy2 * (ux[q] / den[q]) * (1.0 - y2 * z[q] / den[q])
-        sens[rows] = G.T
-
-
-def _ohms_block(circuit, grp, readings, idx, npar, value, sens):
-    """In-circuit resistance readings of the power-off network, in blocks."""
-    net, lu = grp.net, grp.lu
-    cols = []
-    for i in idx:
-        rd = readings[i]
-        if rd.part is not None:
-            plus, minus = circuit.part(rd.part).nodes[:2]
-        else:
-            plus, minus = rd.plus, rd.minus
-        if plus == minus:
-            value[i] = 0.0
-        elif not net.connected(plus, minus):
-            value[i] = np.inf
-        else:
-            cols.append((i, net.node_vector(plus, minus)))
-    for c0 in range(0, len(cols), _BLOCK):
-        part = cols[c0:c0 + _BLOCK]
-        rows = [i for i, _ in part]
-        U = np.column_stack([u for _, u in part])
-        W, Mu = lu.solve_both(U)
-        value[rows] = np.einsum("ij,ij->j", U, W)
-        if grp.keep:
-            for q, i in enumerate(rows):
-                grp.cols[i] = (W[:, q], Mu[:, q])
-        sens[rows] = -grp.minus_grad_block(Mu, W, npar).T
-
-
-def lifted_value(part, fault=None) -> float:
-    """What an ohmmeter reads across ``part`` alone (one leg lifted), optionally faulted.
-
-    ``fault`` is None, "open", "short" or a drifted value.
-    """
-    if fault == "open":
-        return np.inf
-    if fault == "short":
-        return 0.0
-    p = part
-    if fault is not None and not isinstance(fault, str):
-        p = replace(p, value=float(fault), state="closed")
-    if p.kind in ("resistor", "fuse") or (p.kind == "switch" and p.state == "closed"):
-        return p.value
-    if p.kind == "inductor":
-        return p.resistance or 0.0
-    if p.is_source:
-        return 0.0 if p.off_state == "short" else np.inf
-    return np.inf  # capacitor, open switch
-
-
-def _lifted(circuit, rd, pindex, npar, overrides):
-    """A lifted-part reading and its sensitivity (only to the part's own value)."""
-    p = circuit.part(rd.part)
-    g = np.zeros(npar)
-    v = lifted_value(p, overrides.get(p.ref))
-    if np.isfinite(v) and v > 0 and p.kind != "inductor" and p.ref in pindex:
-        g[pindex[p.ref]] = v
-    return v, g
+    if not circuit.is_nonlinear:
+        return predict_linear(circuit, readings, meters, overrides, share=share)
+    return predict_nonlinear(circuit, readings, meters, overrides, share=share, warm=warm)

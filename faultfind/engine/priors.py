@@ -15,6 +15,8 @@ not split the way formats.md does are marked "common practice (no source)".
 
 The kind weights are common practice (no source): mechanical contacts, fuses
 and supplies are the usual culprits on site; film resistors seldom are.
+Semiconductors (diode, zener, LED, npn, pnp) sit between film resistors and
+contacts, in the order of MIL-HDBK-217F's base failure rates (from memory).
 
 ``P(healthy)`` is the prior that nothing is wrong with the drawn circuit
 (no fault found): technicians meet a fair share of no-fault call-outs
@@ -46,6 +48,24 @@ MODE_SHARES = {
     # power supplies: no output vs. output out of limits; common practice (no source)
     "voltage-source": {"dead": 0.5, "drift": 0.5},
     "current-source": {"dead": 0.5, "drift": 0.5},
+    # Semiconductors.  MIL-HDBK-338B, diode, general: short 49 %, open 36 %, parameter
+    # change 15 % (from memory).  The handbook's parameter change holds both a leaky
+    # junction and a forward voltage out of tolerance; it is split here 9 % leaky,
+    # 6 % drift, common practice (no source: leakage is the commoner of the two).
+    "diode": {"short": 0.49, "open": 0.36, "leaky": 0.09, "drift": 0.06},
+    # MIL-HDBK-338B, diode, zener (voltage regulator / reference): parameter change 69 %,
+    # open 18 %, short 13 % (from memory); the parameter change is the zener voltage's drift.
+    "zener": {"drift": 0.69, "open": 0.18, "short": 0.13},
+    # MIL-HDBK-338B, optoelectronic LED: open 70 %, short 30 % (from memory), scaled to
+    # 90 % to leave 10 % to a forward voltage out of tolerance (an aged or overdriven
+    # die), common practice (no source).
+    "led": {"open": 0.63, "short": 0.27, "drift": 0.10},
+    # MIL-HDBK-338B, transistor, bipolar: short 73 %, open 27 % (from memory).  The
+    # handbook does not say which junction; the split between the collector-emitter
+    # path and the base-emitter junction (shorts 43 / 30, opens 14 / 13) is common
+    # practice (no source): a punched-through C-E path is the usual dead driver.
+    "npn": {"short": 0.43, "base-emitter-short": 0.30, "open": 0.14, "base-emitter-open": 0.13},
+    "pnp": {"short": 0.43, "base-emitter-short": 0.30, "open": 0.14, "base-emitter-open": 0.13},
 }
 
 #: Relative chance that a part of this kind is the failed one; common practice (no source).
@@ -58,6 +78,16 @@ KIND_WEIGHTS = {
     "voltage-source": 4.0,
     "current-source": 4.0,
     "opamp": 0.0,
+    # Semiconductors: the order of the base failure rates of MIL-HDBK-217F (from
+    # memory: small-signal diodes of the order of film resistors to twice that, zeners
+    # and LEDs a few times, low-frequency bipolar transistors a few times more), and
+    # on site a driver transistor or an LED is a usual culprit; common practice
+    # (no source) for the figures themselves.
+    "diode": 1.5,
+    "zener": 2.0,
+    "led": 2.0,
+    "npn": 2.5,
+    "pnp": 2.5,
 }
 
 #: Prior probability that the drawn circuit has no fault; common practice (no source).

@@ -20,12 +20,21 @@ anywhere in its tolerance (a lifted 100 ohm +/-5 % resistor's band is
 95..105 ohm: a part within tolerance is healthy), and capped by the sum of
 all parts' extremes (the worst case).  Parts below the threshold keep the
 linear treatment.
+
+On a circuit with semiconductors the exact excursions are re-solves of the
+circuit (:func:`~.predict.predict` with the part's value changed, Newton
+starting from the nominal operating point) instead of rank-one updates, and
+only the junctions' values (forward and zener voltages, whose effect is
+exponential) are moved so; the linear parts take the linear treatment on
+the linearization at the operating point (engine/semis.py).  Diode-test
+readings on a linear circuit are moved by re-solves too.
 """
 
 from __future__ import annotations
 
 import numpy as np
 
+from ..errors import SolveError
 from .bands import COVERAGE_FACTOR, log_tolerance
 from .hypotheses import Board
 from .predict import predict
@@ -40,6 +49,28 @@ def _combine(mean, var, lo_sum, hi_sum, one_lo, one_hi):
     low = np.maximum(np.minimum(mean - COVERAGE_FACTOR * sd, one_lo), lo_sum)
     high = np.minimum(np.maximum(mean + COVERAGE_FACTOR * sd, one_hi), hi_sum)
     return low, high, sd
+
+
+def _resolved(circuit, readings, meters, part, factors, rows, y0, warm):
+    """Displays with ``part`` at each value factor, by re-solving (only the ``rows`` readings)."""
+    idx = np.flatnonzero(rows)
+    P = np.tile(np.asarray(y0, dtype=float), (len(factors), 1))
+    sub = [readings[i] for i in idx]
+    for k, f in enumerate(factors):
+        try:
+            P[k, idx] = predict(circuit, sub, meters, {part.ref: part.value * float(f)},
+                                warm=warm).value
+        except SolveError:
+            P[k, idx] = np.nan
+    # a diode test a part's tolerance carries over the display's top reads OL there:
+    # its band reaches the top (an LED drawn high in its tolerance reads OL when healthy)
+    for i in idx:
+        rd = readings[i]
+        if rd.quantity == "diode-test":
+            m = meters[rd.meter or "default"]
+            top = min(m.diode_test_max, m.diode_test_voltage)
+            P[:, i] = np.where(np.isinf(P[:, i]), top, P[:, i])
+    return P
 
 
 def tolerance_bands(circuit, readings, meters, significant=0.01):
@@ -76,6 +107,14 @@ def tolerance_bands(circuit, readings, meters, significant=0.01):
     with np.errstate(divide="ignore", invalid="ignore"):
         share = np.where(worst[:, None] > 0, contrib / worst[:, None], 0.0)
     E = share >= significant            # per reading: the parts moved exactly for it
+    # a circuit with semiconductors (or a diode-test reading) is moved by exact
+    # re-solves, each starting from the nominal operating point; there only the
+    # junctions' values are moved exactly (their effect is exponential), the linear
+    # parts take the linearization at the operating point
+    resolve = circuit.is_nonlinear or any(rd.quantity == "diode-test" for rd in readings)
+    if resolve and circuit.is_nonlinear:
+        junction = np.array([circuit.part(r).is_semiconductor for r in pred.params], dtype=bool)
+        E &= junction[None, :]
     exact = E.any(axis=0)
     # per-part effects: additive deviations d (linear) and log ratios g (log)
     acc = {k: np.zeros(n) for k in ("m", "v", "lo", "hi", "olo", "ohi",
@@ -90,12 +129,16 @@ def tolerance_bands(circuit, readings, meters, significant=0.01):
         acc[key + "lo" if key else "lo"] += ML @ centre - np.abs(ML) @ half
         acc[key + "hi" if key else "hi"] += ML @ centre + np.abs(ML) @ half
     if exact.any():
-        board = Board(circuit, readings, meters)
+        board = None if resolve else Board(circuit, readings, meters)
         for j in np.flatnonzero(exact):
             part = circuit.part(pred.params[j])
             a, b = centre[j] - half[j], centre[j] + half[j]
             rho = np.concatenate([centre[j] + half[j] * _NODES, [a, b]])
-            P = board.predict_fault(part, "drift", np.exp(rho))
+            if board is None:
+                P = _resolved(circuit, readings, meters, part, np.exp(rho), E[:, j], yf,
+                              pred.operating_point)
+            else:
+                P = board.predict_fault(part, "drift", np.exp(rho))
             P = np.where(np.isfinite(P), P, yf)
             P = np.where(E[:, j][None, :], P, yf)      # only the readings it is significant for
             d = P - yf

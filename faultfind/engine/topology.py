@@ -19,7 +19,13 @@ capacitor           no                  no
 voltage-source      yes (any waveform)  yes (any waveform)
 current-source      no                  no
 opamp               output to ground    output to ground
+diode, led, zener   yes                 no
+npn, pnp            joins all three     no
 ==================  ==================  ==========================
+
+A junction conducts in one direction or the other (and leaks in reverse), so
+a node reached only through a diode or a transistor has its DC voltage set
+by the circuit (formats.md section 4); no junction is a zero impedance.
 
 An AC voltage source is a 0 V source at DC, so it is a path and a zero
 impedance there.  An op-amp's output is a voltage source referred to ground
@@ -61,9 +67,11 @@ def dc_path_edges(circuit: Circuit) -> list[tuple[str, str, str]]:
     Returns
     -------
     list of tuple (node_a, node_b, ref)
-        One edge per resistor, fuse, closed switch, inductor and voltage
-        source (any waveform), in the order of ``circuit.parts``; an op-amp
-        gives the edge ``(output, ground, ref)``.  Capacitors, current
+        One edge per resistor, fuse, closed switch, inductor, voltage
+        source (any waveform), diode, LED and zener, in the order of
+        ``circuit.parts``; an op-amp gives the edge ``(output, ground,
+        ref)``; a transistor the two edges ``(collector, base, ref)`` and
+        ``(base, emitter, ref)``.  Capacitors, current
         sources, open switches and op-amp inputs give none.
     """
     _check_circuit(circuit)
@@ -71,8 +79,10 @@ def dc_path_edges(circuit: Circuit) -> list[tuple[str, str, str]]:
     edges = []
     for p in circuit.parts:
         kind = p.kind
-        if kind in ("resistor", "fuse", "inductor", "voltage-source"):
+        if kind in ("resistor", "fuse", "inductor", "voltage-source", "diode", "led", "zener"):
             edges.append((p.nodes[0], p.nodes[1], p.ref))
+        elif kind in ("npn", "pnp"):        # collector-base and base-emitter junctions
+            edges += [(p.nodes[0], p.nodes[1], p.ref), (p.nodes[1], p.nodes[2], p.ref)]
         elif kind == "switch":
             if p.state != "open":
                 edges.append((p.nodes[0], p.nodes[1], p.ref))

@@ -124,6 +124,7 @@ class Group:
         self.rtype = [""] * r                      # "v", "ya", "br", "ohm", "src", "zero", "ol"
         self.elem = [None] * r                     # measured part (current readings)
         self.rs = np.zeros(r)                      # shunt of current readings
+        self.top = np.full(r, np.inf)              # a diode test's display top (OL above)
         for i, rd in enumerate(readings):
             meter = meters[rd.meter or "default"]
             if self.analysis == "off":
@@ -136,7 +137,10 @@ class Group:
                 else:
                     U[:, i] = net.node_vector(plus, minus)
                     self.rtype[i] = "ohm"
-                    self.scale[i] = 1.0
+                    # a diode test on this (linear) network shows I_t R (engine/linpredict.py)
+                    self.scale[i] = meter.diode_test_current if rd.quantity == "diode-test" else 1.0
+                if rd.quantity == "diode-test":
+                    self.top[i] = min(meter.diode_test_max, meter.diode_test_voltage)
                 continue
             if rd.quantity == "voltage":
                 U[:, i] = net.node_vector(rd.plus, rd.minus)
@@ -325,6 +329,14 @@ class Group:
         wt = [self.solve_term(t) for t, _ in ys]
         for i in range(r):
             out[i] = self._one(i, ys, bs, wt, rows, vals)
+        return self.clip(out)
+
+    def clip(self, out):
+        """Diode tests above the display's top read OL (``inf``); ``out`` (..., n_readings)."""
+        if np.isfinite(self.top).any():
+            with np.errstate(invalid="ignore"):
+                over = np.real(out) > self.top
+            out = np.where(over, np.inf, out)
         return out
 
     def _one(self, i, ys, bs, wt, rows, vals):
@@ -453,7 +465,7 @@ def single(group: Group, t: Term, news) -> np.ndarray:
             out[:, src & ~own] = g.scale[src & ~own]
         out[:, rt == "ol"] = np.inf
         out[:, rt == "zero"] = 0.0
-        return out
+        return g.clip(out)
     return batch(g, [t], news[None, :])[0]
 
 
@@ -599,5 +611,5 @@ def batch(g: Group, terms, news) -> np.ndarray:
     out[:, :, src] = scale_all[src]
     out[:, :, rt == "zero"] = 0.0
     out[:, :, rt == "ol"] = np.inf
-    return out
+    return g.clip(out)
 

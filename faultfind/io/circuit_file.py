@@ -17,6 +17,7 @@ import tomllib
 from faultfind.engine.topology import dangling_nodes, floating_nodes, voltage_loops
 from faultfind.errors import CircuitError, UnitError
 from faultfind.io.fast_toml import loads_subset
+from faultfind.io.junction_keys import JUNCTION_KEYS, KEYS_OF, TERMINALS, key_problem
 from faultfind.io.textfile import read_text
 from faultfind.model import KINDS, Circuit, Part
 from faultfind import units
@@ -39,6 +40,12 @@ PART_KEYS: dict[str, tuple[str, ...]] = {
     "voltage-source": _PLAIN + _SOURCE_KEYS + ("current_limit",),
     "current-source": _PLAIN + _SOURCE_KEYS,
     "opamp": ("ref", "kind", "nodes", "gain", "label"),
+    # Semiconductors (formats.md section 4; faultfind.io.junction_keys).
+    "diode": _PLAIN[:-1] + KEYS_OF["diode"] + ("label",),
+    "led": _PLAIN[:-1] + KEYS_OF["led"] + ("label",),
+    "zener": _PLAIN[:-1] + KEYS_OF["zener"] + ("label",),
+    "npn": ("ref", "kind", "nodes") + KEYS_OF["npn"] + ("label",),
+    "pnp": ("ref", "kind", "nodes") + KEYS_OF["pnp"] + ("label",),
 }
 _ALL_PART_KEYS = frozenset(k for keys in PART_KEYS.values() for k in keys)
 _ALLOWED = {kind: frozenset(keys) for kind, keys in PART_KEYS.items()}
@@ -46,11 +53,20 @@ _ALLOWED = {kind: frozenset(keys) for kind, keys in PART_KEYS.items()}
 _KEY_OWNER = {
     "off_state": "sources", "waveform": "sources", "phase": "AC sources",
     "state": "switches", "resistance": "inductors (winding resistance)",
-    "gain": "opamps", "current_limit": "voltage sources", "value": "every kind but opamp", "tolerance": "every kind but opamp",
+    "gain": "opamps and transistors (npn, pnp)", "current_limit": "voltage sources",
+    "value": "every kind but opamp, npn and pnp",
+    "tolerance": "every kind but opamp, npn and pnp",
+    "test_current": "diodes, LEDs and zeners", "ideality": "diodes, LEDs and zeners",
+    "series_resistance": "diodes, LEDs and zeners", "reverse_leakage": "diodes and LEDs",
+    "forward_voltage": "zeners (a diode's or LED's forward voltage is its value)",
+    "vbe": "transistors (npn, pnp)",
 }
 _ENUMS = {"off_state": ("open", "short"), "waveform": ("dc", "ac"), "state": ("closed", "open")}
 # Kinds whose value must be > 0.
-_POSITIVE = frozenset(("resistor", "capacitor", "inductor", "fuse", "switch"))
+_POSITIVE = frozenset(("resistor", "capacitor", "inductor", "fuse", "switch", "diode", "led",
+                       "zener"))
+# Kinds without a value (and so without a tolerance).
+_NO_VALUE = frozenset(("opamp", "npn", "pnp"))
 
 _HEADER_RE = re.compile(r"""^[ \t]*\[\[[ \t]*(?:part|"part"|'part')[ \t]*\]\]""")
 _TOML_POS_RE = re.compile(r"\s*\(at line (\d+), column (\d+)\)\s*$")
@@ -103,9 +119,12 @@ def parse_circuit(text: str, source: str = "<string>") -> Circuit:
         Values in SI units; tolerances as relative fractions (an absolute
         tolerance is divided by the magnitude of the nominal value); a kind's
         default tolerance from :data:`faultfind.model.KINDS` where the file
-        gives none; fuse and switch values default to
+        gives none; fuse, switch, diode and LED values default to
         ``KINDS[kind].default_value``; an opamp's ``value`` is None and its
-        ``gain`` the number given or None.
+        ``gain`` the number given or None.  Semiconductors (formats.md
+        section 4): the keys of :data:`faultfind.io.junction_keys.KEYS_OF`
+        in SI units, None where the file gives none (``Part.junction``
+        fills in the defaults); a transistor's ``value`` is None.
 
     Raises
     ------
@@ -114,7 +133,9 @@ def parse_circuit(text: str, source: str = "<string>") -> Circuit:
         or key: TOML syntax; unknown, missing or misplaced keys; ``format``
         not 1; unknown kind; duplicate ref; wrong node count or bad node
         names; a value or tolerance that does not parse, has the wrong unit
-        or an impossible sign; bad ``off_state``/``waveform``/``state``; an
+        or an impossible sign (a zener's value, a semiconductor key out of
+        its limits: :func:`faultfind.io.junction_keys.key_problem`); bad
+        ``off_state``/``waveform``/``state``; an
         AC source without ``frequency``; ``ground`` on no part; a node with
         no DC path to ground; a loop of voltage sources, op-amp outputs and
         ideal inductors.
@@ -308,7 +329,7 @@ class _Reader:
         if "kind" not in table:
             fail("missing 'kind' (one of " + ", ".join(KINDS) + ")", "kind")
         kind = table["kind"]
-        if not isinstance(kind, str) or kind not in KINDS:
+        if not isinstance(kind, str) or kind not in _ALLOWED:
             fail(f"unknown kind {_show(kind)}{_did_you_mean(kind, KINDS)}; the kinds are "
                  + ", ".join(KINDS), "kind")
         info = KINDS[kind]
@@ -328,7 +349,7 @@ class _Reader:
         if not isinstance(fields["label"], str):
             fail(f"label must be text in quotes, not {_show(fields['label'])}", "label")
 
-        if kind != "opamp":
+        if kind not in _NO_VALUE:
             for key in ("off_state", "waveform", "state"):
                 if key in table:
                     fields[key] = self.enum(table[key], key, fail)
@@ -346,7 +367,11 @@ class _Reader:
                          "resistance")
                 fields["resistance"] = r
         if "gain" in table:
-            fields["gain"] = self.gain(table["gain"], fail)
+            fields["gain"] = self.gain(table["gain"], fail,
+                                       "150" if kind in ("npn", "pnp") else "2e5")
+        for key in KEYS_OF.get(kind, ()):
+            if key in table and key != "gain":
+                fields[key] = self.junction_key(table[key], key, fields, fail)
         if "current_limit" in table:
             fields["current_limit"] = self.current_limit(table["current_limit"], fields, fail)
         return Part(**fields)
@@ -355,8 +380,9 @@ class _Reader:
         if "nodes" not in table:
             fail(f"missing 'nodes' (a list of {info.nodes} node names)", "nodes")
         nodes = table["nodes"]
-        what = (f"{info.nodes} node names" if info.name != "opamp" else
-                "3 node names [non-inverting input, inverting input, output]")
+        what = f"{info.nodes} node names"
+        if info.name in TERMINALS:
+            what += " [" + ", ".join(TERMINALS[info.name]) + "]"
         if not isinstance(nodes, list):
             fail(f"nodes must be a list of {what}, not {_show(nodes)}", "nodes")
         if len(nodes) != info.nodes:
@@ -369,6 +395,9 @@ class _Reader:
         if info.nodes == 2 and nodes[0] == nodes[1]:
             fail(f"both ends are on node '{nodes[0]}' (the part is shorted by its own wiring)",
                  "nodes")
+        if info.nodes == 3 and info.name != "opamp" and len(set(nodes)) == 1:
+            fail(f"all three terminals are on node '{nodes[0]}' (the part is shorted by its "
+                 "own wiring)", "nodes")
         if info.name == "opamp" and nodes[2] == ground:
             fail(f"the output is on the ground node '{ground}'; an op-amp output is referred "
                  "to ground, so it would be shorted", "nodes")
@@ -392,12 +421,22 @@ class _Reader:
         info = KINDS[kind]
         waveform = fields.get("waveform", "dc")
         if "value" not in table:
+            if kind == "zener":
+                fail("missing 'value': a zener needs its breakdown (zener) voltage at its "
+                     "test_current, e.g. value = \"5.1 V\" for a BZX79-C5V1", "value")
             if info.default_value is None:
                 fail(f"missing 'value' ({_a(kind)} needs one, in {info.unit})", "value")
             return info.default_value
         raw = table["value"]
         value = self.number(raw, lambda t: self.cached(units.parse_value, t, info.unit),
                             line=fields["line"], part=fields["ref"], key="value")
+        if kind == "zener" and not value > 0:
+            fail(f"a zener's value is its breakdown voltage as a number above 0 V, not "
+                 f"{_show(raw)}: the direction comes from nodes [anode, cathode], so a 5.1 V "
+                 "zener is value = \"5.1 V\" with its cathode on the positive side", "value")
+        if kind in ("diode", "led") and not value > 0:
+            fail(f"{_a(kind)}'s value is its forward voltage at test_current, above 0 V, not "
+                 f"{_show(raw)}; the direction comes from nodes [anode, cathode]", "value")
         if kind in _POSITIVE and not value > 0:
             fail(f"{_a(kind)}'s value must be above 0 {info.unit}, not {_show(raw)}", "value")
         if waveform == "ac" and value < 0:
@@ -424,19 +463,29 @@ class _Reader:
                  "0 or less", "tolerance")
         return float(low), float(high)
 
-    def gain(self, raw, fail):
+    def gain(self, raw, fail, example="2e5"):
         if isinstance(raw, bool) or not isinstance(raw, (int, float, str)):
-            fail(f"gain must be a plain number such as 2e5, not {_show(raw)}", "gain")
+            fail(f"gain must be a plain number such as {example}, not {_show(raw)}", "gain")
         try:
             gain = float(raw)
         except OverflowError:
             gain = math.inf
         except ValueError:
-            fail(f"gain must be a plain number such as 2e5 (no unit, no dB), not {_show(raw)}",
-                 "gain")
+            fail(f"gain must be a plain number such as {example} (no unit, no dB), not "
+                 f"{_show(raw)}", "gain")
         if not (math.isfinite(gain) and gain > 0):
             fail(f"gain must be a finite number above 0, not {_show(raw)}", "gain")
         return gain
+
+    def junction_key(self, raw, key, fields, fail):
+        """A semiconductor key (faultfind.io.junction_keys): a number, finite, in its limits."""
+        spec = JUNCTION_KEYS[key]
+        value = self.number(raw, lambda t: units.parse_value(t, spec.unit, what=key),
+                            line=fields["line"], part=fields["ref"], key=key)
+        problem = key_problem(key, value)
+        if problem is not None:
+            fail(f"{problem}, not {_show(raw)}", key)
+        return value
 
     def current_limit(self, raw, fields, fail):
         """A voltage source's current limit: a current in A, finite and above 0."""
@@ -509,8 +558,8 @@ class _Reader:
 
 
 def _terminal(part, node):
-    if part.kind == "opamp":
-        which = ("non-inverting input", "inverting input", "output")[part.nodes.index(node)]
+    if part.kind in TERMINALS:
+        which = TERMINALS[part.kind][part.nodes.index(node)]
         return f"{part.ref} ({which})"
     if part.kind == "switch" and part.state == "open":
         return f"{part.ref} (open)"
@@ -518,7 +567,8 @@ def _terminal(part, node):
 
 
 def _a(kind: str) -> str:
-    return ("an " if kind[0] in "aeiou" else "a ") + kind
+    """``a resistor``, ``an inductor``, ``an npn``, ``an led``: as the kind is said aloud."""
+    return ("an " if kind[0] in "aeiou" or kind in ("npn", "led") else "a ") + kind
 
 
 def _good_name(name) -> bool:

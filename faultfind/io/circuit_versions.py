@@ -199,8 +199,8 @@ def check_readings_fit(circuit, readings, meters=None) -> None:
             "out first", part=lr.reading.part, key="readings") from None
 
 
-def revise_circuit(book, session_id, text, *, reason="edited in the terminal UI"
-                   ) -> CircuitVersion:
+def revise_circuit(book, session_id, text, *, reason="edited in the terminal UI",
+                   name=None) -> CircuitVersion:
     """Make ``text`` the session's circuit, kept as its next version.
 
     Parameters
@@ -212,6 +212,10 @@ def revise_circuit(book, session_id, text, *, reason="edited in the terminal UI"
         The new circuit file's text (checked as ``faultfind check`` does).
     reason : str, optional
         Kept with the version.
+    name : str, optional
+        The file the edited circuit was also saved to: it becomes the
+        session's ``circuit_name`` (shown by ``log show`` and the report), and
+        the version's reason says so.  None: the name stays.
 
     Returns
     -------
@@ -232,6 +236,8 @@ def revise_circuit(book, session_id, text, *, reason="edited in the terminal UI"
         raise TypeError(f"text must be a str, not {type(text).__name__}")
     if not isinstance(reason, str) or "\n" in reason:
         raise LogbookError("reason must be one line of text", key="reason")
+    if name is not None and (not isinstance(name, str) or not name.strip() or "\n" in name):
+        raise LogbookError("name must be a file name on one line", key="name")
     session = book.get_session(sid)
     if session.ended_at is not None:
         book._session_row(sid, open_only=True)  # raises the logbook's message
@@ -247,7 +253,15 @@ def revise_circuit(book, session_id, text, *, reason="edited in the terminal UI"
             last = c.execute("SELECT version, created_at, sha256, title, text, reason FROM "
                              "circuit_versions WHERE session_id = ? ORDER BY version DESC "
                              "LIMIT 1", (sid,)).fetchone()
+            renamed = name is not None and name != row["circuit_name"]
+            if renamed:
+                c.execute("UPDATE sessions SET circuit_name = ? WHERE id = ?", (name, sid))
+                reason = f"{reason}, saved as {name}"
             if row["circuit_sha256"] == sha and last is not None and last[2] == sha:
+                if renamed:
+                    c.execute("INSERT INTO events (session_id, at, kind, text) VALUES "
+                              "(?,?,?,?)", (sid, _now(), "note",
+                                            f"circuit saved as {name} (unchanged)"))
                 return CircuitVersion(*last)
             number = (last[0] if last else 1) + 1
             when = _now()

@@ -38,6 +38,7 @@ import os
 import tempfile
 
 from faultfind.errors import CircuitError
+from faultfind.io.junction_keys import JUNCTION_KEYS
 from faultfind.model import KINDS, Circuit, Part
 from faultfind import units
 
@@ -46,8 +47,10 @@ __all__ = ["PART_KEY_ORDER", "Comment", "circuit_text", "write_circuit", "value_
 
 #: The order of the keys in a ``[[part]]`` table (formats.md's table order; the
 #: supply's ``current_limit`` beside the other source keys).
-PART_KEY_ORDER = ("ref", "kind", "nodes", "value", "tolerance", "off_state", "waveform",
-                  "phase", "current_limit", "state", "resistance", "gain", "label")
+PART_KEY_ORDER = ("ref", "kind", "nodes", "value", "tolerance", "test_current",
+                  "forward_voltage", "ideality", "series_resistance", "reverse_leakage",
+                  "off_state", "waveform", "phase", "current_limit", "state", "resistance",
+                  "gain", "vbe", "label")
 
 # Part fields the writer handles (every dataclass field of Part but `line`, the
 # place in the file, which a new file sets afresh).
@@ -324,7 +327,7 @@ def _multiline(text: str) -> str:
 
 
 def _gain_text(gain: float) -> str:
-    """An op-amp gain as a TOML number that reads back exactly (``200000``, ``1e+16``)."""
+    """A gain or ideality as a TOML number that reads back exactly (``200000``, ``1e+16``)."""
     text = repr(float(gain))
     return text[:-2] if text.endswith(".0") else text
 
@@ -348,7 +351,7 @@ def _part_lines(part: Part) -> list[str]:
         "kind": _basic(part.kind),
         "nodes": "[" + ", ".join(_basic(n) for n in part.nodes) + "]",
     }
-    if part.kind != "opamp":
+    if info.unit is not None:
         if part.value is None or not math.isfinite(part.value):
             fail(f"a {part.kind} needs a finite value, not {part.value!r}")
         at_default = info.default_value is not None and part.value == info.default_value
@@ -376,6 +379,15 @@ def _part_lines(part: Part) -> list[str]:
         if not math.isfinite(part.gain):
             fail(f"gain must be finite, not {part.gain!r}")
         keys["gain"] = _gain_text(part.gain)
+    for key in ("test_current", "forward_voltage", "ideality", "series_resistance",
+                "reverse_leakage", "vbe"):
+        x = getattr(part, key)
+        if x is None:
+            continue
+        if isinstance(x, bool) or not isinstance(x, (int, float)) or not math.isfinite(x):
+            fail(f"{key} must be a finite number, not {x!r}")
+        unit = JUNCTION_KEYS[key].unit
+        keys[key] = _gain_text(x) if unit == "" else _basic(value_text(x, unit))
     if part.label:
         keys["label"] = _basic(part.label)
     return ["[[part]]"] + [f"{k} = {keys[k]}" for k in PART_KEY_ORDER if k in keys]
@@ -403,7 +415,8 @@ def circuit_text(circuit: Circuit) -> str:
     ------
     CircuitError
         A part with an unknown kind, a wrong node count, a missing or
-        non-finite value, tolerance, phase or gain (naming the part).
+        non-finite value, tolerance, phase, gain or semiconductor key
+        (naming the part).
     TypeError
         ``circuit`` is not a Circuit.
     """

@@ -45,6 +45,14 @@ DEFAULT_METER = MeterProfile(
     voltage_resolution=1.0e-4,
     current_resolution=1.0e-7,
     resistance_resolution=0.1,
+    # The diode test (formats.md section 4): 1 mA into the junction from about
+    # 3 V open-circuit, a display to 2 V in 1 mV steps, 1 % + 3 counts --
+    # typical of 6000-count handhelds (from memory, no one model).
+    diode_test_current=1.0e-3,
+    diode_test_voltage=3.0,
+    diode_test_max=2.0,
+    diode_test=Accuracy(1.0, 3.0),
+    diode_test_resolution=1.0e-3,
 )
 
 # key -> (kind, unit); kind is "counts", "accuracy" or "positive".
@@ -61,6 +69,12 @@ _KEYS = {
     "voltage_resolution": ("positive", "V"),
     "current_resolution": ("positive", "A"),
     "resistance_resolution": ("positive", "Ω"),
+    # The diode test (formats.md section 4); diode_test_resolution is this project's key.
+    "diode_test_current": ("positive", "A"),
+    "diode_test_voltage": ("positive", "V"),
+    "diode_test_max": ("positive", "V"),
+    "diode_test": ("accuracy", None),
+    "diode_test_resolution": ("positive", "V"),
 }
 
 #: The keys a ``[meter.NAME]`` table may hold, in formats.md's order.
@@ -189,7 +203,24 @@ def _parse_profile(name: str, table: dict, source: str, find_line) -> MeterProfi
             if len(repr(raw)) > 60:  # do not quote a long value whole, twice
                 message = f"cannot read {key} {_show(raw)}: not a value"
             raise MeterError(message, **where) from None
-    return dataclasses.replace(DEFAULT_METER, name=name, **values)
+    profile = dataclasses.replace(DEFAULT_METER, name=name, **values)
+    if profile.diode_test_max > profile.diode_test_voltage:
+        key = "diode_test_max" if "diode_test_max" in values else "diode_test_voltage"
+        given = lambda k: "" if k in values else " (the default)"  # noqa: E731
+        raise MeterError(f"diode_test_max {profile.diode_test_max:g} V{given('diode_test_max')} "
+                         f"is above diode_test_voltage {profile.diode_test_voltage:g} V"
+                         f"{given('diode_test_voltage')}: the test current cannot develop "
+                         "more than the open-circuit voltage, so the display's top is at or "
+                         "below it; give both from the meter's specification",
+                         file=source, line=find_line(name, key), part=name, key=key)
+    if profile.diode_test_resolution >= profile.diode_test_max:
+        key = ("diode_test_resolution" if "diode_test_resolution" in values
+               else "diode_test_max")
+        raise MeterError(f"diode_test_resolution {profile.diode_test_resolution:g} V is not "
+                         f"below diode_test_max {profile.diode_test_max:g} V: the display "
+                         "step must be a small part of the display's top (1 mV on most "
+                         "meters)", file=source, line=find_line(name, key), part=name, key=key)
+    return profile
 
 
 def parse_meters(text, source="<string>") -> dict[str, MeterProfile]:
@@ -218,7 +249,10 @@ def parse_meters(text, source="<string>") -> dict[str, MeterProfile]:
         ``meter``, a meter that is not a table or has an empty name, an
         unknown meter key, a value that does not parse or has the wrong
         unit, ``counts`` not a positive integer, an accuracy with a negative
-        term, a resistance or resolution that is not positive and finite.
+        term, a resistance, current, voltage or resolution that is not
+        positive and finite, a ``diode_test_max`` above
+        ``diode_test_voltage`` (after defaults), a ``diode_test_resolution``
+        not below ``diode_test_max``.
     """
     source = str(source)
     if not isinstance(text, str):

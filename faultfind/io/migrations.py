@@ -198,6 +198,51 @@ _SESSION_TAGS = (
     "CREATE INDEX session_tags_by_tag ON session_tags (tag, session_id)",
 )
 
+# The readings table's columns after 0002, in their order on disk.
+_READING_COLUMNS = ("id, session_id, seq, taken_at, quantity, mode, plus, minus, part, setup, "
+                    "frequency, meter, label, raw, value, overrange, origin, struck_at, "
+                    "struck_reason")
+
+_DIODE_TEST = (
+    # The meter's diode test (formats.md section 4) is a fourth quantity.  SQLite cannot
+    # change a CHECK constraint in place, so the readings table is built anew with the
+    # wider one, every row copied as it is (ids, sequence numbers, strike-outs), the
+    # AUTOINCREMENT high-water mark kept (an id is never handed out twice), and the
+    # trigger that keeps stored readings unchanged made again.  Nothing refers to
+    # readings, so dropping the old table touches no other row.
+    """CREATE TABLE readings_0007 (
+        id            INTEGER PRIMARY KEY AUTOINCREMENT,
+        session_id    INTEGER NOT NULL REFERENCES sessions (id) ON DELETE CASCADE,
+        seq           INTEGER NOT NULL CHECK (seq >= 1),
+        taken_at      TEXT NOT NULL,
+        quantity      TEXT NOT NULL
+                      CHECK (quantity IN ('voltage', 'current', 'resistance', 'diode-test')),
+        mode          TEXT,
+        plus          TEXT,
+        minus         TEXT,
+        part          TEXT,
+        setup         TEXT,
+        frequency     REAL,
+        meter         TEXT,
+        label         TEXT NOT NULL DEFAULT '',
+        raw           TEXT NOT NULL,
+        value         REAL,
+        overrange     INTEGER NOT NULL DEFAULT 0 CHECK (overrange IN (-1, 0, 1)),
+        origin        TEXT NOT NULL DEFAULT '',
+        struck_at     TEXT,
+        struck_reason TEXT NOT NULL DEFAULT '',
+        UNIQUE (session_id, seq)
+    )""",
+    f"INSERT INTO readings_0007 ({_READING_COLUMNS}) SELECT {_READING_COLUMNS} FROM readings",
+    "INSERT INTO sqlite_sequence (name, seq) SELECT 'readings_0007', 0 WHERE NOT EXISTS "
+    "(SELECT 1 FROM sqlite_sequence WHERE name = 'readings_0007')",
+    "UPDATE sqlite_sequence SET seq = max(seq, coalesce((SELECT s.seq FROM sqlite_sequence s "
+    "WHERE s.name = 'readings'), 0)) WHERE name = 'readings_0007'",
+    "DROP TABLE readings",
+    "ALTER TABLE readings_0007 RENAME TO readings",
+    _STRIKE_OUT[2],
+)
+
 #: Every migration, oldest first; ``MIGRATIONS[i].version == i + 1``.
 MIGRATIONS: tuple[Migration, ...] = (
     Migration(1, "0001_initial", _INITIAL,
@@ -212,6 +257,8 @@ MIGRATIONS: tuple[Migration, ...] = (
               "session tags: the site or unit family a session belongs to"),
     Migration(6, "0006_circuit_versions", MIGRATION_0006,
               "versions of a session's circuit; the circuit version of each diagnosis"),
+    Migration(7, "0007_diode_test_readings", _DIODE_TEST,
+              "diode-test readings (the readings table rebuilt with the wider quantity check)"),
 )
 
 #: The schema version this faultfind writes.

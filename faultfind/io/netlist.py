@@ -22,10 +22,13 @@ The syntax read:
   ``E`` (a linear voltage-controlled voltage source with one output node on
   ground: an op-amp with that open-loop gain), ``X`` instances of
   ``.subckt`` definitions (flattened: refs ``X1.R2``, inner nodes ``X1.n3``).
-* Everything else -- diodes ``D`` and transistors ``Q`` (faultfind has no
-  semiconductor kinds yet), other element letters, ``.model``, ``.param``,
-  ``.include``, analysis and output commands, ``.control`` blocks -- is
-  listed as not mapped, with its line.
+* ``D`` (diodes, with their ``.model`` card of type ``D``: a diode, LED or
+  zener) and ``Q`` (bipolar transistors, ``.model`` type ``NPN`` or
+  ``PNP``), mapped by :mod:`faultfind.io.netlist_models`; the model
+  parameters faultfind does not use are named in a warning.
+* Everything else -- other element letters, ``.model`` cards of other
+  types, ``.param``, ``.include``, analysis and output commands,
+  ``.control`` blocks -- is listed as not mapped, with its line.
 
 Tolerances are not in a netlist: every part takes its kind's default
 (:data:`faultfind.model.KINDS`), and the circuit's notes say so.
@@ -43,6 +46,7 @@ from dataclasses import dataclass, field
 from faultfind.errors import CircuitError
 from faultfind.io.circuit_file import circuit_warnings, parse_circuit
 from faultfind.io.circuit_writer import circuit_text
+from faultfind.io.netlist_models import Model, diode_part, parse_model, transistor_fields
 from faultfind.io.netlist_syntax import (GROUND, OTHER_ELEMENTS, TRANSIENT, Line, NetlistError,
                                          logical_lines, reason_for_command, split_params,
                                          spice_number)
@@ -127,6 +131,7 @@ class _Reader:
         self.frequencies: list[tuple[int, float, str]] = []   # (line, Hz, where from)
         self.ac_command: tuple[int, list] | None = None
         self.instantiated: set[str] = set()
+        self.models: dict[str, Model] = {}
 
     def fail(self, message, line):
         raise NetlistError(message, file=self.source, line=line)
@@ -151,6 +156,10 @@ class _Reader:
                 self.command(ln, word)
             else:
                 self.element(ln, "", {}, (), "")
+        for model in self.models.values():
+            if not model.used and model.type in _SEMI_MODELS:
+                self.warnings.append(f"line {model.line}: model {model.name} is defined but no "
+                                     "element uses it")
         for key, (name, _ports, header, _body, _params) in self.subckts.items():
             if key not in self.instantiated:
                 self.warnings.append(f"line {header}: subcircuit {name} is defined but no X "
@@ -175,6 +184,9 @@ class _Reader:
                 continue
             if word == ".control":
                 control = ln
+                continue
+            if word == ".model":
+                self.model_card(ln)
                 continue
             if word == ".subckt":
                 if current is not None:
@@ -208,6 +220,24 @@ class _Reader:
             self.fail(".control has no .endc", control.number)
         return top
 
+    def model_card(self, ln: Line):
+        model, problems = parse_model(ln.tokens, ln.number)
+        if model is None:
+            self.skip(ln, problems[0])
+            return
+        for problem in problems:
+            self.warnings.append(f"line {ln.number}: model {model.name}: {problem}")
+        if model.type not in _SEMI_MODELS:
+            self.skip(ln, f"a model card of type {model.type.upper()}, which faultfind does "
+                          "not map (it maps D, NPN and PNP models)")
+            return
+        key = model.name.lower()
+        if key in self.models:
+            self.warnings.append(f"line {ln.number}: model {model.name} is defined again "
+                                 f"(first at line {self.models[key].line}): the first is used")
+            return
+        self.models[key] = model
+
     def command(self, ln: Line, word: str):
         if word == ".title":
             self.title = ln.text[len(ln.tokens[0]):].strip()
@@ -234,7 +264,7 @@ class _Reader:
             self.instance(ln, prefix, ports, stack, where)
             return
         self.elements += 1
-        if letter not in "rclvie":
+        if letter not in "rclviedq":
             reason = OTHER_ELEMENTS.get(letter, f"an element of type {name[0]!r}, unknown to "
                                          "SPICE")
             self.skip(ln, reason, ref, where)
@@ -249,6 +279,8 @@ class _Reader:
         positional, params = split_params(ln.tokens)
         if letter == "e":
             part = self.vcvs(ln, ref, positional, params, prefix, ports, where)
+        elif letter in "dq":
+            part = self.semiconductor(ln, ref, letter, positional, params, prefix, ports, where)
         else:
             if len(positional) < 3:
                 self.fail(f"{name} needs two nodes" + ("" if letter in "vi" else " and a value"),
@@ -427,6 +459,77 @@ class _Reader:
             in_p, in_m, gain = in_m, in_p, -gain
         return Part(ref, "opamp", (in_p, in_m, out_p), gain=gain)
 
+    def semiconductor(self, ln, ref, letter, positional, params, prefix, ports, where):
+        """A D or Q element as a diode/LED/zener or npn/pnp part (None: skipped)."""
+        positional = [t for t in positional if t != ","]
+        count = 2 if letter == "d" else 3
+        if len(positional) < count + 2:
+            what = "two nodes" if letter == "d" else "three nodes (collector base emitter)"
+            self.fail(f"{ref}: a {'diode' if letter == 'd' else 'transistor'} needs {what} "
+                      "and a model name", ln.number)
+        at = count + 1
+        if letter == "q" and positional[at].lower() not in self.models \
+                and len(positional) > at + 1 and positional[at + 1].lower() in self.models:
+            self.warn(ln, ref, f"substrate node {positional[at]} is not used (faultfind's "
+                               "transistor has three terminals)")
+            at += 1
+        name = positional[at]
+        model = self.models.get(name.lower())
+        if model is None:
+            self.skip(ln, f"no .model {name} in this netlist (a library's model is not read)",
+                      ref, where)
+            return None
+        wanted = ("d",) if letter == "d" else ("npn", "pnp")
+        if model.type not in wanted:
+            self.skip(ln, f"model {model.name} is of type {model.type.upper()}, not "
+                          f"{' or '.join(w.upper() for w in wanted)}", ref, where)
+            return None
+        area = 1.0
+        rest = positional[at + 1:]
+        if rest and spice_number(rest[0]) is not None:
+            area = self.value(ln, ref, rest.pop(0), "area")
+        for key in ("area", "m"):
+            if key in params:
+                area *= self.value(ln, ref, params.pop(key), key)
+        if not (area > 0 and math.isfinite(area)):
+            self.skip(ln, f"an area factor of {_g(area)}: it must be above 0", ref, where)
+            return None
+        for extra in rest:
+            if extra.lower() != "off":
+                self.warn(ln, ref, f"{extra!r} is ignored")
+        for key in params:
+            self.warn(ln, ref, f"parameter {key}= is ignored")
+        nodes = tuple(self.node(n, prefix, ports) for n in positional[1:count + 1])
+        if len(set(nodes)) == 1:
+            self.skip(ln, f"every terminal on node {nodes[0]}: the part is shorted by its own "
+                          "wiring", ref, where)
+            return None
+        if letter == "d" and nodes[0] == nodes[1]:
+            self.skip(ln, f"both ends on node {nodes[0]}: the part is shorted by its own "
+                          "wiring", ref, where)
+            return None
+        first_use = not model.used
+        model.used = True
+        if letter == "d":
+            kind, fields, warnings = diode_part(model, area)
+        else:
+            got = transistor_fields(model, area)
+            kind, fields, warnings = (model.type, got[0], got[1]) if got[0] is not None \
+                else (None, got[1], [])
+        if kind is None:
+            self.skip(ln, fields, ref, where)
+            return None
+        if first_use:
+            for text in warnings:
+                self.warnings.append(f"line {model.line}: {text}")
+        fields = {k: _round(v) for k, v in fields.items()}
+        if fields.get("series_resistance") == 0.0:
+            del fields["series_resistance"]
+        if kind in ("npn", "pnp"):
+            return Part(ref, kind, nodes, None, 0.0, 0.0, **fields)
+        value = fields.pop("value")
+        return Part(ref, kind, nodes, value, *KINDS[kind].default_tolerance, **fields)
+
     def instance(self, ln, prefix, ports, stack, where):
         positional, params = split_params(ln.tokens)
         ref = prefix + positional[0]
@@ -484,6 +587,17 @@ _UNIT_WORDS = {"", "ohm", "ohms", "r", "ω", "f", "farad", "h", "henry", "v", "v
                "a", "amp", "amps", "hz", "s", "w", "deg"}
 
 
+# Model types mapped to parts.
+_SEMI_MODELS = ("d", "npn", "pnp")
+# Significant digits of a value computed from a model card: 1e-5 relative, far
+# inside any tolerance and the 0.2 % the engine is checked to.
+_MODEL_DIGITS = 6
+
+
+def _round(x: float) -> float:
+    return float(f"{x:.{_MODEL_DIGITS}g}")
+
+
 def _g(x: float) -> str:
     return f"{x:.6g}"
 
@@ -503,6 +617,9 @@ def _notes(source: str, reader: _Reader, kinds) -> str:
     defaults = ", ".join(f"{k} {_percent(KINDS[k].default_tolerance)}" for k in kinds)
     lines.append("Tolerances are not in a netlist: every part has its kind's default "
                  f"({defaults}); replace them with the parts' real tolerances.")
+    if any(p.is_semiconductor for p in reader.parts):
+        lines.append("Diode and transistor values were worked out from their .model cards "
+                     "at 25 °C: forward or zener voltage at the test current, gain and vbe.")
     if any(p.is_source for p in reader.parts):
         lines.append('Sources are off_state = "open" (what an ohmmeter sees with power off); '
                      'set "short" for a transformer winding or a generator output.')
@@ -567,11 +684,12 @@ def parse_netlist(text: str, source: str = "<string>", *, frequency: float | Non
         more = f"\n  and {len(reader.unmapped) - 20} more" if len(reader.unmapped) > 20 else ""
         first = reader.unmapped[0].line if reader.unmapped else 1
         raise NetlistError("nothing in the netlist maps to a part faultfind knows (resistors, "
-                           "capacitors, inductors, sources, linear controlled sources)"
+                           "capacitors, inductors, sources, linear controlled sources, "
+                           "diodes and bipolar transistors with their .model cards)"
                            + (":\n" + listed + more if listed else ": it holds no elements"),
                            file=source, line=first)
     freq = reader.circuit_frequency()
-    kinds = list(dict.fromkeys(p.kind for p in reader.parts if p.kind != "opamp"))
+    kinds = list(dict.fromkeys(p.kind for p in reader.parts if KINDS[p.kind].unit is not None))
     circuit = Circuit(title=reader.title, ground="0", parts=tuple(reader.parts), frequency=freq,
                       notes=_notes(source, reader, kinds), source=None)
     warnings = list(reader.warnings)

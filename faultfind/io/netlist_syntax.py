@@ -134,9 +134,6 @@ SIMULATOR = {".op", ".ac", ".dc", ".tran", ".noise", ".tf", ".sens", ".disto", "
               ".option", ".opt", ".temp", ".ic", ".nodeset", ".width", ".csparam", ".global",
               ".func", ".lib", ".endl", ".spiceinit"}
 OTHER_ELEMENTS = {
-    "d": "a diode: faultfind has no diode kind yet (draw it as the resistance it has at its "
-         "operating point, or leave it out if it does not conduct)",
-    "q": "a bipolar transistor: faultfind has no transistor kind yet",
     "b": "a behavioural source", "f": "a current-controlled current source",
     "g": "a voltage-controlled current source", "h": "a current-controlled voltage source",
     "k": "coupled inductors (a transformer): faultfind has no coupling",
@@ -152,7 +149,7 @@ GROUND = {"0", "gnd"}
 
 def reason_for_command(word: str) -> str:
     if word == ".model":
-        return "a model card (for diodes, transistors and the like, which are not mapped)"
+        return "a model card faultfind does not map"
     if word == ".param":
         return "a parameter: .param is not read; write the numbers into the element lines"
     if word in (".include", ".inc"):

@@ -42,7 +42,7 @@ from faultfind.model import (KINDS, MODES, QUANTITIES, QUANTITY_UNITS, SETUPS, C
 from faultfind.units import format_value, parse_frequency, parse_value
 
 __all__ = ["COLUMNS", "QUANTITY_UNITS", "load_readings", "parse_readings", "readings_to_frame",
-           "write_readings", "reading_to_row", "zero_allowance"]
+           "write_readings", "reading_to_row", "zero_allowance", "diode_test_allowance"]
 
 
 #: Unit of each quantity's value.
@@ -51,6 +51,9 @@ __all__ = ["COLUMNS", "QUANTITY_UNITS", "load_readings", "parse_readings", "read
 _ALWAYS = ("quantity", "mode", "plus", "minus", "part", "setup", "value", "label")
 # An over-range display: OL, O.L, O.L. with an optional sign, any case.
 _OVERRANGE = re.compile(r"^([+-]?)\s*O\.?L\.?$", re.IGNORECASE)
+# Why a diode-test row has no mode or setup (after "has no mode"/"has no setup").
+_DIODE_TEST_NO = {"mode": " (the meter's own test current is the source, the circuit is off)",
+                  "setup": " (setup is for resistance readings)"}
 # Nodes or parts listed in full in a message when there are at most this many.
 _LIST_AT_MOST = 12
 # Problems listed one a line in a message (all are kept in ``problems``).
@@ -101,10 +104,11 @@ def parse_readings(text, source="<string>", circuit=None, meters=None, *,
         Where the text came from, for messages.
     circuit : Circuit, optional
         When given, every node and part a row names must be in it, a current
-        reading's part and a resistance reading's part must have two
-        terminals, an AC reading needs an AC source in it, and an empty
-        ``minus`` of a voltage or node-pair resistance reading becomes
-        ``circuit.ground``.  Without it ``minus`` stays None when empty.
+        reading's part and a resistance or diode-test reading's part must
+        have two terminals (a diode test names a transistor's junction by
+        plus and minus), an AC reading needs an AC source in it, and an
+        empty ``minus`` of a voltage or node-pair resistance or diode-test
+        reading becomes ``circuit.ground``.  Without it ``minus`` stays None when empty.
     meters : dict of str to MeterProfile, optional
         When given, a row's ``meter`` must be empty, ``default`` or one of
         its keys.  Without it any name is accepted.
@@ -128,6 +132,10 @@ def parse_readings(text, source="<string>", circuit=None, meters=None, *,
         line, its message lists every problem as ``line N (column): what``,
         and its ``problems`` attribute holds one ReadingsError per problem.
         A single problem is raised as it stands, with ``key`` the column.
+        A diode-test row (formats.md section 4) is refused with a mode or a
+        setup (it is a power-off reading), with ``part`` naming a
+        transistor (which junction?), and with a display below zero beyond
+        :func:`diode_test_allowance` or ``-OL``.
     TypeError
         ``text``, ``circuit`` or ``meters`` of the wrong type.
     """
@@ -206,7 +214,8 @@ class _RowChecker:
                          "name the column in the header or remove them")
         quantity = get("quantity").lower()
         if not quantity:
-            self.problem(line, "quantity", "no quantity: write voltage, current or resistance")
+            self.problem(line, "quantity", "no quantity: write voltage, current, resistance "
+                         "or diode-test")
             return None
         for sep, name in ((";", "semicolons"), ("\t", "tabs")):
             if sep in quantity and quantity.split(sep)[0].strip() in QUANTITIES:
@@ -216,8 +225,8 @@ class _RowChecker:
                 return None
         if quantity not in QUANTITIES:
             self.problem(line, "quantity", f"unknown quantity {_show(get('quantity'))}"
-                         f"{_did_you_mean(quantity, QUANTITIES)}: write voltage, current or "
-                         "resistance")
+                         f"{_did_you_mean(quantity, QUANTITIES)}: write voltage, current, "
+                         "resistance or diode-test")
             return None
         mode, setup = self.mode_and_setup(line, quantity, get)
         plus, minus, part = self.probes(line, quantity, setup, get)
@@ -234,6 +243,14 @@ class _RowChecker:
 
     def mode_and_setup(self, line, quantity, get):
         mode, setup = get("mode").lower(), get("setup").lower()
+        if quantity == "diode-test":
+            for column, cell in (("mode", mode), ("setup", setup)):
+                if cell:
+                    self.problem(line, column, f"{column} {_show(get(column))} on a diode-test "
+                                 "row: a diode test is a power-off reading (switch off, "
+                                 "isolate, discharge capacitors first) and has no "
+                                 f"{column}{_DIODE_TEST_NO[column]}: leave it empty")
+            return None, None
         if quantity == "resistance":
             if mode:
                 self.problem(line, "mode", f"mode {_show(get('mode'))} on a resistance reading: "
@@ -270,15 +287,20 @@ class _RowChecker:
                 self.problem(line, "part", "a current reading needs part: the part whose "
                              "current the meter reads")
         else:
+            what = "a diode test" if quantity == "diode-test" else "a resistance reading"
             if part and plus:
-                self.problem(line, "part", "a resistance reading takes either part or "
-                             "plus/minus, not both")
+                self.problem(line, "part", f"{what} takes either part or plus/minus, not both")
             elif part and minus:
-                self.problem(line, "minus", "minus goes with plus: a resistance reading across a "
-                             "part takes only part")
+                self.problem(line, "minus", f"minus goes with plus: {what} across a part takes "
+                             "only part")
             elif not part and not plus:
-                self.problem(line, "part", "a resistance reading needs part (across a part) or "
-                             "plus (and minus) for the nodes the probes touch")
+                if quantity == "diode-test":
+                    self.problem(line, "part", "a diode test needs part (a diode, LED or zener: "
+                                 "red probe on its anode, nodes[0]) or plus (and minus) for the "
+                                 "nodes the red and black probes touch")
+                else:
+                    self.problem(line, "part", "a resistance reading needs part (across a part) "
+                                 "or plus (and minus) for the nodes the probes touch")
             elif not part and setup == "lifted":
                 # 'lifted' says the reading is one part alone; which part is
                 # not for faultfind to guess from the probes' nodes.
@@ -334,7 +356,18 @@ class _RowChecker:
                 self.problem(line, "value", _unit_message(exc, raw, "value"))
                 return None, 0
             sign = -1 if number < 0 else 1
-        if sign < 0 and quantity == "resistance":
+        if sign < 0 and quantity == "diode-test":
+            allowance = None if over else diode_test_allowance(self.profile(meter), number)
+            if allowance is None or -number > allowance:
+                beyond = ("" if allowance is None else ", further below zero than this "
+                          "meter's diode-test accuracy allows on a short (down to "
+                          f"{format_value(-allowance, 'V')})")
+                self.problem(line, "value", f"negative diode test {_show(raw)}{beyond}: the "
+                             "meter's own test current cannot develop a negative voltage, so "
+                             "the circuit is still powered or a capacitor is charged. Switch "
+                             "off, isolate and lock out, discharge capacitors, prove the "
+                             "circuit dead, then test again (a reversed junction shows OL)")
+        elif sign < 0 and quantity == "resistance":
             allowance = None if over else zero_allowance(self.profile(meter), number)
             if allowance is None or -number > allowance:
                 beyond = ("" if allowance is None else ", further below zero than this "
@@ -367,7 +400,7 @@ class _RowChecker:
     def against_circuit(self, line, quantity, mode, plus, minus, part):
         """Check names against the circuit; return (plus, minus) with minus defaulted."""
         circuit = self.circuit
-        if quantity == "voltage" or (quantity == "resistance" and part is None):
+        if quantity == "voltage" or (quantity in ("resistance", "diode-test") and part is None):
             if minus is None:
                 minus = circuit.ground
                 if plus == minus:
@@ -382,15 +415,59 @@ class _RowChecker:
                 refs = [p.ref for p in circuit.parts]
                 self.problem(line, "part", f"part {_show(part)} is not in the circuit"
                              + _hint(part, refs, "parts"))
+            elif quantity == "diode-test" and circuit.part(part).kind in ("npn", "pnp"):
+                self.problem(line, "part", _which_junction(circuit.part(part)))
             elif KINDS[circuit.part(part).kind].nodes != 2:
                 kind = circuit.part(part).kind
-                self.problem(line, "part", f"{part} is an {kind} with "
+                self.problem(line, "part", f"{part} is {_article(kind)} {kind} with "
                              f"{KINDS[kind].nodes} terminals: a {quantity} reading needs a "
                              "two-terminal part")
         if mode == "ac" and not circuit.has_ac:
             self.problem(line, "mode", "an AC reading, but the circuit has no AC source: "
                          "write dc, or add the AC source to the circuit file")
         return plus, minus
+
+
+def _article(kind: str) -> str:
+    """``a`` or ``an`` as the kind is said aloud: an opamp, an npn, an LED, a pnp."""
+    return "an" if kind[0] in "aeiou" or kind in ("npn", "led") else "a"
+
+
+def _which_junction(q) -> str:
+    """The message for a diode test naming a transistor by ``part``: which junction?"""
+    c, b, e = q.nodes
+    if q.kind == "npn":
+        be, bc = f"plus {b}, minus {e}", f"plus {b}, minus {c}"
+    else:
+        be, bc = f"plus {e}, minus {b}", f"plus {c}, minus {b}"
+    return (f"{q.ref} is {_article(q.kind)} {q.kind} transistor with two junctions: a diode test names the "
+            f"junction by its probes' nodes, not by part. Base-emitter forward: {be}; "
+            f"base-collector forward: {bc} (leave part empty)")
+
+
+def diode_test_allowance(profile: MeterProfile, value: float) -> float:
+    """How far below zero a diode-test display may be and still read "about zero".
+
+    Parameters
+    ----------
+    profile : MeterProfile
+        The meter the reading was taken with.
+    value : float
+        The display in volts (negative when this matters).
+
+    Returns
+    -------
+    float
+        ``a + r / 2`` as in :func:`zero_allowance`, with the meter's
+        diode-test accuracy (``diode_test``) and display step: a shorted
+        junction, read with a meter inside its specification, shows a few
+        counts either side of 0 V; further below zero the display is not the
+        meter's test current through a junction (an external voltage:
+        the circuit is powered or a capacitor is charged).
+    """
+    a = meter_model.spec_limit(profile, "diode-test", None, value)
+    r = meter_model.resolution(profile, "diode-test", value)
+    return float(a + r / 2.0) * (1.0 + 1e-9)
 
 
 def zero_allowance(profile: MeterProfile, value: float) -> float:
@@ -462,7 +539,8 @@ def _check_readings(readings) -> list[Reading]:
             raise TypeError(f"readings[{i}] is a {type(r).__name__}, not a Reading")
         if r.quantity not in QUANTITIES:
             raise ReadingsError(f"readings[{i}] has quantity {_show(r.quantity)}: expected "
-                                "voltage, current or resistance", line=r.line, key="quantity")
+                                "voltage, current, resistance or diode-test", line=r.line,
+                                key="quantity")
     return items
 
 
@@ -491,7 +569,7 @@ def readings_to_frame(readings) -> pd.DataFrame:
         with ``frequency`` and ``meter`` before ``label`` when any reading
         has one.  ``value`` is ``raw`` when set, else ``OL``/``-OL`` or the
         number in SI units (shortest exact decimal); ``mode`` is empty for
-        resistance.
+        resistance and diode-test.
 
     Raises
     ------
@@ -508,7 +586,7 @@ def readings_to_frame(readings) -> pd.DataFrame:
     for r in items:
         cells = {
             "quantity": r.quantity,
-            "mode": "" if r.quantity == "resistance" else (r.mode or ""),
+            "mode": "" if r.quantity in ("resistance", "diode-test") else (r.mode or ""),
             "plus": r.plus or "", "minus": r.minus or "", "part": r.part or "",
             "setup": (r.setup or "") if r.quantity == "resistance" else "",
             "value": _value_text(r),
@@ -567,8 +645,9 @@ def reading_to_row(reading) -> dict:
     -------
     dict
         Exactly the keys ``quantity, mode, plus, minus, part, setup,
-        frequency, unit``: ``mode`` None for resistance, ``setup`` None
-        unless resistance, ``unit`` ``"V"``, ``"A"`` or ``"Ω"``.
+        frequency, unit``: ``mode`` None for resistance and diode-test,
+        ``setup`` None unless resistance, ``unit`` ``"V"``, ``"A"`` or ``"Ω"``
+        (a diode test's unit is ``"V"``).
 
     Raises
     ------
@@ -581,12 +660,12 @@ def reading_to_row(reading) -> dict:
         raise TypeError(f"reading must be a faultfind.model.Reading, not "
                         f"{type(reading).__name__}")
     if reading.quantity not in QUANTITIES:
-        raise ReadingsError(f"quantity {_show(reading.quantity)}: expected voltage, current or "
-                            "resistance", line=reading.line, key="quantity")
+        raise ReadingsError(f"quantity {_show(reading.quantity)}: expected voltage, current, "
+                            "resistance or diode-test", line=reading.line, key="quantity")
     resistance = reading.quantity == "resistance"
     return {
         "quantity": reading.quantity,
-        "mode": None if resistance else reading.mode,
+        "mode": None if reading.quantity in ("resistance", "diode-test") else reading.mode,
         "plus": reading.plus,
         "minus": reading.minus,
         "part": reading.part,

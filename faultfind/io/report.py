@@ -102,7 +102,10 @@ def _v(x, unit, digits=3) -> str:
 
 
 def describe_reading(rd) -> str:
-    """``V dc TP1 to 0V``, ``I ac R3 @ 1 kHz``, ``R F1``, ``R K1 lifted``."""
+    """``V dc TP1 to 0V``, ``I ac R3 @ 1 kHz``, ``R F1``, ``R K1 lifted``, ``D D3 (diode test)``."""
+    if rd.quantity == "diode-test":
+        where = rd.part if rd.part is not None else f"{rd.plus} to {rd.minus}"
+        return f"D {where} (diode test)"
     if rd.quantity == "resistance":
         where = rd.part if rd.part is not None else f"{rd.plus} to {rd.minus}"
         return f"R {where}" + (" lifted" if rd.setup == "lifted" else "")

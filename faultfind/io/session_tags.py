@@ -17,7 +17,8 @@ from __future__ import annotations
 
 from faultfind.errors import InputError, LogbookError
 
-__all__ = ["check_tag", "add_tags", "remove_tags", "tags_of", "all_tags", "MAX_TAG"]
+__all__ = ["check_tag", "add_tags", "remove_tags", "tags_of", "all_tags", "tags_by_session",
+           "MAX_TAG"]
 
 #: Longest tag, in characters.
 MAX_TAG = 80
@@ -146,5 +147,16 @@ def all_tags(book) -> dict:
         rows = book._conn.execute(
             "SELECT min(tag), count(*) FROM session_tags GROUP BY tag ORDER BY tag")
         return {t: n for t, n in rows}
+
+    return _run(book, go)
+
+
+def tags_by_session(book) -> dict:
+    """Every tagged session -> its tags (sorted ignoring case); untagged sessions are absent."""
+    def go():
+        out = {}
+        for sid, tag in book._conn.execute("SELECT session_id, tag FROM session_tags"):
+            out.setdefault(sid, []).append(tag)
+        return {sid: sorted(tags, key=str.lower) for sid, tags in out.items()}
 
     return _run(book, go)

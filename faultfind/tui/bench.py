@@ -34,8 +34,8 @@ POWER_WORDS = {
 
 
 def power_needed(reading: Reading) -> str:
-    """``"off"`` for a resistance reading (circuit isolated), else ``"on"``."""
-    return "off" if reading.quantity == "resistance" else "on"
+    """``"off"`` for a resistance reading or a diode test (circuit isolated), else ``"on"``."""
+    return "off" if reading.quantity in ("resistance", "diode-test") else "on"
 
 
 @dataclass(frozen=True)
@@ -204,8 +204,9 @@ class Bench:
 
     # -- the circuit's versions ----------------------------------------------------------
 
-    def revise_circuit(self, text: str):
-        """Make ``text`` the session's circuit (its next version in the logbook).
+    def revise_circuit(self, text: str, name: str | None = None):
+        """Make ``text`` the session's circuit (its next version in the logbook);
+        ``name``: the file it was also saved to, the session's circuit name from now on.
 
         The readings already taken stay; the diagnosis and the advice are then
         worked out again on the new circuit (the caller runs them).
@@ -221,7 +222,7 @@ class Bench:
         LogbookError
             The session is closed or the logbook cannot be written.
         """
-        version = revise_circuit(self.book, self.session_id, text)
+        version = revise_circuit(self.book, self.session_id, text, name=name)
         self.refresh()
         self.circuit = self.session.circuit()
         self.suggested = []

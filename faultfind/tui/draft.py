@@ -22,6 +22,7 @@ from dataclasses import dataclass, field
 from faultfind.errors import CircuitError, InputError
 from faultfind.io.circuit_file import PART_KEYS, circuit_warnings, parse_circuit
 from faultfind.io.circuit_writer import circuit_text, lost_comments, write_circuit
+from faultfind.io.junction_keys import TERMINALS
 from faultfind.model import KINDS, Circuit
 
 __all__ = ["CircuitDraft", "DraftCheck", "HEAD_KEYS", "part_keys", "terminal_names",
@@ -50,6 +51,8 @@ def terminal_names(kind: str) -> tuple[str, ...]:
     """What each node of a part of ``kind`` is, for the form's labels."""
     if kind == "opamp":
         return ("non-inv. in", "inv. in", "output")
+    if kind in TERMINALS:                 # anode, cathode; collector, base, emitter
+        return TERMINALS[kind]
     if kind in ("voltage-source", "current-source"):
         return ("+ terminal", "- terminal")
     n = KINDS[kind].nodes if kind in KINDS else 2
@@ -225,7 +228,8 @@ class CircuitDraft:
         """A free reference designator for a new part of ``kind`` (``R3``, ``C1`` ...)."""
         letter = {"resistor": "R", "capacitor": "C", "inductor": "L", "fuse": "F",
                   "switch": "S", "voltage-source": "V", "current-source": "I",
-                  "opamp": "U"}.get(kind, "X")
+                  "opamp": "U", "diode": "D", "led": "LED", "zener": "ZD", "npn": "Q",
+                  "pnp": "Q"}.get(kind, "X")
         used = set(self.refs())
         n = 1
         while f"{letter}{n}" in used:

@@ -10,10 +10,12 @@ A technician types what the meter shows the way it is said at the panel::
     R F1 OL                 resistance across a part, in circuit
     R A,0V 4k61             resistance between two nodes
     Rlifted K1 180.6        resistance of a part alone (one leg lifted)
+    D D3 0.612              diode test across a part, red probe on nodes[0] (anode)
+    D B,E 0.65              diode test between two nodes (red probe first)
     ... # TP2 after fuse    anything after ``#`` is the reading's label
 
 The kinds may also be written as the readings file's words (``voltage dc``,
-``voltage ac``, ``current``, ``resistance lifted``), and a whole readings-file
+``voltage ac``, ``current``, ``resistance lifted``, ``diode-test``), and a whole readings-file
 row may be pasted (``voltage,dc,A,,,,11.91,TP1``: the columns of formats.md's
 example header, ``quantity,mode,plus,minus,part,setup,value,label``).  The
 value is the display as shown: a number with optional prefix and unit, or
@@ -45,12 +47,14 @@ KINDS = {
     "iac": ("current", "ac", None),
     "r": ("resistance", None, "in-circuit"), "rl": ("resistance", None, "lifted"),
     "rlifted": ("resistance", None, "lifted"),
+    "d": ("diode-test", None, None), "diode": ("diode-test", None, None),
 }
 #: The readings file's words, each with the words that may follow it.
 _WORDS = {"voltage": ("dc", "ac"), "current": ("dc", "ac"),
-          "resistance": ("in-circuit", "lifted")}
+          "resistance": ("in-circuit", "lifted"), "diode-test": ()}
 #: Kinds offered by completion, in this order.
-_OFFERED = ("V", "Vac", "I", "Iac", "R", "Rlifted", "voltage", "current", "resistance")
+_OFFERED = ("V", "Vac", "I", "Iac", "R", "Rlifted", "D", "voltage", "current", "resistance",
+            "diode-test")
 #: Columns of a pasted readings-file row, in formats.md's example order.
 ROW_COLUMNS = ("quantity", "mode", "plus", "minus", "part", "setup", "value", "label")
 #: Columns given to :func:`check_cells` (every column a typed reading can set).
@@ -91,6 +95,8 @@ def _kind(tokens: list[str]) -> tuple[tuple[str, str | None, str | None], int]:
         return KINDS[word], 1
     if word in _WORDS:
         nxt = tokens[1].lower() if len(tokens) > 1 else ""
+        if word == "diode-test":
+            return (word, None, None), 1
         if word == "resistance":
             if nxt in _WORDS[word]:
                 return (word, None, nxt), 2
@@ -98,8 +104,8 @@ def _kind(tokens: list[str]) -> tuple[tuple[str, str | None, str | None], int]:
         if nxt in _WORDS[word]:
             return (word, nxt, None), 2
         return (word, "dc", None), 1
-    raise _fail(f"{tokens[0]!r} is not a kind of reading: start with V, Vac, I, Iac, R or "
-                "Rlifted (or voltage, current, resistance)", key="quantity")
+    raise _fail(f"{tokens[0]!r} is not a kind of reading: start with V, Vac, I, Iac, R, "
+                "Rlifted or D (or voltage, current, resistance, diode-test)", key="quantity")
 
 
 def _where(quantity: str, where: str, circuit: Circuit, cells: dict) -> None:
@@ -124,6 +130,10 @@ def _where(quantity: str, where: str, circuit: Circuit, cells: dict) -> None:
         cells["part"] = where
     elif where in nodes:
         cells["plus"] = where
+    elif quantity == "diode-test":
+        raise _fail(f"{where!r} is neither a part nor a node of the circuit: a diode test is "
+                    "across a part (D D3) or between nodes, red probe first (D B,E)",
+                    key="part")
     else:
         raise _fail(f"{where!r} is neither a part nor a node of the circuit: a resistance "
                     "reading is across a part (R F1) or between nodes (R A,0V)", key="part")
@@ -343,7 +353,8 @@ def _where_words(quantity, circuit) -> list[str]:
 
 
 def _where_what(quantity) -> str:
-    return {"current": "part", "voltage": "node or part", "resistance": "part or node"}[quantity]
+    return {"current": "part", "voltage": "node or part", "resistance": "part or node",
+            "diode-test": "part or node"}[quantity]
 
 
 def entry_text(reading: Reading, ground: str | None = None) -> tuple[str, int]:
@@ -372,7 +383,8 @@ def entry_text(reading: Reading, ground: str | None = None) -> tuple[str, int]:
         where = rd.plus if rd.minus in (None, "", ground) else f"{rd.plus},{rd.minus}"
         head = f"{'Vac' if ac else 'V'} {where}"
     else:
-        kind = "Rlifted" if rd.setup == "lifted" else "R"
+        kind = ("D" if rd.quantity == "diode-test" else
+                "Rlifted" if rd.setup == "lifted" else "R")
         if rd.part is not None:
             where = rd.part
         else:
@@ -391,6 +403,9 @@ def entry_text(reading: Reading, ground: str | None = None) -> tuple[str, int]:
 def describe_cells(cells: dict) -> str:
     """A short reading of the cells for people: ``V dc +24V to 0V``, ``R F1 lifted``."""
     q = cells.get("quantity", "")
+    if q == "diode-test":
+        where = cells.get("part") or f"{cells.get('plus', '?')} to {cells.get('minus') or 'ground'}"
+        return f"D {where} (diode test)"
     if q == "resistance":
         where = cells.get("part") or f"{cells.get('plus', '?')} to {cells.get('minus') or 'ground'}"
         return f"R {where}" + (" lifted" if cells.get("setup") == "lifted" else "")

@@ -150,3 +150,29 @@ def test_resume_an_open_session(tmp_path):
     run(second)
     s = logbook_sessions(tmp_path)
     assert len(s) == 1 and len(s[0].readings) == 2
+
+
+def test_history_shows_the_circuit_versions_and_tags_of_a_session(tmp_path):
+    from faultfind.io.circuit_versions import circuit_sha256
+    from faultfind.io.session_tags import add_tags
+
+    async def scenario():
+        app = make_app(tmp_path)
+        async with app.run_test(size=(80, 24)) as pilot:
+            await to_bench(pilot)
+            await type_reading(pilot, "V +24V 23.91 V")
+            bench = app.screen.bench
+            text = bench.session.circuit_text
+            # an invented correction of the drawing: the supply is 12 V
+            edited = text.replace('value = "24 V"', 'value = "12 V"', 1)
+            bench.revise_circuit(edited)
+            add_tags(bench.book, bench.session_id, ["north-pumps"])
+            await pilot.press("h")
+            await settle(pilot)
+            detail = text_of(app.screen.query_one("#history-text"))
+            assert f"v2 · {circuit_sha256(edited)[:8]}" in detail
+            assert "circuit edited in this session (2 versions):" in detail
+            assert f"v1 · {circuit_sha256(text)[:8]}" in detail and "session started" in detail
+            assert "edited in the terminal UI" in detail
+            assert "tags: north-pumps" in detail
+    run(scenario)

@@ -479,3 +479,35 @@ def test_an_old_diagnosis_says_the_circuit_changed_since(tmp_path):
     assert "diagnosed on circuit v2" in notes[-1]
     s = logbook_sessions(tmp_path)[0]
     assert s.latest_diagnosis.circuit_version == 2
+
+
+def test_a_session_circuit_saved_under_a_file_name_becomes_the_session_s_circuit(tmp_path):
+    target = tmp_path / "booster-12V.toml"
+
+    async def scenario():
+        app = make_app(tmp_path)
+        async with app.run_test(size=(80, 24)) as pilot:
+            await to_bench(pilot)
+            await type_reading(pilot, "V +24V 23.91 V")
+            await pilot.press("e")
+            await settle(pilot)
+            await _select(pilot, "PS1")
+            await _set(pilot, "value", "12 V")
+            ol = app.screen.query_one("#parts-list")   # row 0: the circuit's own form
+            ol.focus()
+            ol.highlighted = 0
+            await pilot.pause()
+            await pilot.press("enter")
+            await pilot.pause()
+            await _set(pilot, "file", str(target))
+            await pilot.press("ctrl+s")
+            await settle(pilot)
+            if isinstance(app.screen, ConfirmScreen):   # the comments of the bundled text
+                await pilot.press("y")
+                await settle(pilot)
+            assert isinstance(app.screen, EditorScreen) and not app.screen.draft.changed
+    run(scenario)
+    s = logbook_sessions(tmp_path)[0]
+    assert s.circuit_name == str(target)
+    assert target.read_text(encoding="utf-8") == s.circuit_text
+    assert s.circuit().part("PS1").value == 12.0

@@ -200,3 +200,18 @@ def test_entry_text_round_trips_every_candidate_reading(which, request):
             assert back.frequency is None
         else:
             assert back.frequency == pytest.approx(rd.frequency, rel=1e-6)
+
+
+def test_diode_test_entry():
+    # formats.md section 4: a diode test names a two-terminal part or its probes (red first)
+    from faultfind.model import Circuit, Part
+    from faultfind.tui.entry import parse_entry
+    c = Circuit("relay driver", "0V", (
+        Part("PS1", "voltage-source", ("+24V", "0V"), 24.0, 0.05, 0.05),
+        Part("D1", "diode", ("C", "+24V"), 0.6, 0.1, 0.1),
+        Part("R1", "resistor", ("C", "0V"), 480.0, 0.05, 0.05)))
+    got = parse_entry("D D1 0.612", c)
+    assert got["quantity"] == "diode-test" and got["part"] == "D1" and got["value"] == "0.612"
+    assert "mode" not in got and "setup" not in got
+    got = parse_entry("diode-test C,+24V OL", c)
+    assert (got["quantity"], got["plus"], got["minus"], got["value"]) == ("diode-test", "C", "+24V", "OL")

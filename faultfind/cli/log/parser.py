@@ -129,6 +129,7 @@ def add_parser(sub):
     q.add_argument("--since", metavar="DATE", help="started on or after (YYYY-MM-DD)")
     q.add_argument("--until", metavar="DATE", help="started on or before (YYYY-MM-DD)")
     q.add_argument("--open", action="store_true", help="only sessions not closed")
+    q.add_argument("--tag", metavar="TAG", help="only sessions with this tag (ignoring case)")
 
     q = cmd("history", run_history, "every session of one unit, oldest first")
     q.add_argument("unit", metavar="UNIT")

@@ -11,6 +11,7 @@ import sys
 from ...errors import InputError, LogbookError
 from ...logbook import ENV_VAR, default_logbook_path, format_time, resolve_logbook_path
 from ...report import assess_session, report_format, write_report
+from ...io.session_tags import check_tag, tags_by_session, tags_of
 from ..output import emit_json, table
 from .common import (_open, _session, _missing, _assessed_json, _print_readings, _outcome_text,
                      _summary_rows)
@@ -19,9 +20,11 @@ from .common import (_open, _session, _missing, _assessed_json, _print_readings,
 def run_show(args) -> int:
     with _open(args) as book:
         s = book.get_session(_session(book, args.session))
+        tags = tags_of(book, s.id)
     rows = assess_session(s)
     if args.json:
         doc = s.to_json()
+        doc["tags"] = tags
         doc["readings"] = [_assessed_json(a) for a in rows]
         emit_json({"session": doc})
         return 0
@@ -32,6 +35,8 @@ def run_show(args) -> int:
           + (f"closed {format_time(s.ended_at)}" if s.ended_at else "open"))
     print(f"  circuit {s.circuit_title or s.circuit_name} ({s.circuit_name}, "
           f"SHA-256 {s.circuit_sha256[:16]}...)")
+    if tags:
+        print(f"  tags: {', '.join(tags)}")
     print(f"  safety caution acknowledged: {ack}")
     print()
     if rows:
@@ -65,22 +70,26 @@ def run_show(args) -> int:
 
 
 def run_list(args) -> int:
-    if _missing(args):
-        sessions = []
-    else:
+    want = check_tag(args.tag).lower() if args.tag is not None else None
+    sessions, tags = [], {}
+    if not _missing(args):
         with _open(args) as book:
             sessions = book.list_sessions(unit=args.unit, technician=args.technician,
                                           since=args.since, until=args.until,
                                           open_only=args.open)
+            tags = tags_by_session(book)
+    if want is not None:
+        sessions = [s for s in sessions if want in (t.lower() for t in tags.get(s.id, ()))]
     if args.json:
-        emit_json({"sessions": [s.to_json() for s in sessions]})
+        emit_json({"sessions": [dict(s.to_json(), tags=tags.get(s.id, [])) for s in sessions]})
     elif not sessions:
         print("No sessions" + (" match." if any((args.unit, args.technician, args.since,
-                                                  args.until, args.open)) else " yet."))
+                                                  args.until, args.open, want)) else " yet."))
     else:
+        rows = [r + [", ".join(tags.get(s.id, ())) or "—"]
+                for r, s in zip(_summary_rows(sessions), sessions)]
         table(["id", "started", "unit", "technician", "purpose", "readings", "verdict",
-               "outcome"], _summary_rows(sessions), aligns=[">", "<", "<", "<", "<", ">", "<",
-                                                             "<"])
+               "outcome", "tags"], rows, aligns=[">", "<", "<", "<", "<", ">", "<", "<", "<"])
     return 0
 
 

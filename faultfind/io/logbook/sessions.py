@@ -31,9 +31,9 @@ Safety caution: read before taking readings.
   the measurement category (CAT II, III or IV) and voltage of every point you
   probe (IEC 61010-1), prove the meter on a known source, and follow your
   site's rules for live work.
-- Before a resistance reading, or before breaking a circuit to put the meter
-  in series: isolate, lock out and tag out, then verify dead with a proven
-  tester.
+- Before a resistance reading or a diode test, or before breaking a circuit
+  to put the meter in series: isolate, lock out and tag out, then verify dead
+  with a proven tester.
 - Discharge stored energy first: capacitors, and anything a battery, UPS,
   spring or second supply keeps alive.
 - faultfind is a decision aid. It works from the schematic you give it and

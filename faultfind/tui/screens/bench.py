@@ -220,6 +220,12 @@ class BenchScreen(Screen):
 
         used, changed = self.bench.stored_circuit()
         label = used.short if used is not None else version_label(None, None)
+        doc = self._doc()
+        priors = (doc or {}).get("priors") or {}
+        if priors.get("source", "handbook") != "handbook":
+            # learned priors order the findings: say whose (docs/priors.md)
+            label += (f" with priors from {priors['source']} "
+                      f"({priors.get('outcomes', 0)} outcomes)")
         if not changed:
             return tag("muted", f"diagnosed on circuit {label}")
         now = self.bench.circuit_version()
@@ -584,11 +590,11 @@ class BenchScreen(Screen):
                                           where=f"session {self.bench.session_id}"),
                              lambda _: self._circuit_edited(before))
 
-    def _apply_circuit(self, text: str) -> None:
+    def _apply_circuit(self, text: str, path: str | None = None) -> None:
         """The editor's save, in its worker: the circuit's next version, never while a
-        diagnosis of the old one is being stored."""
+        diagnosis of the old one is being stored; ``path``: the file it was also saved to."""
         with self._analysis_lock:
-            self.bench.revise_circuit(text)
+            self.bench.revise_circuit(text, name=path)
 
     def _circuit_edited(self, before: str) -> None:
         if self.bench.session.circuit_sha256 == before:

@@ -51,7 +51,13 @@ HINTS = {
     "phase": "AC sources only, e.g. -120 deg",
     "state": "closed or open, as the schematic draws it",
     "resistance": "the winding's DC resistance; an ideal winding is a short at DC",
-    "gain": "a plain number, no unit or dB",
+    "gain": "a plain number, no unit or dB (a transistor's: its DC current gain hFE)",
+    "test_current": "the current at which the value (forward or zener voltage) holds",
+    "ideality": "the emission coefficient n: a plain number from 0.5 to 10",
+    "series_resistance": "ohmic resistance in series with the junction, in Ω",
+    "reverse_leakage": "reverse current at 1 V reverse bias, in A (a leaky junction)",
+    "forward_voltage": "a zener's forward voltage at its test current",
+    "vbe": "base-emitter voltage at 1 mA collector current",
     "current_limit": "the most current the supply delivers (optional)",
 }
 
@@ -64,8 +70,9 @@ class EditorScreen(Screen):
     ----------
     draft : CircuitDraft
     apply : callable, optional
-        Called in a worker thread with the saved text before the file is
-        written (the bench makes it the session's circuit); an
+        Called in a worker thread as ``apply(text, path)`` with the saved
+        text and the file it is about to be written to (None: no file) before
+        the file is written (the bench makes it the session's circuit); an
         :class:`~faultfind.errors.InputError` it raises is shown and nothing
         is saved.
     where : str, optional
@@ -250,9 +257,11 @@ class EditorScreen(Screen):
         key = field.key
         text = field.value.strip()
         kind = self.form.kind
-        if key in ("value", "resistance", "current_limit") and text:
-            unit = {"resistance": "Ω", "current_limit": "A"}.get(key) or \
-                (KINDS[kind].unit if kind in KINDS else None)
+        if key in ("value", "resistance", "current_limit", "test_current",
+                   "series_resistance", "reverse_leakage", "forward_voltage", "vbe") and text:
+            unit = {"resistance": "Ω", "current_limit": "A", "test_current": "A",
+                    "series_resistance": "Ω", "reverse_leakage": "A", "forward_voltage": "V",
+                    "vbe": "V"}.get(key) or (KINDS[kind].unit if kind in KINDS else None)
             try:
                 v = units.parse_value(text, unit)
             except units.UnitError as exc:
@@ -468,9 +477,11 @@ class EditorScreen(Screen):
         draft = self.draft
         try:
             text = draft.saved_text()
+            path = draft.path.strip()
             if self.apply is not None:
-                self.apply(text)
-            if draft.path.strip():
+                # the session's next version; a file named too becomes its circuit name
+                self.apply(text, path or None)
+            if path:
                 draft.save()
             else:
                 draft.mark_saved(text)

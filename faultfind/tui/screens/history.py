@@ -77,12 +77,16 @@ class HistoryScreen(ModalScreen[None]):
 
     @work(thread=True, exclusive=True, group="detail")
     def _detail(self, sid: int) -> None:
+        from faultfind.io.circuit_versions import circuit_versions, version_label
         from faultfind.io.logbook import format_time
+        from faultfind.io.session_tags import tags_of
         from faultfind.report import assess_session, describe_reading
 
         try:
             s = self.bench.book.get_session(sid)
             rows = assess_session(s)
+            versions = circuit_versions(self.bench.book, sid)
+            tags = tags_of(self.bench.book, sid)
         except Exception as exc:  # noqa: BLE001 - shown
             self.app.call_from_thread(self._show, escape(f"✗ {exc}"))
             return
@@ -91,8 +95,18 @@ class HistoryScreen(ModalScreen[None]):
                  f"started {format_time(s.started_at)}"
                  + (f" · closed {format_time(s.ended_at)}" if s.ended_at else " · open"),
                  f"caution acknowledged: {format_time(s.caution_acknowledged_at) or 'NOT RECORDED'}",
+                 f"circuit: {escape(s.circuit_name)} · "
+                 f"{escape(version_label(versions[-1].version, versions[-1].sha256))}",
                  f"verdict: {escape(s.latest_verdict or '—')} · outcome: "
                  f"[b]{escape(outcome_text(s.outcome))}[/b]"]
+        if tags:
+            lines.insert(3, f"tags: {escape(', '.join(tags))}")
+        if len(versions) > 1:
+            # the circuit was edited during the session: each version and why
+            lines.append(f"circuit edited in this session ({len(versions)} versions):")
+            for v in versions:
+                lines.append(escape(f"  {version_label(v.version, v.sha256)} "
+                                    f"{format_time(v.created_at)} {v.reason}"))
         o = s.outcome
         if o is not None:
             if o.confirmed_by:

@@ -11,9 +11,11 @@ __all__ = ["NextReading", "describe_suggestion"]
 
 
 def describe_suggestion(s: dict) -> str:
-    """``V dc +24V to 24V-F (across F1)``, ``R F1``, ``R K1 lifted``."""
+    """``V dc +24V to 24V-F (across F1)``, ``R F1``, ``R K1 lifted``, ``D D3``."""
     q = s["quantity"]
-    if q == "resistance":
+    if q == "diode-test":
+        text = "D " + (s["part"] or f"{s['plus']} to {s['minus']}") + " (diode test)"
+    elif q == "resistance":
         where = s["part"] or f"{s['plus']} to {s['minus']}"
         text = f"R {where}" + (" lifted" if s.get("setup") == "lifted" else "")
     elif q == "current":

@@ -42,7 +42,9 @@ CHOICES = {"kind": tuple(KINDS), "off_state": ("open", "short"), "waveform": ("d
 
 _LABELS = {"file": "file", "title": "title", "ground": "ground", "frequency": "frequency",
            "notes": "notes", "off_state": "off state", "current_limit": "current limit",
-           "resistance": "winding R"}
+           "resistance": "winding R", "test_current": "test current",
+           "series_resistance": "series R", "reverse_leakage": "leakage",
+           "forward_voltage": "forward V"}
 
 _PLACEHOLDERS = {
     "file": "where ctrl+s saves, e.g. panel.toml",
@@ -59,8 +61,22 @@ _PLACEHOLDERS = {
     "current_limit": "most current the supply gives, e.g. 2.5 A",
     "state": "closed or open, as drawn",
     "resistance": "winding resistance, e.g. 180",
-    "gain": "open-loop gain, e.g. 2e5",
+    "gain": "op-amp open-loop gain 2e5 · transistor hFE 150",
+    "test_current": "current the value holds at (empty: diode 1 mA, LED 10 mA, zener 5 mA)",
+    "ideality": "emission coefficient n, 0.5 to 10 (empty: the kind's default)",
+    "series_resistance": "ohmic resistance in series, e.g. 0.5 (empty: 0)",
+    "reverse_leakage": "reverse current at 1 V, e.g. 50 nA (empty: none)",
+    "forward_voltage": "zener's forward voltage (empty: 0.7 V)",
+    "vbe": "base-emitter voltage at 1 mA (empty: 0.65 V)",
     "label": "free text shown beside the ref",
+}
+
+
+#: The value's placeholder for the kinds whose value is not an ordinary part value.
+_VALUE_HINTS = {
+    "diode": "forward voltage at test current, e.g. 0.62 V (empty: 0.65 V)",
+    "led": "forward voltage at test current, e.g. 2.1 V (empty: 2 V)",
+    "zener": "zener (breakdown) voltage, e.g. 5.1 V (required)",
 }
 
 
@@ -192,6 +208,8 @@ class PartForm(Vertical):
             inp.value = str(nodes[i]) if i < len(nodes) else ""
             inp.placeholder = names[i] if i < len(names) else ""
         self.query_one("#lbl-nodes", Static).update("nodes" if count < 3 else "nodes (3)")
+        self.query_one("#f-value", FieldInput).placeholder = _VALUE_HINTS.get(
+            kind, _PLACEHOLDERS["value"])
 
     # -- reading -------------------------------------------------------------------------
 

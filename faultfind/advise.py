@@ -511,10 +511,9 @@ def _suggest(circuit, readings, meters, hypotheses, costs, power, top, factors, 
     gain = np.concatenate([expected_information_gain(fed / fed.sum(), mean_s[a:a + _CHUNK],
                                                      sd_s[a:a + _CHUNK], groups)
                            for a in range(0, C, _CHUNK)]) * fed.sum()
-    for c in range(C):   # a reading that repeats one taken, another way, tells nothing new
-        if any(_coincide(mu_s[c], noise_s[c], mu_s[C + t], fed) for t in range(M)
-               if seen[t].quantity == cands[c].quantity):
-            cands_ok[c] = False
+    # a reading that repeats one taken, another way, tells nothing new
+    cands_ok &= ~_repeats(mu_s[:C], noise_s[:C], mu_s[C:C + M], fed,
+                          [rd.quantity for rd in cands], [rd.quantity for rd in seen])
     gain = np.where(cands_ok, gain, 0.0)
     cost = np.array([_cost(rd, power, costs, circuit) for rd in cands])
     score = gain / cost
@@ -613,6 +612,24 @@ def _coincide(a, na, b, weight):
     on = weight > 0
     tol = 0.1 * na[on]
     return bool(np.all(np.abs(a[on] - b[on]) <= tol) or np.all(np.abs(a[on] + b[on]) <= tol))
+
+
+def _repeats(a, na, b, weight, qa, qb):
+    """For each row of ``a``: does it :func:`_coincide` with a row of ``b`` of the same
+    quantity (``qa``, ``qb``)?  All pairs at once."""
+    out = np.zeros(len(a), dtype=bool)
+    if len(a) == 0 or len(b) == 0:
+        return out
+    on = weight > 0
+    A, B, tol = a[:, on], b[:, on], 0.1 * na[:, on]
+    same = np.array(qa, dtype=object)[:, None] == np.array(qb, dtype=object)[None, :]
+    step = max(1, 2_000_000 // max(B.size, 1))
+    for s in range(0, len(a), step):
+        x, t = A[s:s + step, None, :], tol[s:s + step, None, :]
+        with np.errstate(invalid="ignore"):
+            hit = np.all(np.abs(x - B[None]) <= t, axis=2) | np.all(np.abs(x + B[None]) <= t, axis=2)
+        out[s:s + step] = np.any(hit & same[s:s + step], axis=1)
+    return out
 
 
 def _undeliverable(supplies, currents):

@@ -212,7 +212,8 @@ def _protection(ev: Evaluator, h: Hypothesis):
         cache = ev.__dict__.setdefault("_protection_boards", {})
         b = cache.get(key)
         if b is None:
-            b = cache[key] = Board(c, rds, {"default": meter}, share=None)   # one factorization
+            # on the diagnosis' own factored network (no second factorization)
+            b = cache[key] = Board(c, rds, {"default": meter}, share=getattr(ev, "share", None))
         now = np.abs(b.predict_faults(list(h.faults)))
         before = np.abs(b.predict_faults([]))
     except (ValueError, ArithmeticError, np.linalg.LinAlgError):

@@ -265,3 +265,24 @@ def test_diode_test_is_suggested_power_off():
     for s in dts:
         assert s.power == "off"
         assert "power off" in s.caution and "isolate" in s.caution
+
+
+def test_large_board_screens_then_re_solves_the_leaders():
+    # a 200-part machine I/O board with 30 semiconductors (benchmarks/speed_semi.py): the
+    # large-board path (first pass without the power-off readings, drifts and leaks on the
+    # line, the leaders re-solved in full) still names the open base-emitter junction;
+    # physics as test_base_emitter_open_driver (common practice)
+    import sys
+    from pathlib import Path
+    sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
+    from benchmarks.speed_semi import board
+    from faultfind.engine.junction_faults import FULL_FIT_PARTS, is_exact
+    c, plan = board()
+    assert len(c.parts) > FULL_FIT_PARTS and sum(p.is_semiconductor for p in c.parts) == 30
+    rd = planted(c, plan, ("Q3", "base-emitter-open", None), 1)
+    from faultfind.engine.hypotheses import Evaluator, rank_with
+    ev = Evaluator(c, rd, METERS)
+    rk = rank_with(ev)
+    assert rk.verdict == "fault"
+    assert top_of(rk) == [("Q3", "base-emitter-open")], rk.hypotheses[:3]
+    assert is_exact(ev, rk.hypotheses[0])          # the leader was re-solved in full

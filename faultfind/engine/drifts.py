@@ -104,11 +104,11 @@ class DriftFits:
         if not parts:
             return []
         specs = [self.drift_range(p) for p in parts]
-        grids = []
-        for lo, hi, blo, bhi in specs:
-            g = np.linspace(lo, hi, _GRID)
-            g = np.where((g > blo) & (g < bhi), np.where(g >= (blo + bhi) / 2, bhi, blo), g)
-            grids.append(np.clip(g, lo, hi))
+        sp = np.array(specs, dtype=float)
+        lo_, hi_, blo_, bhi_ = (sp[:, k:k + 1] for k in range(4))
+        g = np.linspace(sp[:, 0], sp[:, 1], _GRID, axis=1)
+        g = np.where((g > blo_) & (g < bhi_), np.where(g >= (blo_ + bhi_) / 2, bhi_, blo_), g)
+        grids = list(np.clip(g, lo_, hi_))
         P = self.predict_many([(p, "drift", np.exp(g)) for p, g in zip(parts, grids)])
         stage, flat = [], []
         allc2 = self._chi2_blocks(parts, P)
@@ -171,7 +171,8 @@ class DriftFits:
         if not P:
             return []
         sizes = [len(x) for x in P]
-        drops = [[self.pindex.get(p.ref, -1)] for p, k in zip(parts, sizes) for _ in range(k)]
+        js = np.repeat([self.pindex.get(p.ref, -1) for p in parts], sizes).tolist()
+        drops = [[j] for j in js]
         blocks = np.repeat(np.arange(len(sizes)), sizes)
         c2 = self.ev.chi2_rows(np.vstack(P), drops, blocks=blocks, window=SEARCH_WINDOW)
         return np.split(c2, np.cumsum(sizes)[:-1])

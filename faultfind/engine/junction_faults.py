@@ -71,6 +71,8 @@ EXACT_ALL = 150
 #: Gauss-Newton steps of a junction drift fit.
 _GN_STEPS = 4
 _LEAK_GRID = 5
+#: Leak resistance of a large board's one-solve leak screen (ohms).
+LEAK_PROBE = 1e4
 #: Forward-difference step of the leak fit, in ln r.
 _FD = 1e-3
 _ERRORS = (SolveError, ValueError, ZeroDivisionError, FloatingPointError, ArithmeticError,
@@ -140,6 +142,9 @@ class Exact:
         self.live = [i for i, rd in enumerate(ev.readings)
                      if rd.quantity in ("voltage", "current")]
         self.live_set = set(self.live)
+        # what a first pass on a large board solves: the live and lifted readings
+        self.cheap = [i for i, rd in enumerate(ev.readings)
+                      if i in self.live_set or rd.setup == "lifted"]
 
     def solve(self, faults):
         """``(displays (n,), sensitivity (n, m))`` under ``faults``; NaN displays and
@@ -158,6 +163,29 @@ class Exact:
         if len(self.cache) > 4096:
             self.cache.clear()
         self.cache[key] = got
+        return got
+
+    def solve_live(self, faults):
+        """:meth:`solve` without the power-off readings (each its own Newton solve): they
+        stand at ``Board.off_fill`` (what was read) until the hypothesis is re-solved in
+        full (:func:`rescore_leaders`).  The full solve when there is nothing to save."""
+        ev = self.ev
+        fill = getattr(ev, "off_fill", None)
+        if fill is None or len(self.cheap) == ev.n:
+            return self.solve(faults)
+        key = ("live",) + _key(faults)
+        got = self.cache.get(key)
+        if got is None:
+            circuit, overrides = _faulted(ev.circuit, faults)
+            try:
+                val, S = self._solve(circuit, overrides, self.cheap) if self.cheap else \
+                    (np.full(ev.n, np.nan), np.zeros((ev.n, len(ev.params))))
+                rest = [i for i in range(ev.n) if i not in set(self.cheap)]
+                val[rest] = fill[rest]
+                got = (val, S)
+            except _ERRORS:
+                got = (np.full(ev.n, np.nan), None)
+            self.cache[key] = got
         return got
 
     def _solve(self, circuit, overrides, rows):
@@ -346,6 +374,8 @@ def fit_leak(ev, part, refine=True):
             seen[x] = (c2, f, pred)
         return seen[x]
 
+    if not refine:   # large boards: one re-solve, the leak's conductance fitted on the line
+        return _leak_on_line(ev, part, score, lo, hi)
     grid = np.linspace(lo, hi, _LEAK_GRID)
     cc = np.array([score(x)[0] for x in grid])
     fin = cc[np.isfinite(cc)]
@@ -390,6 +420,28 @@ def fit_leak(ev, part, refine=True):
     return best[1], best[2], None, occam
 
 
+def _leak_on_line(ev, part, score, lo, hi):
+    """A leak's first-pass screen on a large board: one re-solve at :data:`LEAK_PROBE`
+    (without the power-off readings, :meth:`Exact.solve_live`), the
+    readings taken as linear in the leak's conductance through it and the healthy board,
+    the conductance fitted in closed form (refined by re-solves if it leads)."""
+    f1 = Fault(part.ref, "leaky", float(LEAK_PROBE))
+    p1 = _exact(ev).solve_live([f1])[0]
+    c1 = np.inf if np.isnan(p1).any() else float(_chi2(ev, p1, ev.pindex.get(part.ref, -1))[0])
+    p0 = ev.healthy_prediction()
+    w = _weights(ev, -1)
+    ok = np.isfinite(p0) & np.isfinite(p1) & (w > 0)
+    d = np.where(ok, p1 - p0, 0.0)
+    y = np.where(np.isfinite(ev.ev.y), ev.ev.y, 0.0)
+    info = float(np.sum(w * d * d))
+    if not np.isfinite(c1) or info < 1e-6:   # the readings do not see a leak here
+        return f1, p1, None, 0.0
+    t = float(np.sum(w * d * np.where(ok, y - p0, 0.0)) / info)
+    g = float(np.clip(t / LEAK_PROBE, 1.0 / np.exp(hi), 1.0 / np.exp(lo)))
+    pred = np.where(ok, p0 + d * g * LEAK_PROBE, p1)
+    return Fault(part.ref, "leaky", 1.0 / g), pred, None, 0.0
+
+
 def junction_first_pass(ev, parts):
     """Every fault hypothesis of the semiconductor ``parts``, by exact re-solves.
 
@@ -409,7 +461,7 @@ def junction_first_pass(ev, parts):
                 cands.append(fit_leak(ev, p, refine=full))
             else:
                 f = Fault(p.ref, mode)
-                cands.append((f, ex.solve([f])[0], None, 0.0))
+                cands.append((f, (ex.solve if full else ex.solve_live)([f])[0], None, 0.0))
     return cands
 
 

@@ -164,7 +164,8 @@ def predict_linear(circuit: Circuit, readings, meters: dict, overrides: dict | N
         by_key.setdefault(key, []).append(i)
     for key, idx in by_key.items():
         grp = share.get(key) if share is not None and not overrides else None
-        if grp is None or grp.circuit is not circuit or grp.overrides:
+        fresh = grp is None or grp.circuit is not circuit or grp.overrides
+        if fresh:
             grp = _Group(circuit, key, pindex, overrides)
         grp.cols = {}
         grp.keep = share is not None
@@ -173,7 +174,11 @@ def predict_linear(circuit: Circuit, readings, meters: dict, overrides: dict | N
         if key[0] == "off":
             _ohms_block(circuit, grp, readings, idx, npar, value, sens, meters)
         else:
-            _live_block(circuit, grp, readings, idx, meters, npar, pindex, value, sens)
+            # a shared network remembers the readings of the call that factored it, so
+            # that a later call with some of the same readings (the advice, after the
+            # diagnosis) does not solve them again
+            memo = grp.__dict__.setdefault("memo", {}) if share is not None else None
+            _live_block(circuit, grp, readings, idx, meters, npar, pindex, value, sens, memo, fresh)
     return finish(readings, value, sens, params, any_ac)
 
 
@@ -203,21 +208,39 @@ def finish(readings, value, sens, params, any_ac, operating_point=None) -> Predi
 _BLOCK = 32
 
 
-def _live_block(circuit, grp, readings, idx, meters, npar, pindex, value, sens):
+def _memo_key(rd, meter, dtype):
+    """What a live reading's value, sensitivities and solves depend on, besides the network."""
+    if rd.quantity == "voltage":
+        return ("v", rd.plus, rd.minus, meter.input_resistance, dtype.char)
+    return ("i", rd.part, meter.current_shunt, dtype.char)
+
+
+def _live_block(circuit, grp, readings, idx, meters, npar, pindex, value, sens, memo=None, store=False):
     """Live readings of one analysis: block solves, then vectorized gradients.
 
     Per reading ``i`` (columns of ``U``) this is the Sherman-Morrison formula of
     the module docstring: ``den = 1 + alpha z``, ``x_L = x - w alpha (u^T x) / den``,
-    ``lambda_L = mu / den``, ``r = s (u^T x) / den``.
+    ``lambda_L = mu / den``, ``r = s (u^T x) / den``.  ``memo`` (dict): readings
+    already worked out on this network are taken from it; with ``store``, the
+    ones worked out here are put in it.
     """
     net, lu, x = grp.net, grp.lu, grp.x
     N = net.size
     cols, alphas, ss, skips, selfs = [], [], [], [], []
+    keys = {}
     for i in idx:
         rd = readings[i]
         meter = meters[rd.meter or "default"]
+        if memo is not None:
+            mk = keys[i] = _memo_key(rd, meter, sens.dtype)
+            got = memo.get(mk)
+            if got is not None:
+                value[i], sens[i] = got[0], got[1]
+                if grp.keep:
+                    grp.cols[i] = got[2]
+                continue
         if rd.quantity == "voltage":
-            cols.append((i, net.node_vector(rd.plus, rd.minus)))
+            cols.append((i, ((net.node_index[rd.plus], 1.0), (net.node_index[rd.minus], -1.0))))
             alphas.append(1.0 / meter.input_resistance); ss.append(1.0); skips.append(-1); selfs.append(None)
             continue
         elem = net.element.get(rd.part)
@@ -229,34 +252,37 @@ def _live_block(circuit, grp, readings, idx, meters, npar, pindex, value, sens):
             value[i] = net.inj_i[k]
             sens[i, pindex[rd.part]] = net.inj_i[k]
             continue
-        u = np.zeros(N, dtype=net.A.dtype)
         rs = meter.current_shunt
         if kind == BRANCH:
-            u[net.n + k] = 1.0
-            cols.append((i, u)); alphas.append(-rs)
+            cols.append((i, ((net.n + k, 1.0),))); alphas.append(-rs)
             ss.append(-1.0 if circuit.part(rd.part).kind == "voltage-source" else 1.0)
             skips.append(-1); selfs.append(None)
             continue
         a, b = net.y_a[k], net.y_b[k]
-        if a >= 0:
-            u[a] += 1.0
-        if b >= 0:
-            u[b] -= 1.0
         y = net.y_val[k]
         y2 = y / (1.0 + y * rs)
-        cols.append((i, u)); alphas.append(y2 - y); ss.append(y2); skips.append(k)
+        cols.append((i, ((a, 1.0), (b, -1.0)))); alphas.append(y2 - y); ss.append(y2); skips.append(k)
         selfs.append((grp.jy[k], grp.dy[k] / (1.0 + y * rs) ** 2, y2))
     for c0 in range(0, len(cols), _BLOCK):
         part = cols[c0:c0 + _BLOCK]
         rows = [i for i, _ in part]
-        U = np.column_stack([u for _, u in part])
+        # the reading vectors u (a node pair or one branch each), kept as their entries
+        er = np.array([k for _, ent in part for k, _ in ent], dtype=np.int64)
+        ec = np.array([q for q, (_, ent) in enumerate(part) for _ in ent], dtype=np.int64)
+        ev_ = np.array([v for _, ent in part for _, v in ent], dtype=float)
+        on = er >= 0                      # the ground node has no row
+        er, ec, ev_ = er[on], ec[on], ev_[on]
+        U = np.zeros((N, len(part)), dtype=net.A.dtype)
+        np.add.at(U, (er, ec), ev_)
         W, Mu = lu.solve_both(U)
         alpha = np.array(alphas[c0:c0 + _BLOCK], dtype=complex)
         s = np.array(ss[c0:c0 + _BLOCK], dtype=complex)
         if not np.iscomplexobj(W) and not alpha.imag.any() and not s.imag.any():
             alpha, s = alpha.real, s.real   # a real network: stay in real arithmetic
-        z = np.einsum("ij,ij->j", U, W)
-        ux = U.T @ x
+        z = np.zeros(len(part), dtype=np.result_type(U.dtype, W.dtype))
+        np.add.at(z, ec, ev_ * W[er, ec])
+        ux = np.zeros(len(part), dtype=np.result_type(U.dtype, x.dtype))
+        np.add.at(ux, ec, ev_ * x[er])
         den = 1.0 + alpha * z
         XL = x[:, None] - W * (alpha * ux / den)[None, :]
         Lam = Mu / den[None, :]
@@ -271,6 +297,9 @@ def _live_block(circuit, grp, readings, idx, meters, npar, pindex, value, sens):
                 j, dy2, y2 = st
                 G[j, q] += dy2 * (ux[q] / den[q]) * (1.0 - y2 * z[q] / den[q])
         sens[rows] = G.T
+        if store and memo is not None:
+            for q, i in enumerate(rows):
+                memo[keys[i]] = (value[i], sens[i], (W[:, q], Mu[:, q]))
 
 
 def diode_test_limit(meter) -> float:
@@ -281,6 +310,7 @@ def diode_test_limit(meter) -> float:
 def _ohms_block(circuit, grp, readings, idx, npar, value, sens, meters=None):
     """In-circuit resistance (and diode-test) readings of the power-off network, in blocks."""
     net, lu = grp.net, grp.lu
+    N = net.size
     cols = []
     for i in idx:
         rd = readings[i]
@@ -293,13 +323,22 @@ def _ohms_block(circuit, grp, readings, idx, npar, value, sens, meters=None):
         elif not net.connected(plus, minus):
             value[i] = np.inf
         else:
-            cols.append((i, net.node_vector(plus, minus)))
+            cols.append((i, ((net.node_index[plus], 1.0), (net.node_index[minus], -1.0))))
     for c0 in range(0, len(cols), _BLOCK):
         part = cols[c0:c0 + _BLOCK]
         rows = [i for i, _ in part]
-        U = np.column_stack([u for _, u in part])
+        # the reading vectors u (a node pair or one branch each), kept as their entries
+        er = np.array([k for _, ent in part for k, _ in ent], dtype=np.int64)
+        ec = np.array([q for q, (_, ent) in enumerate(part) for _ in ent], dtype=np.int64)
+        ev_ = np.array([v for _, ent in part for _, v in ent], dtype=float)
+        on = er >= 0                      # the ground node has no row
+        er, ec, ev_ = er[on], ec[on], ev_[on]
+        U = np.zeros((N, len(part)), dtype=net.A.dtype)
+        np.add.at(U, (er, ec), ev_)
         W, Mu = lu.solve_both(U)
-        value[rows] = np.einsum("ij,ij->j", U, W)
+        z = np.zeros(len(part), dtype=np.result_type(U.dtype, W.dtype))
+        np.add.at(z, ec, ev_ * W[er, ec])
+        value[rows] = z
         if grp.keep:
             for q, i in enumerate(rows):
                 grp.cols[i] = (W[:, q], Mu[:, q])

@@ -47,7 +47,7 @@ import numpy as np
 from .mna import ADMITTANCE
 from .updates import _rows
 
-__all__ = ["LineBounds", "line_bounds", "line_directions"]
+__all__ = ["LineBounds", "line_bounds", "line_directions", "board_bounds"]
 
 _SCREENABLE = ("resistor", "fuse", "switch", "capacitor", "inductor")
 #: Best fits that rescale a tolerance-dominated reading's variance by more than
@@ -288,3 +288,21 @@ def line_bounds(board, evidence, healthy_pred):
         gain = gain + 0.5 * float(np.sum(np.where(np.isfinite(pen), pen, 0.0)))
     return LineBounds([p.ref for p in refs], np.asarray(gain, dtype=float), sorted(must))
 
+
+
+def board_bounds(ev):
+    """:func:`line_bounds` of an :class:`~.hypotheses.Evaluator` for its healthy prediction,
+    with the healthy log-likelihood they are relative to (cached on ``ev``).
+
+    Returns
+    -------
+    (LineBounds or None, float)
+        The bounds (None: the readings cannot be screened) and ``log L(healthy)``
+        on the first-pass covariance.
+    """
+    got = ev.__dict__.get("_board_bounds")
+    if got is None:
+        healthy = ev.healthy_prediction()
+        c2, ld = ev.ev.chi2_rows(healthy[None, :], [[]], True)
+        got = ev._board_bounds = (line_bounds(ev, ev.ev, healthy), -0.5 * float(c2[0] + ld[0]))
+    return got

@@ -39,6 +39,10 @@ _GRID = 9
 #: A short whose best grid point is this far (chi-square) behind the best of all
 #: shorts is not refined: it cannot lead.
 SEARCH_WINDOW = 50.0
+#: A part whose line bound is this far (log-likelihood) below the best zero-ohm
+#: short or the healthy circuit is not fitted: the screen's margin (25) and half
+#: the search window, for the priors of other kinds (common practice (no source)).
+BOUND_MARGIN = 50.0
 
 
 def short_range(part):
@@ -84,11 +88,57 @@ def fit_shorts(ev, parts):
     """
     if not parts:
         return []
-    specs = [short_range(p) for p in parts]
-    grids = [np.linspace(lo, hi, _GRID) for lo, hi in specs]
     P0 = ev.predict_many([(p, "short", None) for p in parts])
+    fit, c0 = _worth_fitting(ev, parts, P0)
+    out = [None if f else (None, pz[0], 0.0) for f, pz in zip(fit, P0)]
+    keep = np.flatnonzero(fit)
+    if keep.size == 0:
+        return out
+    if keep.size < len(parts):
+        full = out
+        parts = [parts[i] for i in keep]
+        P0 = [P0[i] for i in keep]
+        for i, got in zip(keep, _fit(ev, parts, P0, None if c0 is None else c0[keep])):
+            full[i] = got
+        return full
+    return _fit(ev, parts, P0, c0)
+
+
+def _worth_fitting(ev, parts, P0):
+    """Which parts' short resistance can matter (bool per part).
+
+    A part whose best possible fault of any kind (its line bound,
+    :func:`.screen.board_bounds`) stays :data:`BOUND_MARGIN` below the best
+    zero-ohm short and the healthy circuit cannot come near the leader with
+    any short resistance: it keeps the exact short.  Parts without a bound
+    (lifted or current readings on them, sources, AC readings) are fitted.
+    """
+    from .screen import board_bounds
+    fit = np.ones(len(parts), dtype=bool)
+    lb, ll0 = board_bounds(ev)
+    if lb is None or not parts:
+        return fit, None
+    gain = dict(zip(lb.refs, lb.gain.tolist()))
+    c2, ld = ev.ev.chi2_rows(np.vstack([pz[0] for pz in P0]), [[ev.pindex.get(p.ref, -1)] for p in parts],
+                             True)
+    ll = -0.5 * (c2 + ld)
+    lead = max(ll0, float(np.max(np.where(np.isfinite(ll), ll, -np.inf))))
+    for i, p in enumerate(parts):
+        g = gain.get(p.ref)
+        if g is not None and ll0 + g < lead - BOUND_MARGIN:
+            fit[i] = False
+    return fit, c2
+
+
+def _fit(ev, parts, P0, c0=None):
+    """:func:`fit_shorts` of ``parts`` (their zero-ohm short predictions ``P0`` and, if
+    known, chi-squares ``c0``)."""
+    specs = [short_range(p) for p in parts]
+    spec = np.array(specs, dtype=float)
+    grid_all = np.linspace(spec[:, 0], spec[:, 1], _GRID, axis=1)
+    grids = list(grid_all)
     P = ev.predict_many([(p, "short", np.exp(g)) for p, g in zip(parts, grids)])
-    c0 = ev._chi2_blocks(parts, P0)
+    c0 = ev._chi2_blocks(parts, P0) if c0 is None else [np.array([x]) for x in c0]
     cg = ev._chi2_blocks(parts, P)
     out = [None] * len(parts)
     live = []

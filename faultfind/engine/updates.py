@@ -84,6 +84,20 @@ def _at(vec, a, b):
     return va - vb
 
 
+def _side_by_side(vectors, N, dtype, block=16):
+    """The length-``N`` ``vectors`` (None: zeros) as the columns of an ``(N, r)`` array.
+
+    Filled a few columns at a time from their transpose: writing one column of a
+    row-major array at a time touches every row's cache line once per column.
+    """
+    out = np.empty((N, len(vectors)), dtype=dtype)
+    zero = np.zeros(N, dtype=dtype)
+    for a in range(0, len(vectors), block):
+        chunk = [zero if v is None else v for v in vectors[a:a + block]]
+        out[:, a:a + len(chunk)] = np.array(chunk).T
+    return out
+
+
 class Group:
     """Healthy-circuit quantities of one analysis, for the readings taken on it.
 
@@ -119,6 +133,17 @@ class Group:
         r = len(readings)
         self.readings = readings
         U = np.zeros((N, r), dtype=dt)
+        ent_r, ent_c, ent_v = [], [], []        # U's entries (two at most per reading)
+
+        def put(k, i, v):
+            if k >= 0:
+                ent_r.append(k)
+                ent_c.append(i)
+                ent_v.append(v)
+
+        def put_nodes(plus, minus, i):
+            put(net.node_index[plus], i, 1.0)
+            put(net.node_index[minus], i, -1.0)
         self.d_m = np.zeros(r, dtype=complex)      # the reading's own term (meter) coefficient
         self.scale = np.zeros(r, dtype=complex)    # s in s c^T x'; y0 for admittance currents
         self.rtype = [""] * r                      # "v", "ya", "br", "ohm", "src", "zero", "ol"
@@ -135,7 +160,7 @@ class Group:
                 elif not net.connected(plus, minus):
                     self.rtype[i] = "ol"
                 else:
-                    U[:, i] = net.node_vector(plus, minus)
+                    put_nodes(plus, minus, i)
                     self.rtype[i] = "ohm"
                     # a diode test on this (linear) network shows I_t R (engine/linpredict.py)
                     self.scale[i] = meter.diode_test_current if rd.quantity == "diode-test" else 1.0
@@ -143,7 +168,7 @@ class Group:
                     self.top[i] = min(meter.diode_test_max, meter.diode_test_voltage)
                 continue
             if rd.quantity == "voltage":
-                U[:, i] = net.node_vector(rd.plus, rd.minus)
+                put_nodes(rd.plus, rd.minus, i)
                 self.d_m[i] = 1.0 / meter.input_resistance
                 self.scale[i] = 1.0
                 self.rtype[i] = "v"
@@ -157,7 +182,7 @@ class Group:
                 self.scale[i] = net.inj_i[el[1]]
                 continue
             if el is not None and el[0] == BRANCH:
-                U[net.n + el[1], i] = 1.0
+                put(net.n + el[1], i, 1.0)
                 self.d_m[i] = -meter.current_shunt
                 self.scale[i] = -1.0 if p.kind == "voltage-source" else 1.0
                 self.rtype[i] = "br"
@@ -166,29 +191,33 @@ class Group:
                 self.rtype[i] = "zero"
                 continue
             # admittance element, or absent (capacitor at DC, open switch): y0 may be 0
-            a, b = net.node_index[p.nodes[0]], net.node_index[p.nodes[1]]
-            if a >= 0:
-                U[a, i] += 1.0
-            if b >= 0:
-                U[b, i] -= 1.0
+            put_nodes(p.nodes[0], p.nodes[1], i)
             y0 = net.y_val[el[1]] if el is not None else 0.0
             y2 = y0 / (1.0 + y0 * meter.current_shunt) if y0 != 0 else 0.0
             self.d_m[i] = y2 - y0
             self.scale[i] = y0
             self.rtype[i] = "ya"
+        er, ec = np.array(ent_r, dtype=np.int64), np.array(ent_c, dtype=np.int64)
+        ev_ = np.array(ent_v, dtype=float)
+        np.add.at(U, (er, ec), ev_)
         self.U = U
+        used = np.zeros(r, dtype=bool)            # columns of U with a nonzero entry
+        used[ec[U[er, ec] != 0]] = True
         have = [c for c in (shared_cols or [])]
-        if r and len(have) == r and all(c is not None or not U[:, i].any() for i, c in enumerate(have)):
-            self.W = np.zeros((N, r), dtype=dt)
-            self.Mu = np.zeros((N, r), dtype=dt)
-            for i, c in enumerate(have):
-                if c is not None:
-                    self.W[:, i], self.Mu[:, i] = c
+        if r and len(have) == r and all(c is not None or not used[i] for i, c in enumerate(have)):
+            self.W = _side_by_side([None if c is None else c[0] for c in have], N, dt)
+            self.Mu = _side_by_side([None if c is None else c[1] for c in have], N, dt)
         else:
             self.W, self.Mu = self.lu.solve_both(U) if r else (U, U)
-        self.z = np.einsum("ij,ij->j", U, self.W)
+        # u_i^T W_i and u_i^T x from U's few entries (U itself is mostly zeros)
+        self.z = np.zeros(r, dtype=np.result_type(dt, self.W.dtype))
+        np.add.at(self.z, ec, ev_ * self.W[er, ec])
         # projections of the right-hand side: x for live readings, the test current for ohms
-        self.px = (U.T @ self.x) if self.analysis != "off" else self.z.copy()
+        if self.analysis != "off":
+            self.px = np.zeros(r, dtype=np.result_type(dt, self.x.dtype))
+            np.add.at(self.px, ec, ev_ * self.x[er])
+        else:
+            self.px = self.z.copy()
         self._wt = {}
         self._has_opamp = any(p.kind == "opamp" for p in circuit.parts)
         yabs = np.abs(net.y_val[net.y_val != 0])

@@ -154,6 +154,42 @@ def test_reach_matches_networkx(seed):
             assert {n for n, x in zip(c.nodes, got) if x} == want, (analysis, faults)
 
 
+def _sparse_circuit(rng, n_nodes, n_parts):
+    """Many pieces, lone nodes, parallel parts, chains and loops; sources here and there."""
+    nodes = ["0"] + [f"N{i}" for i in range(1, n_nodes)]
+    parts = []
+    for k in range(n_parts):
+        if parts and rng.random() < 0.1:        # a part in parallel with an earlier one
+            a, b = rng.choice(parts).nodes
+        elif rng.random() < 0.5:                # a chain link: long series paths (bridges)
+            i = rng.randrange(1, n_nodes - 1)
+            a, b = nodes[i], nodes[i + 1]
+        else:
+            a, b = rng.sample(nodes, 2)
+        parts.append(Part(ref=f"X{k}", kind=rng.choice(["resistor", "resistor", "fuse", "capacitor"]),
+                          nodes=(a, b), value=1e3))
+    for k in range(rng.randint(1, 4)):
+        a, b = rng.sample(nodes, 2)
+        parts.append(Part(ref=f"V{k}", kind="voltage-source", nodes=(a, b), value=5.0))
+    return Circuit(title="sparse", parts=tuple(parts), ground="0")
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_reach_on_larger_sparse_graphs_matches_networkx(seed):
+    # the compiled spanning-forest search against networkx on a few hundred nodes,
+    # where a depth-first tree has deep subtrees, many pieces and parallel edges
+    rng = random.Random(100 + seed)
+    c = _sparse_circuit(rng, rng.randint(150, 300), rng.randint(150, 400))
+    for analysis in ("dc", "ac"):
+        reach = Reach(c, analysis)
+        healthy = _driven_nx(c, analysis, {})
+        for p in c.parts:
+            faults = {p.ref: "dead" if p.is_source else "open"}
+            got = reach.cut_off(faults, list(c.nodes))
+            want = healthy - _driven_nx(c, analysis, faults)
+            assert {n for n, x in zip(c.nodes, got) if x} == want, (analysis, faults)
+
+
 # ------------------------------------------------ a real short (item 3)
 RAIL = Path(__file__).resolve().parent / "fused_rail_short"
 

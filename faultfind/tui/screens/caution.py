@@ -31,8 +31,8 @@ CAUTION_ITEMS = (
      "Power-on readings are live work: meter and leads rated for the measurement "
      "category (CAT II, III or IV; IEC 61010-1) and the voltage where you probe."),
     ("Isolate",
-     "Before resistance or continuity readings, or opening a circuit to read current: "
-     "isolate every supply, lock out and tag out."),
+     "Before resistance or continuity readings and diode tests, or opening a circuit for "
+     "current: isolate, lock out and tag out."),
     ("Verify dead",
      "Verify dead with a proven tester: prove the tester, test, prove it again."),
     ("Stored energy",

@@ -540,12 +540,17 @@ class Evidence:
             out += self._chi2_terms(P, var)[:, rest].sum(axis=1)
         return np.where(np.any(np.isnan(P), axis=1), np.inf, out)
 
-    def residuals(self, pred, drop=(), weak=None):
+    def residuals(self, pred, drop=(), weak=None, tol_var=None):
         """Standardized residual of each reading (diagonal covariance); 0 for OL consistent.
 
-        ``weak``: readings on cut-off nodes (see :meth:`stray`)."""
+        ``weak``: readings on cut-off nodes (see :meth:`stray`).  ``tol_var``:
+        the tolerance variance of each reading under the hypothesis (the
+        diagonal of its own covariance, e.g. from the faulted circuit's
+        sensitivities); default the healthy one rescaled to ``pred``."""
         pred = np.asarray(pred, dtype=float)
-        var = np.clip(np.diag(self.tol_cov(pred, drop)), 0, None) + self.u ** 2
+        if tol_var is None:
+            tol_var = np.diag(self.tol_cov(pred, drop))
+        var = np.clip(np.asarray(tol_var, dtype=float), 0, None) + self.u ** 2
         var = var + self.stray(pred, weak, var)[0][0]
         t = self._chi2_terms(pred[None, :], var)[0]
         with np.errstate(invalid="ignore"):

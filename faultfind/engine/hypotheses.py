@@ -356,8 +356,13 @@ class Evaluator(Board, DriftFits):
                           occam=occam)
 
     def exact(self, h: Hypothesis) -> Hypothesis:
-        """Re-score ``h`` with the faulted circuit's own sensitivities (one re-solve)."""
-        if not h.faults:
+        """Re-score ``h`` with the faulted circuit's own sensitivities (one re-solve).
+
+        A hypothesis predicted with a supply in current limit (:mod:`.limits`)
+        is returned as it is: the faulted circuit's sensitivities are those
+        of the supply holding its voltage, which would spread the limited
+        prediction by the full fault current."""
+        if not h.faults or h.limited:
             return h
         S = self.faulted_sensitivity(h.faults)
         if S is None or not np.all(np.isfinite(S)):
@@ -647,6 +652,15 @@ def rank_with(ev: Evaluator, *, doubles=True, screen=None, progress=None) -> Ran
     for i in range(min(EXACT_TOP, len(hyps))):
         if i == 0 or hyps[i].log_post > lead - REFIT_WINDOW:
             hyps[i] = ev.exact(hyps[i])
+    # the leader's part in its other modes, on the same exact terms: the mode is
+    # decided on equal footing (an open beside a current source, scored on the
+    # healthy spread, can trail its own thousandfold drift scored exactly)
+    if len(hyps[0].faults) == 1:
+        ref = hyps[0].faults[0].ref
+        for i in range(1, min(FULL_TOP, len(hyps))):
+            h = hyps[i]
+            if not h.exact and len(h.faults) == 1 and h.faults[0].ref == ref:
+                hyps[i] = ev.exact(h)
     # supplies with a current limit: a fault drawing more is predicted in current limit
     hyps[:EXACT_TOP] = apply_limits(ev, hyps[:EXACT_TOP], EXACT_TOP)
     n = ev.n

@@ -145,6 +145,22 @@ class Exact:
         # what a first pass on a large board solves: the live and lifted readings
         self.cheap = [i for i, rd in enumerate(ev.readings)
                       if i in self.live_set or rd.setup == "lifted"]
+        # power-off readings' solutions on the healthy board, where their Newton solves
+        # on a faulted variant start (filled on first use: :meth:`_off_warm`)
+        self.off_warm = None
+
+    def _off_warm(self):
+        """The healthy board's power-off solutions by (plus, minus, quantity)."""
+        if self.off_warm is None:
+            self.off_warm = {}
+            ev = self.ev
+            off = [ev.readings[i] for i in range(ev.n) if i not in set(self.cheap)]
+            if off:
+                try:
+                    predict(ev.circuit, off, ev.meters, off_warm=self.off_warm)
+                except _ERRORS:
+                    pass     # a reading without a healthy solution starts from cold
+        return self.off_warm
 
     def solve(self, faults):
         """``(displays (n,), sensitivity (n, m))`` under ``faults``; NaN displays and
@@ -156,10 +172,12 @@ class Exact:
         ev = self.ev
         circuit, overrides = _faulted(ev.circuit, faults)
         self.solves += 1
-        try:
-            got = self._solve(circuit, overrides, range(ev.n))
-        except _ERRORS:
-            got = self._piecewise(circuit, overrides)
+        got = self._from_live(key, circuit, overrides)
+        if got is None:
+            try:
+                got = self._solve(circuit, overrides, range(ev.n))
+            except _ERRORS:
+                got = self._piecewise(circuit, overrides)
         if len(self.cache) > 4096:
             self.cache.clear()
         self.cache[key] = got
@@ -188,12 +206,33 @@ class Exact:
             self.cache[key] = got
         return got
 
+    def _from_live(self, key, circuit, overrides):
+        """The full solve from a :meth:`solve_live` result already cached: its live and
+        lifted rows (the same operating point and linearisation a full solve computes)
+        and the power-off readings solved now (they need no operating point).  None when
+        there is no such result or the power-off solve fails (the caller solves it all)."""
+        live = self.cache.get(("live",) + key)
+        if live is None or live[1] is None or np.isnan(live[0][self.cheap]).any():
+            return None
+        ev = self.ev
+        cheap = set(self.cheap)
+        off = [i for i in range(ev.n) if i not in cheap]
+        try:
+            v, s = self._solve(circuit, overrides, off)
+        except _ERRORS:
+            return None
+        val, S = live[0].copy(), live[1].copy()
+        val[off], S[off] = v[off], s[off]
+        return val, S
+
     def _solve(self, circuit, overrides, rows):
         """Displays and sensitivities of the readings ``rows`` (raises when unsolvable)."""
         ev = self.ev
         rows = list(rows)
         rds = [ev.readings[i] for i in rows]
         kw = {"warm": self.warm} if self.warm is not None else {}
+        if any(i not in self.live_set for i in rows):
+            kw["off_warm"] = self._off_warm()
         # predict() re-solves with the meter in the circuit where the meter loads a node
         # heavily (a pad above an open LED): docs/junction-models.md
         pr = predict(circuit, rds, ev.meters, overrides=overrides, **kw)

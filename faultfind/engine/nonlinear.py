@@ -33,7 +33,10 @@ the predictions and sensitivities use (engine/semis.py).  A warm start
 (``warm=`` an earlier :class:`OperatingPoint` or its :meth:`~OperatingPoint.voltages`)
 starts Newton from the element voltages of a nearby solution (matched by
 part and element name), so a faulted variant close to the healthy board
-settles in a few iterations.
+settles in a few iterations.  The base-emitter junction of a transistor whose
+emitter lead is open starts at 0 V instead (``System.zero_start``): its far
+side floats and settles there, and from 0.7 V Newton walks down one ``n Vt``
+per iteration.
 
 Linear circuits never come here (``Circuit.is_nonlinear`` is false).
 """
@@ -163,6 +166,11 @@ class System:
                     lr.append(r); lc.append(c); lv.append(s)
 
         els: list = []
+        #: elements Newton starts at 0 V whatever the warm start says: the base-emitter
+        #: junction of a transistor whose emitter lead is open (its far side floats, held
+        #: by that junction alone, so it settles at 0 V; from a healthy 0.7 V Newton walks
+        #: down one n Vt per iteration, about 30 iterations)
+        self.zero_start = set()
         self.devices = {}
         self.probe_u = None
         self.probe_open = False
@@ -217,6 +225,8 @@ class System:
                     if r >= 0 and c_ >= 0:
                         lr.append(r); lc.append(c_); lv.append(s_)
             for el in dev.elements:
+                if ov == "base-emitter-open" and el.name == "forward":
+                    self.zero_start.add(len(els))
                 els.append((p.ref, el, roles))
             self.devices[p.ref] = (dev, roles)
         for na, nb, g in loads:     # a meter's input resistance across two nodes
@@ -380,6 +390,8 @@ class System:
             for k, key in enumerate(self.keys):
                 if key in w:
                     v[k] = w[key]
+        for k in self.zero_start:
+            v[k] = 0.0
         return v
 
     def _newton(self, v, b, gmin=0.0, maxiter=MAXITER):

@@ -13,7 +13,7 @@ Uncertainty of a reading (docs/estimate.md):
   covariance is full, not diagonal: readings that share a part move together.
 * on a board with semiconductors, the model spread of the parts that have no
   value (a transistor's ``vbe`` and ``gain``, a zener's forward voltage;
-  engine/spread.py, :data:`~.spread.MODEL_SPREAD`): their one-sigma effects
+  engine/modelspread.py, :data:`~.modelspread.MODEL_SPREAD`): their one-sigma effects
   ``M`` add ``M M^T`` to the healthy covariance.  They are no parameters: no
   hypothesis drops them; under a hypothesis they are rescaled with the
   prediction like the tolerances.
@@ -82,7 +82,7 @@ class Evidence:
         Parameter tolerances.
     model_spread : ndarray, shape (n, k), optional
         One-sigma effects of the model spread on the healthy displays
-        (:func:`~.spread.model_spread_columns`); none by default.
+        (:func:`~.modelspread.model_spread_columns`); none by default.
     """
 
     def __init__(self, readings, meters, pred0, S0, tol_low, tol_high, model_spread=None):

@@ -647,7 +647,10 @@ def main(argv=None) -> int:
         doc = {"family": args.family, "seed": args.seed, "cases": args.cases, "jobs": args.jobs, "wall_seconds": wall,
                "machine": _machine(), "targets": TARGETS, "figures": fig,
                "wrong_cases": [r["index"] for r in wrong], "false_alarm_cases": [r["index"] for r in alarms],
-               "error_cases": [r["index"] for r in errors]}
+               "error_cases": [r["index"] for r in errors],
+               "inconsistent_cases": [r["index"] for r in results if r["verdict"] == "inconsistent"],
+               "mode_wrong_cases": [r["index"] for r in results
+                                    if r.get("mode_tell") and r["visible"] and not r["mode_right"]]}
         Path(args.json).write_text(json.dumps(doc, indent=2, default=float), encoding="utf-8")
     return 0
 

@@ -19,6 +19,7 @@ import numpy as np
 
 from .blas import threads_for
 from .engine.advise import condition_on_taken, expected_information_gain
+from .engine.drifts import DRIFT_RANGE, RESISTOR_FLOOR, SOURCE_RANGE
 from .engine.hypotheses import Board, Fault, rank
 from .engine.junction_faults import exact_faults
 from .engine.meter import standard_uncertainty
@@ -29,7 +30,7 @@ from .io.meters_file import meters_with_default
 from .model import QUANTITY_UNITS, Circuit, Reading
 from .units import format_value
 
-__all__ = ["Suggestion", "DEFAULT_COSTS", "suggest", "candidate_readings", "load_costs",
+__all__ = ["Suggestion", "DEFAULT_COSTS", "suggest", "candidate_readings", "contact_strings", "load_costs",
            "ELV_AC", "ELV_DC", "suggestion_json"]
 
 #: Effort of each kind of reading, in "probe placements" (docs/advice.md).
@@ -173,6 +174,11 @@ def candidate_readings(circuit: Circuit, suspects=(), frequencies=None, *, nodes
                     out.append(Reading("voltage", mode, p.nodes[0], p.nodes[1], label=f"across {p.ref}"))
             for p in two:
                 out.append(Reading("current", mode, part=p.ref, label=f"through {p.ref}"))
+    for a, b, refs in contact_strings(circuit, pool):
+        if nodes is None or (a in nodes and b in nodes):
+            for mode, f in modes:
+                if f is None:
+                    out.append(Reading("voltage", mode, a, b, label=f"across {' + '.join(refs)}"))
     for p in two:
         if not p.is_source and not p.is_semiconductor:
             out.append(Reading("resistance", None, part=p.ref, setup="in-circuit", label=f"across {p.ref}"))
@@ -188,6 +194,89 @@ def candidate_readings(circuit: Circuit, suspects=(), frequencies=None, *, nodes
         if p.kind in ("resistor", "fuse", "switch", "inductor", "capacitor"):
             out.append(Reading("resistance", None, part=ref, setup="lifted", label=f"{ref} alone"))
     return out
+
+
+#: Kinds that make a string of contacts: closed contacts and fuses in series.
+STRING_KINDS = ("switch", "fuse")
+#: Longest string of contacts read across in one reading (parts).
+STRING_MAX = 6
+
+
+def contact_strings(circuit: Circuit, parts=None, longest=STRING_MAX):
+    """Runs of two or more contacts or fuses in series, to read across in one go.
+
+    An interlock chain (a fuse and three door switches feeding a coil) is
+    checked by reading across the whole string first, then across half of it:
+    one reading tells whether any contact in the string has a high
+    resistance, where reading contact by contact needs one reading each
+    (half-splitting, common practice, no source).  Each run is a simple path
+    of :data:`STRING_KINDS` parts (not through ground), 2 to ``longest``
+    parts long, whose inner nodes join exactly two such parts (a node where
+    contacts branch ends a run: the contacts beyond it are not in series
+    with these); a pair of end nodes is listed once (the shortest run
+    between them), its plus end the one nearer a supply (the reading is then
+    positive on a DC feed).
+
+    Returns
+    -------
+    list of (str, str, tuple of str)
+        The two end nodes and the parts of the run, in order.
+    """
+    g = circuit.ground
+    pool = circuit.parts if parts is None else parts
+    adj = {}
+    for p in pool:
+        if p.kind in STRING_KINDS and p.nodes[0] != p.nodes[1]:
+            a, b = p.nodes[:2]
+            adj.setdefault(a, []).append((b, p.ref))
+            adj.setdefault(b, []).append((a, p.ref))
+    found = {}
+    for start in sorted(adj):
+        if start == g:
+            continue
+        stack = [(start, (start,), ())]
+        while stack:
+            node, path, refs = stack.pop()
+            if len(refs) >= 2:
+                key = frozenset((start, node))
+                if key not in found or len(refs) < len(found[key][2]):
+                    found[key] = (start, node, refs)
+            if len(refs) >= longest or (node == g and refs):
+                continue
+            if refs and len(adj[node]) != 2:
+                continue   # a branch point: the contacts beyond it are not in series with these
+            for nxt, ref in adj.get(node, ()):
+                if nxt not in path and nxt != g and ref not in refs:
+                    stack.append((nxt, path + (nxt,), refs + (ref,)))
+    dist = _supply_distance(circuit)
+    runs = []
+    for a, b, refs in found.values():
+        if dist.get(b, math.inf) < dist.get(a, math.inf):   # plus probe on the supply side
+            a, b, refs = b, a, refs[::-1]
+        runs.append((a, b, refs))
+    return sorted(runs, key=lambda t: (t[0], t[1]))
+
+
+def _supply_distance(circuit):
+    """Parts between each node and the nearest voltage source's + terminal (breadth first)."""
+    g = circuit.ground
+    adj = {}
+    for p in circuit.parts:
+        if p.kind != "opamp":
+            a, b = p.nodes[:2]
+            adj.setdefault(a, set()).add(b)
+            adj.setdefault(b, set()).add(a)
+    frontier = [p.nodes[0] for p in circuit.parts if p.kind == "voltage-source" and p.nodes[0] != g]
+    dist = {n: 0 for n in frontier}
+    while frontier:
+        nxt = []
+        for n in frontier:
+            for m in adj.get(n, ()):
+                if m != g and m not in dist:
+                    dist[m] = dist[n] + 1
+                    nxt.append(m)
+        frontier = nxt
+    return dist
 
 
 def near_suspects(circuit: Circuit, suspects, cap=NEAR_CAP):
@@ -247,6 +336,50 @@ def _prior_hypotheses(circuit, priors=None):
                 hyps.append(((Fault(p.ref, mode),), pr))
     s = sum(pr for _, pr in hyps)
     return [(f, pr / s) for f, pr in hyps]
+
+
+def _repair_groups(kept):
+    """One group per set of faulted parts: the modes of a part call for one repair."""
+    keys = {}
+    return np.array([keys.setdefault(frozenset(f.ref for f in faults), len(keys)) for faults, _ in kept])
+
+
+def _spread_unseen(circuit, hypotheses):
+    """Unseen drifts (value unknown over the whole drift range) as a few values across it.
+
+    A drift no reading has seen yet is only known to lie somewhere in its
+    range (log-uniform outside the tolerance band, :mod:`.engine.drifts`);
+    the diagnosis carries it at one end of the range.  Weighing readings
+    against that end alone would count every reading that sees a thousandfold
+    drift as settling it; the values at the quarter and three-quarter points
+    of each side of the band (mass by the side's share of the range) stand
+    for the small drifts a reading may not see as well.
+    """
+    out = []
+    for faults, pr in hypotheses:
+        f = faults[0] if len(faults) == 1 else None
+        p = circuit.part(f.ref) if f is not None else None
+        if f is None or f.mode != "drift" or f.seen or p.is_semiconductor:
+            out.append((faults, pr))
+            continue
+        lo, hi, blo, bhi = _drift_span(p)
+        sides = [(a, b) for a, b in ((lo, min(blo, hi)), (max(bhi, lo), hi)) if b - a > 1e-9]
+        total = sum(b - a for a, b in sides)
+        for a, b in sides:
+            for q in (0.25, 0.75):
+                out.append(((Fault(f.ref, "drift", float(p.value * math.exp(a + q * (b - a)))),),
+                            pr * (b - a) / total / 2))
+    return out
+
+
+def _drift_span(part):
+    """The drift range of ``part`` and its tolerance band, in log-value (as the diagnosis searches)."""
+    lo, hi = np.log(SOURCE_RANGE if part.is_source else DRIFT_RANGE)
+    if part.kind == "resistor":
+        lo = np.log(RESISTOR_FLOOR)
+    if part.kind in ("fuse", "switch"):
+        lo = 0.0
+    return (float(lo), float(hi), float(np.log1p(-min(part.tol_low, 0.999))), float(np.log1p(part.tol_high)))
 
 
 def _solvable(circuit, rd, meters) -> bool:
@@ -324,7 +457,7 @@ def _suggest(circuit, readings, meters, hypotheses, costs, power, top, factors, 
             hypotheses = [(h.faults, h.probability) for h in rk.hypotheses]
         else:
             hypotheses = _prior_hypotheses(circuit, priors)
-    hypotheses = sorted(hypotheses, key=lambda fp: -fp[1])
+    hypotheses = sorted(_spread_unseen(circuit, hypotheses), key=lambda fp: -fp[1])
     kept, acc = [], 0.0
     for f, pr in hypotheses:
         kept.append((f, pr))
@@ -374,8 +507,9 @@ def _suggest(circuit, readings, meters, hypotheses, costs, power, top, factors, 
     fed = np.where(np.array([k in drawn for k in range(len(kept))]), 0.0, probs_eff)
     if fed.sum() <= 0:
         return []
+    groups = _repair_groups(kept)   # the information about which part to repair
     gain = np.concatenate([expected_information_gain(fed / fed.sum(), mean_s[a:a + _CHUNK],
-                                                     sd_s[a:a + _CHUNK])
+                                                     sd_s[a:a + _CHUNK], groups)
                            for a in range(0, C, _CHUNK)]) * fed.sum()
     # a reading that repeats one taken, another way, tells nothing new
     cands_ok &= ~_repeats(mu_s[:C], noise_s[:C], mu_s[C:C + M], fed,

@@ -120,29 +120,32 @@ def _shown(ev: Evaluator, h: Hypothesis):
     return ev.pred0 if not h.faults else h.predicted
 
 
-def _exact_residuals(ev: Evaluator, h: Hypothesis, zh):
-    """On a board with junctions: the residuals with the faulted board's own tolerance
-    spread (a clamped base voltage spreads like a divider once its junction is open),
-    as its score has them; ``zh`` where that is unknown."""
-    S = ev.faulted_sensitivity(h.faults)
-    if S is None:
-        return zh
-    e = ev.ev
-    var = (np.nan_to_num(S) ** 2) @ e.var_p + e.u ** 2
-    t = e._chi2_terms(np.asarray(h.predicted, dtype=float)[None, :], var)[0]
-    with np.errstate(invalid="ignore"):
-        sign = np.sign(np.where(np.isfinite(h.predicted) & ~e.ol, e.y - h.predicted, 1.0))
-    return sign * np.sqrt(t)
+def _residuals(ev: Evaluator, h: Hypothesis):
+    """Standardized residuals of the readings under ``h``, with the spread its score used.
+
+    A hypothesis scored exactly (:meth:`Evaluator.exact`) has the faulted
+    circuit's own tolerance spread: with L1 open, the resistance read across
+    it is the rest of the network's (spread by those parts' tolerances), not
+    the winding's; the healthy spread rescaled would call a reading 4 % off
+    "against" a hypothesis that fits it.  On a board with junctions every
+    fault is scored so (a clamped base voltage spreads like a divider once
+    its junction is open).
+    """
+    tol_var = None
+    if h.faults and (h.exact or ev.circuit.is_nonlinear):
+        S = ev.faulted_sensitivity(h.faults)
+        if S is not None and np.all(np.isfinite(S)):
+            tol_var = (S ** 2) @ ev.ev.var_p
+        elif S is not None and ev.circuit.is_nonlinear:
+            tol_var = (np.nan_to_num(S) ** 2) @ ev.ev.var_p
+    return ev.ev.residuals(h.predicted, ev.drop_cols(h.faults), ev.weak(h.faults), tol_var=tol_var)
 
 
 def _explain(ev: Evaluator, h: Hypothesis, healthy: Hypothesis, limit=4):
     out = []
     e = ev.ev
-    drop = ev.drop_cols(h.faults)
     z0 = e.residuals(healthy.predicted)
-    zh = e.residuals(h.predicted, drop, ev.weak(h.faults))
-    if ev.circuit.is_nonlinear and h.faults:
-        zh = _exact_residuals(ev, h, zh)
+    zh = _residuals(ev, h)
     label = " + ".join(describe_fault(ev.circuit, f) for f in h.faults) or "a healthy circuit"
     order = np.argsort(-np.abs(z0))
     n_for = 0

@@ -15,6 +15,7 @@ from dataclasses import replace
 import numpy as np
 
 from .engine.meter import simulate as meter_display
+from .engine.modelspread import model_parameters
 from .engine.oracle import oracle_readings
 from .model import QUANTITY_UNITS, Circuit, Reading
 from .units import format_value
@@ -24,8 +25,14 @@ __all__ = ["draw_board", "simulate_readings", "fault_overrides"]
 UNITS = QUANTITY_UNITS
 
 
-def draw_board(circuit: Circuit, rng) -> Circuit:
-    """A healthy board: every valued part drawn uniformly in log value within its tolerance."""
+def draw_board(circuit: Circuit, rng, model_spread: bool = False) -> Circuit:
+    """A healthy board: every valued part drawn uniformly in log value within its tolerance.
+
+    With ``model_spread`` the keys no tolerance covers (transistors' ``vbe``
+    and ``gain``, zeners' ``forward_voltage``) are also drawn uniformly in log
+    within :data:`~faultfind.engine.modelspread.MODEL_SPREAD`, after the
+    values (the values drawn from a given ``rng`` are the same either way).
+    """
     rng = np.random.default_rng(rng)
     parts = []
     for p in circuit.parts:
@@ -34,6 +41,12 @@ def draw_board(circuit: Circuit, rng) -> Circuit:
             continue
         lo, hi = np.log1p(-min(p.tol_low, 0.999)), np.log1p(p.tol_high)
         parts.append(replace(p, value=float(p.value * np.exp(rng.uniform(lo, hi)))))
+    if model_spread:
+        index = {p.ref: k for k, p in enumerate(parts)}
+        for ref, key, lo, hi in model_parameters(circuit):
+            k = index[ref]
+            f = np.exp(rng.uniform(np.log1p(-lo), np.log1p(hi)))
+            parts[k] = replace(parts[k], **{key: float(parts[k].junction(key) * f)})
     return replace(circuit, parts=tuple(parts))
 
 

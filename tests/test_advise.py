@@ -19,7 +19,9 @@ from faultfind.errors import InputError
 from faultfind.io.circuit_file import load_circuit
 from faultfind.io.meters_file import meters_with_default
 from faultfind.io.readings_file import load_readings
+from faultfind.engine.hypotheses import Fault, rank
 from faultfind.model import Circuit, Part
+from faultfind.simulate import draw_board, simulate_readings
 
 ROOT = Path(__file__).resolve().parents[1]
 CASES = ROOT / "field_cases"
@@ -64,6 +66,52 @@ def test_partial_overlap_against_numerical_integration():
     want = entropy_bits(p) - eh
     got = expected_information_gain(p, m[None, :], s[None, :])[0]
     assert_allclose(got, want, rtol=2e-3)
+
+
+def test_gain_over_groups_counts_only_which_group():
+    """Three equiprobable hypotheses a reading separates perfectly, two of
+    them one group (open and drift of one part): the reading tells the group,
+    H(2/3, 1/3) = 0.918 bit (Shannon entropy), not log2(3) = 1.585; two
+    hypotheses of one group alone give 0 bits."""
+    prob = np.full(3, 1.0 / 3)
+    mu = np.array([[0.0, 100.0, 200.0]])
+    sd = np.full((1, 3), 0.01)
+    want = -(2 / 3 * math.log2(2 / 3) + 1 / 3 * math.log2(1 / 3))
+    assert_allclose(expected_information_gain(prob, mu, sd, groups=[0, 0, 1]), [want], rtol=1e-6)
+    assert_allclose(expected_information_gain(prob, mu, sd), [math.log2(3)], rtol=1e-6)
+    assert_allclose(expected_information_gain([0.5, 0.5], mu[:, :2], sd[:, :2], groups=[4, 4]), [0.0],
+                    atol=1e-9)
+    # groups that are partly told apart: against the mixture of each group, by quadrature
+    p = np.array([0.3, 0.3, 0.4])
+    m = np.array([0.0, 0.8, 1.5])
+    s = np.array([0.6, 0.6, 0.5])
+    g = np.array([0, 0, 1])
+
+    def post_entropy_at(y):
+        like = p * norm.pdf(y, m, s)
+        q = np.array([like[g == k].sum() for k in (0, 1)]) / like.sum()
+        q = q[q > 0]
+        return -(q * np.log2(q)).sum() * like.sum()
+
+    eh, _ = integrate.quad(post_entropy_at, -15, 15, limit=200)
+    want = entropy_bits([0.6, 0.4]) - eh
+    assert_allclose(expected_information_gain(p, m[None, :], s[None, :], groups=g)[0], want, rtol=3e-3)
+    with pytest.raises(ValueError, match="groups"):
+        expected_information_gain(p, m[None, :], s[None, :], groups=[0, 1])
+
+
+def test_no_reading_is_advised_to_tell_one_parts_modes_apart():
+    """R1 open against R1 drifted to ten times its value: either way R1 is
+    replaced, so no reading is worth its effort; against R2 open, R1's two
+    modes together make one side of a 1-bit split."""
+    c = _divider()
+    one = [((Fault("R1", "open"),), 0.5), ((Fault("R1", "drift", 100e3),), 0.5)]
+    assert suggest(c, [], METERS, hypotheses=one) == []
+    two = [((Fault("R1", "open"),), 0.25), ((Fault("R1", "drift", 100e3),), 0.25),
+           ((Fault("R2", "open"),), 0.5)]
+    sug = suggest(c, [], METERS, hypotheses=two)
+    assert sug and sug[0].gain <= 1.0 + 1e-6
+    assert_allclose(sug[0].gain, 1.0, atol=0.02)
 
 
 def test_gain_rejects_bad_shapes_and_sd():
@@ -153,12 +201,31 @@ def test_suggest_works_on_every_field_case(case):
 
 
 def test_followed_advice_confirms_the_blown_fuse():
-    """On the booster pump panel (blown F1) the first advised reading separates F1
-    open from healthy: the reading across the fuse holder."""
+    """On the booster pump panel with F1 blown, following the advice from no
+    reading names F1 open within a few readings; every reading taken is a
+    live voltage reading (a blown fuse needs no isolation to be found), and
+    the first one already tells F1 open from healthy (behind an open fuse no
+    current flows, so no voltage drops across the contacts it feeds:
+    Kirchhoff's laws)."""
     c = load_circuit(CASES / "booster_pump_panel" / "circuit.toml")
-    sug = suggest(c, [], METERS, top=1)
-    rd = sug[0].reading
-    assert {rd.plus, rd.minus} == set(c.part("F1").nodes) or rd.part == "F1"
+    rng = np.random.default_rng(5)
+    board = draw_board(c, rng)
+    fault = ("F1", "open", None)
+    readings = []
+    for _ in range(4):
+        sug = suggest(c, readings, METERS, top=1)
+        rd = sug[0].reading
+        assert rd.quantity == "voltage" and sug[0].power == "on", rd
+        if not readings:
+            healthy = simulate_readings(c, [rd], METERS, [], rng=np.random.default_rng(1), board=board)[0]
+            blown = simulate_readings(c, [rd], METERS, [fault], rng=np.random.default_rng(1), board=board)[0]
+            assert abs(healthy.value) > 0.005 and abs(blown.value) < 0.001, (rd, healthy, blown)
+        readings += simulate_readings(c, [rd], METERS, [fault], rng=rng, board=board)
+        top = rank(c, readings, METERS).hypotheses[0]
+        if top.probability >= 0.95:
+            break
+    assert [(f.ref, f.mode) for f in top.faults] == [("F1", "open")]
+    assert top.probability >= 0.95
 
 
 def test_diagnose_json_carries_suggestions(capsys):

@@ -286,3 +286,87 @@ def test_large_board_screens_then_re_solves_the_leaders():
     assert rk.verdict == "fault"
     assert top_of(rk) == [("Q3", "base-emitter-open")], rk.hypotheses[:3]
     assert is_exact(ev, rk.hypotheses[0])          # the leader was re-solved in full
+
+
+# --------------------------------------------------------------------- re-solve speed-ups
+def test_base_emitter_open_starts_at_zero_and_settles_where_a_cold_start_does():
+    # the emitter lead open: no base current, the base at the divider 5 V * 10k / 12k2
+    # (common practice, as test_base_emitter_open_driver); the warm start from the healthy
+    # point (0.7 V across the junction) must reach the same point, in few iterations
+    from faultfind.engine.nonlinear import System
+    from faultfind.engine.semis import split_overrides
+    c = relay_driver()
+    healthy = System(c, "dc").solve()
+    c2, over = split_overrides(c, {"Q1": "base-emitter-open"})
+    s = System(c2, "dc", None, over)
+    warm = s.solve(healthy)
+    cold = s.solve(None)
+    n0 = s.net0.size     # the board's own unknowns (the open lead's inner node floats)
+    np.testing.assert_allclose(warm.x[:n0], cold.x[:n0], rtol=1e-7, atol=1e-9)
+    vb = warm.x[s.net.node_index["B"]]
+    np.testing.assert_allclose(vb, 5.0 * 10e3 / 12.2e3, rtol=1e-3)
+    assert warm.iterations <= 10
+
+
+def test_power_off_reading_from_the_healthy_solution_equals_the_cold_one():
+    # a diode test across the flyback diode with the driver's base-emitter shorted, from
+    # cold and warm-started from the healthy board's solution: the same display (about
+    # 0.6 V, a silicon junction forward at 1 mA; common practice) and sensitivities
+    from faultfind.engine.offnet import off_reading
+    from faultfind.engine.linpredict import parameters
+    from faultfind.engine.semis import split_overrides
+    c = relay_driver()
+    m = METERS["default"]
+    pindex = {r: j for j, r in enumerate(parameters(c))}
+    keep = {}
+    off_reading(c, "C", "+24V", "diode-test", m, {}, pindex, len(pindex), keep=keep)
+    c2, over = split_overrides(c, {"Q1": "base-emitter-short"})
+    v0, s0 = off_reading(c2, "C", "+24V", "diode-test", m, over, pindex, len(pindex))
+    v1, s1 = off_reading(c2, "C", "+24V", "diode-test", m, over, pindex, len(pindex),
+                         warm=keep["op"])
+    assert 0.4 < v0 < 0.8
+    np.testing.assert_allclose(v1, v0, rtol=1e-7)
+    # sensitivities at the two (equally settled) points: a few 1e-5 apart
+    np.testing.assert_allclose(s1, s0, rtol=1e-4, atol=1e-9)
+
+
+def test_full_solve_after_a_live_one_equals_a_fresh_full_solve():
+    # Exact.solve after solve_live reuses the live rows and solves only the power-off
+    # readings: the same displays and sensitivities as a full re-solve from scratch
+    from faultfind.engine.faults import Fault
+    from faultfind.engine.hypotheses import Evaluator
+    from faultfind.engine.junction_faults import Exact, _faulted, _key
+    c = relay_driver()
+    plan = [V("+24V"), V("B"), V("C"), DT(plus="B", minus="0V"), DT(part="D1")]
+    rd = planted(c, plan, ("Q1", "base-emitter-open", None), 21)
+    for f in (Fault("Q1", "base-emitter-short"), Fault("D1", "leaky", 1e4), Fault("Q1", "open")):
+        ev = Evaluator(c, rd, METERS)
+        a = Exact(ev)
+        live = a.solve_live([f])
+        assert not np.isnan(live[0]).any()
+        got = a.solve([f])
+        assert a._from_live(_key([f]), *_faulted(c, [f])) is not None   # the path taken
+        ref = Exact(Evaluator(c, rd, METERS)).solve([f])
+        np.testing.assert_allclose(got[0], ref[0], rtol=1e-9, atol=1e-12)
+        np.testing.assert_allclose(got[1], ref[1], rtol=1e-7, atol=1e-9)
+
+
+def test_displays_only_then_sensitivities_equal_a_fresh_full_solve():
+    # Exact.solve(sens=False) skips the power-off readings' sensitivity rows; the same
+    # displays as a full solve, and a later call wanting sensitivities fills those rows
+    # to what a fresh full solve gives
+    from faultfind.engine.faults import Fault
+    from faultfind.engine.hypotheses import Evaluator
+    from faultfind.engine.junction_faults import Exact
+    c = relay_driver()
+    plan = [V("+24V"), V("B"), V("C"), DT(plus="B", minus="0V"), DT(part="D1")]
+    rd = planted(c, plan, ("Q1", "base-emitter-open", None), 21)
+    for f in (Fault("Q1", "base-emitter-short"), Fault("D1", "leaky", 1e4), Fault("D1", "drift", 0.7)):
+        a = Exact(Evaluator(c, rd, METERS))
+        ref = Exact(Evaluator(c, rd, METERS)).solve([f])
+        vals = a.solve([f], sens=False)
+        np.testing.assert_allclose(vals[0], ref[0], rtol=1e-9, atol=1e-12)
+        assert np.all(vals[1][3:] == 0.0) and np.any(ref[1][3:] != 0.0)   # rows skipped
+        got = a.solve([f])
+        np.testing.assert_allclose(got[0], ref[0], rtol=1e-9, atol=1e-12)
+        np.testing.assert_allclose(got[1], ref[1], rtol=1e-7, atol=1e-9)

@@ -50,7 +50,8 @@ def print_suggestions(sug, circuit, have_readings) -> None:
     print(f"Next readings for: {circuit.title or circuit.source}"
           + ("" if have_readings else "  (no readings yet: first readings on a failed circuit)"))
     if not sug:
-        print("No reading would tell the remaining hypotheses apart.")
+        print("No reading would tell the remaining hypotheses apart (or only the ways one part "
+              "could have failed are left: one repair).")
         return
     for i, s in enumerate(sug, 1):
         state = "POWER ON (energized)" if s.power == "on" else "POWER OFF (isolated)"

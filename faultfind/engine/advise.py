@@ -36,8 +36,12 @@ def entropy_bits(p) -> float:
     return float(-(p * np.log2(p)).sum())
 
 
-def expected_information_gain(prob, mu, sd):
+def expected_information_gain(prob, mu, sd, groups=None):
     """Expected drop in the entropy of the hypothesis posterior, per candidate.
+
+    With ``groups``, the entropy is that of the posterior over the groups
+    (the hypotheses of one group summed): the information about which group
+    holds the fault, not about which hypothesis within it.
 
     Parameters
     ----------
@@ -49,11 +53,15 @@ def expected_information_gain(prob, mu, sd):
     sd : array_like, shape (C, K)
         Standard deviation of that reading under that hypothesis (> 0).
 
+    groups : array_like of int, shape (K,), optional
+        Group of each hypothesis (e.g. one per part: open, short and drift
+        of a part call for the same repair).
+
     Returns
     -------
     ndarray, shape (C,)
         Expected information gain in bits (0 when the reading cannot
-        separate any hypotheses).
+        separate any hypotheses, or with ``groups`` any groups).
     """
     prob = np.asarray(prob, dtype=float)
     mu = np.asarray(mu, dtype=float)
@@ -63,9 +71,19 @@ def expected_information_gain(prob, mu, sd):
     if np.any(sd <= 0) or not np.all(np.isfinite(sd)):
         raise ValueError("sd: must be positive and finite")
     keep = prob > 0
+    if groups is not None:
+        groups = np.asarray(groups)
+        if groups.shape != (keep.size,):
+            raise ValueError(f"groups: expected shape ({keep.size},), got {groups.shape}")
+        _, g = np.unique(groups[keep], return_inverse=True)
     prob, mu, sd = prob[keep] / prob[keep].sum(), mu[:, keep], sd[:, keep]
     C, K = mu.shape
-    h0 = entropy_bits(prob)
+    if groups is not None:
+        onehot = np.zeros((K, int(g.max()) + 1))
+        onehot[np.arange(K), g] = 1.0
+        h0 = entropy_bits(prob @ onehot)
+    else:
+        h0 = entropy_bits(prob)
     logp = np.log(prob)
     # y at quadrature nodes under each hypothesis j: (C, K_j, Q)
     y = mu[:, :, None] + sd[:, :, None] * _GH_X[None, None, :]
@@ -75,7 +93,12 @@ def expected_information_gain(prob, mu, sd):
     lp = ll + logp[None, None, None, :]
     lpost = lp - logsumexp(lp, axis=3, keepdims=True)
     post = np.exp(lpost)
-    h = -(post * lpost).sum(axis=3) / np.log(2)          # (C, K_j, Q)
+    if groups is None:
+        h = -(post * lpost).sum(axis=3) / np.log(2)      # (C, K_j, Q)
+    else:
+        gpost = post @ onehot                            # (C, K_j, Q, G)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            h = -np.where(gpost > 0, gpost * np.log(gpost), 0.0).sum(axis=3) / np.log(2)
     eh = (h * _GH_W[None, None, :]).sum(axis=2)         # (C, K_j)
     return np.clip(h0 - eh @ prob, 0.0, None)
 

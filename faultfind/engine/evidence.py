@@ -11,6 +11,12 @@ Uncertainty of a reading (docs/estimate.md):
   (GUM 5.1.2): covariance ``S P S^T`` with ``P`` the variance of each part's
   log-value (rectangular within its tolerance: ``half^2 / 3``).  The
   covariance is full, not diagonal: readings that share a part move together.
+* on a board with semiconductors, the model spread of the parts that have no
+  value (a transistor's ``vbe`` and ``gain``, a zener's forward voltage;
+  engine/modelspread.py, :data:`~.modelspread.MODEL_SPREAD`): their one-sigma effects
+  ``M`` add ``M M^T`` to the healthy covariance.  They are no parameters: no
+  hypothesis drops them; under a hypothesis they are rescaled with the
+  prediction like the tolerances.
 
 Under a fault hypothesis the tolerance spread of each reading is the healthy
 spread rescaled by the ratio of the faulted to the healthy prediction (a
@@ -74,9 +80,12 @@ class Evidence:
         Healthy sensitivities ``d display / d ln p``.
     tol_low, tol_high : ndarray, shape (m,)
         Parameter tolerances.
+    model_spread : ndarray, shape (n, k), optional
+        One-sigma effects of the model spread on the healthy displays
+        (:func:`~.modelspread.model_spread_columns`); none by default.
     """
 
-    def __init__(self, readings, meters, pred0, S0, tol_low, tol_high):
+    def __init__(self, readings, meters, pred0, S0, tol_low, tol_high, model_spread=None):
         n = len(readings)
         self.n = n
         self.y = np.zeros(n)
@@ -112,6 +121,12 @@ class Evidence:
         # healthy: the mean shift of asymmetric tolerances moves the expected reading
         self.shift0 = self.S0 @ centre
         self.T0 = weighted_gram(self.S0, self.var_p)
+        #: covariance of the model spread (zeros without one), part of ``T0``
+        self.T_model = np.zeros((n, n))
+        if model_spread is not None and np.size(model_spread):
+            M = np.nan_to_num(np.asarray(model_spread, dtype=float).reshape(n, -1))
+            self.T_model = M @ M.T
+            self.T0 = self.T0 + self.T_model
         d = np.sqrt(np.clip(np.diag(self.T0), 0, None))
         with np.errstate(divide="ignore", invalid="ignore"):
             rel = d / np.abs(self.pred0)
@@ -525,12 +540,17 @@ class Evidence:
             out += self._chi2_terms(P, var)[:, rest].sum(axis=1)
         return np.where(np.any(np.isnan(P), axis=1), np.inf, out)
 
-    def residuals(self, pred, drop=(), weak=None):
+    def residuals(self, pred, drop=(), weak=None, tol_var=None):
         """Standardized residual of each reading (diagonal covariance); 0 for OL consistent.
 
-        ``weak``: readings on cut-off nodes (see :meth:`stray`)."""
+        ``weak``: readings on cut-off nodes (see :meth:`stray`).  ``tol_var``:
+        the tolerance variance of each reading under the hypothesis (the
+        diagonal of its own covariance, e.g. from the faulted circuit's
+        sensitivities); default the healthy one rescaled to ``pred``."""
         pred = np.asarray(pred, dtype=float)
-        var = np.clip(np.diag(self.tol_cov(pred, drop)), 0, None) + self.u ** 2
+        if tol_var is None:
+            tol_var = np.diag(self.tol_cov(pred, drop))
+        var = np.clip(np.asarray(tol_var, dtype=float), 0, None) + self.u ** 2
         var = var + self.stray(pred, weak, var)[0][0]
         t = self._chi2_terms(pred[None, :], var)[0]
         with np.errstate(invalid="ignore"):

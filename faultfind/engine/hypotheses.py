@@ -37,6 +37,7 @@ from .estimate import weighted_gram
 from .evidence import Evidence
 from .faults import Fault
 from .limits import apply_limits
+from .modelspread import model_spread_columns
 from .oracle import oracle_readings
 from .predict import analysis_key, lifted_value, parameters, predict
 from .priors import HANDBOOK
@@ -329,7 +330,11 @@ class Evaluator(Board, DriftFits):
         self.share = share
         self.pred0 = nominal.value if self.n else np.zeros(0)
         self.S0 = nominal.sensitivity if self.n else np.zeros((0, len(self.params)))
-        self.ev = Evidence(self.readings, meters, self.pred0, self.S0, self.tol_low, self.tol_high)
+        # semiconductors' model spread (vbe, gain, zener forward voltage): no parameters,
+        # extra covariance (engine/spread.py); nothing on a linear board
+        ms = model_spread_columns(circuit, self.readings, meters, nominal) if self.n else None
+        self.ev = Evidence(self.readings, meters, self.pred0, self.S0, self.tol_low, self.tol_high,
+                           model_spread=ms)
         if self.offnl:   # the fast path's stand-in: what was read (.junction_faults re-solves)
             self.off_fill = np.where(self.ev.ol, np.inf, np.nan_to_num(self.ev.y))
 
@@ -351,8 +356,13 @@ class Evaluator(Board, DriftFits):
                           occam=occam)
 
     def exact(self, h: Hypothesis) -> Hypothesis:
-        """Re-score ``h`` with the faulted circuit's own sensitivities (one re-solve)."""
-        if not h.faults:
+        """Re-score ``h`` with the faulted circuit's own sensitivities (one re-solve).
+
+        A hypothesis predicted with a supply in current limit (:mod:`.limits`)
+        is returned as it is: the faulted circuit's sensitivities are those
+        of the supply holding its voltage, which would spread the limited
+        prediction by the full fault current."""
+        if not h.faults or h.limited:
             return h
         S = self.faulted_sensitivity(h.faults)
         if S is None or not np.all(np.isfinite(S)):
@@ -360,6 +370,8 @@ class Evaluator(Board, DriftFits):
         ev = self.ev
         T = weighted_gram(S, ev.var_p)
         pred = h.predicted
+        sc = ev._scales(pred)
+        T = T + ev.T_model * np.outer(sc, sc)
         num = (~ev.ol) & np.isfinite(pred)
         if not num.any():
             return h
@@ -640,6 +652,15 @@ def rank_with(ev: Evaluator, *, doubles=True, screen=None, progress=None) -> Ran
     for i in range(min(EXACT_TOP, len(hyps))):
         if i == 0 or hyps[i].log_post > lead - REFIT_WINDOW:
             hyps[i] = ev.exact(hyps[i])
+    # the leader's part in its other modes, on the same exact terms: the mode is
+    # decided on equal footing (an open beside a current source, scored on the
+    # healthy spread, can trail its own thousandfold drift scored exactly)
+    if len(hyps[0].faults) == 1:
+        ref = hyps[0].faults[0].ref
+        for i in range(1, min(FULL_TOP, len(hyps))):
+            h = hyps[i]
+            if not h.exact and len(h.faults) == 1 and h.faults[0].ref == ref:
+                hyps[i] = ev.exact(h)
     # supplies with a current limit: a fault drawing more is predicted in current limit
     hyps[:EXACT_TOP] = apply_limits(ev, hyps[:EXACT_TOP], EXACT_TOP)
     n = ev.n

@@ -134,6 +134,7 @@ class Exact:
     def __init__(self, ev):
         self.ev = ev
         self.cache = {}
+        self.vals = {}     # displays without the power-off readings' sensitivity rows
         self.solves = 0
         # Newton starts from the healthy operating point (the DC group predict() shared)
         share = getattr(ev, "share", None) or {}
@@ -145,24 +146,51 @@ class Exact:
         # what a first pass on a large board solves: the live and lifted readings
         self.cheap = [i for i, rd in enumerate(ev.readings)
                       if i in self.live_set or rd.setup == "lifted"]
+        # power-off readings' solutions on the healthy board, where their Newton solves
+        # on a faulted variant start (filled on first use: :meth:`_off_warm`)
+        self.off_warm = None
 
-    def solve(self, faults):
+    def _off_warm(self):
+        """The healthy board's power-off solutions by (plus, minus, quantity)."""
+        if self.off_warm is None:
+            self.off_warm = {}
+            ev = self.ev
+            off = [ev.readings[i] for i in range(ev.n) if i not in set(self.cheap)]
+            if off:
+                try:
+                    predict(ev.circuit, off, ev.meters, off_warm=self.off_warm)
+                except _ERRORS:
+                    pass     # a reading without a healthy solution starts from cold
+        return self.off_warm
+
+    def solve(self, faults, sens=True):
         """``(displays (n,), sensitivity (n, m))`` under ``faults``; NaN displays and
-        None when the faulted board cannot be solved."""
+        None when the faulted board cannot be solved.
+
+        ``sens`` False: only the displays are wanted (the sensitivity returned may lack
+        the power-off readings' rows, each of which costs a factorization); a later call
+        wanting them solves just those readings again (:meth:`_from_live`)."""
         key = _key(faults)
         got = self.cache.get(key)
         if got is not None:
             return got
+        if not sens:
+            got = self.vals.get(key)
+            if got is not None:
+                return got
         ev = self.ev
         circuit, overrides = _faulted(ev.circuit, faults)
         self.solves += 1
-        try:
-            got = self._solve(circuit, overrides, range(ev.n))
-        except _ERRORS:
-            got = self._piecewise(circuit, overrides)
-        if len(self.cache) > 4096:
-            self.cache.clear()
-        self.cache[key] = got
+        got = self._from_live(key, circuit, overrides, sens)
+        if got is None:
+            try:
+                got = self._solve(circuit, overrides, range(ev.n), sens)
+            except _ERRORS:
+                got = self._piecewise(circuit, overrides, sens)
+        store = self.cache if sens or got[1] is None else self.vals
+        if len(store) > 4096:
+            store.clear()
+        store[key] = got
         return got
 
     def solve_live(self, faults):
@@ -188,15 +216,44 @@ class Exact:
             self.cache[key] = got
         return got
 
-    def _solve(self, circuit, overrides, rows):
-        """Displays and sensitivities of the readings ``rows`` (raises when unsolvable)."""
+    def _from_live(self, key, circuit, overrides, sens=True):
+        """The full solve from a :meth:`solve_live` result (or, wanting sensitivities,
+        a displays-only one) already cached: its live and lifted rows (the same
+        operating point and linearisation a full solve computes) and the power-off
+        readings solved now (they need no operating point).  None when there is no such
+        result or the power-off solve fails (the caller solves it all)."""
+        cheap = set(self.cheap)
+        ev = self.ev
+        off = [i for i in range(ev.n) if i not in cheap]
+        have = self.vals.get(key) if sens else None
+        if have is not None and have[1] is not None:
+            live, reuse_off = have, not off
+        else:
+            live, reuse_off = self.cache.get(("live",) + key), False
+        if live is None or live[1] is None or np.isnan(live[0][self.cheap]).any():
+            return None
+        val, S = live[0].copy(), live[1].copy()
+        if reuse_off:
+            return val, S
+        try:
+            v, s = self._solve(circuit, overrides, off, sens)
+        except _ERRORS:
+            return None
+        val[off], S[off] = v[off], s[off]
+        return val, S
+
+    def _solve(self, circuit, overrides, rows, sens=True):
+        """Displays and sensitivities of the readings ``rows`` (raises when unsolvable);
+        ``sens`` False: the power-off readings' sensitivity rows left at zero."""
         ev = self.ev
         rows = list(rows)
         rds = [ev.readings[i] for i in rows]
         kw = {"warm": self.warm} if self.warm is not None else {}
+        if any(i not in self.live_set for i in rows):
+            kw["off_warm"] = self._off_warm()
         # predict() re-solves with the meter in the circuit where the meter loads a node
         # heavily (a pad above an open LED): docs/junction-models.md
-        pr = predict(circuit, rds, ev.meters, overrides=overrides, **kw)
+        pr = predict(circuit, rds, ev.meters, overrides=overrides, off_sens=sens, **kw)
         val = np.full(ev.n, np.nan)
         val[rows] = np.asarray(pr.value, dtype=float)
         S = np.zeros((ev.n, len(ev.params)))
@@ -205,7 +262,7 @@ class Exact:
         S[np.ix_(rows, [col[k] for k in have])] = np.asarray(pr.sensitivity, dtype=float)[:, have]
         return val, np.nan_to_num(S, nan=0.0, posinf=0.0, neginf=0.0)
 
-    def _piecewise(self, circuit, overrides):
+    def _piecewise(self, circuit, overrides, sens=True):
         """The readings of a faulted board one analysis at a time, when one of them has no
         solution (a power-off reading the engine cannot settle, a node left held only by
         junctions): the live readings together, each power-off reading alone.  A reading
@@ -216,7 +273,7 @@ class Exact:
         val, S = np.full(ev.n, np.nan), np.zeros((ev.n, len(ev.params)))
         if self.live:
             try:
-                v, s = self._solve(circuit, overrides, self.live)
+                v, s = self._solve(circuit, overrides, self.live, sens)
             except _ERRORS:
                 return val, None
             val[self.live], S[self.live] = v[self.live], s[self.live]
@@ -225,7 +282,7 @@ class Exact:
             fill = np.full(ev.n, np.nan)
         for i in off:
             try:
-                v, s = self._solve(circuit, overrides, [i])
+                v, s = self._solve(circuit, overrides, [i], sens)
                 val[i], S[i] = v[i], s[i]
             except _ERRORS:
                 val[i] = fill[i]
@@ -241,7 +298,7 @@ def _exact(ev) -> Exact:
 
 def exact_faults(board, faults):
     """Displays of ``board``'s readings under ``faults`` by an exact nonlinear re-solve."""
-    return _exact(board).solve(list(faults))[0]
+    return _exact(board).solve(list(faults), sens=False)[0]
 
 
 def exact_sensitivity(ev, faults):
@@ -307,7 +364,7 @@ def fit_junction_drift(ev, part, exact=True):
     if j < 0 or info < 1e-6:   # the readings do not see this junction's value
         rho = hi
         f = Fault(part.ref, "drift", float(part.value * np.exp(rho)), seen=False)
-        return f, ex.solve([f])[0], None, 0.0
+        return f, ex.solve([f], sens=False)[0], None, 0.0
     r0 = np.where(w > 0, y - np.where(np.isfinite(ev.healthy_prediction()), ev.healthy_prediction(), 0.0), 0.0)
     rho = float(np.clip(np.sum(w * s0 * r0) / info, lo, hi))
     if not exact:
@@ -369,7 +426,7 @@ def fit_leak(ev, part, refine=True):
         x = float(np.clip(x, lo, hi))
         if x not in seen:
             f = Fault(part.ref, "leaky", float(np.exp(x)))
-            pred, _ = ex.solve([f])
+            pred, _ = ex.solve([f], sens=False)
             c2 = np.inf if np.isnan(pred).any() else float(_chi2(ev, pred, j)[0])
             seen[x] = (c2, f, pred)
         return seen[x]
@@ -461,7 +518,8 @@ def junction_first_pass(ev, parts):
                 cands.append(fit_leak(ev, p, refine=full))
             else:
                 f = Fault(p.ref, mode)
-                cands.append((f, (ex.solve if full else ex.solve_live)([f])[0], None, 0.0))
+                cands.append((f, (ex.solve([f], sens=False) if full else ex.solve_live([f]))[0],
+                              None, 0.0))
     return cands
 
 
@@ -483,7 +541,7 @@ def nonlinear_candidates(ev, parts, linear_candidates):
         cands = []
         for p, m in discrete:
             f = Fault(p.ref, m)
-            cands.append((f, ex.solve([f])[0], None, 0.0))
+            cands.append((f, ex.solve([f], sens=False)[0], None, 0.0))
         cands += ev.fit_drifts([p for p in lin if "drift" in p.fault_modes])
     else:
         cands = linear_candidates(ev, lin)
@@ -498,7 +556,9 @@ def is_exact(ev, h) -> bool:
     if (len(h.faults) == 1 and h.faults[0].mode == "leaky"
             and len(ev.circuit.parts) > FULL_FIT_PARTS and not getattr(h, "_refined", False)):
         return False
-    return _key(h.faults) in _exact(ev).cache
+    ex = _exact(ev)
+    key = _key(h.faults)
+    return key in ex.cache or key in ex.vals
 
 
 def rescore_leaders(ev, hyps, top=NONLINEAR_TOP):

@@ -33,7 +33,10 @@ the predictions and sensitivities use (engine/semis.py).  A warm start
 (``warm=`` an earlier :class:`OperatingPoint` or its :meth:`~OperatingPoint.voltages`)
 starts Newton from the element voltages of a nearby solution (matched by
 part and element name), so a faulted variant close to the healthy board
-settles in a few iterations.
+settles in a few iterations.  The base-emitter junction of a transistor whose
+emitter lead is open starts at 0 V instead (``System.zero_start``): its far
+side floats and settles there, and from 0.7 V Newton walks down one ``n Vt``
+per iteration.
 
 Linear circuits never come here (``Circuit.is_nonlinear`` is false).
 """
@@ -105,6 +108,24 @@ class OperatingPoint:
         return dict(zip(self.keys, self.v.tolist()))
 
 
+#: Devices built from (part, override) pairs, by the part's identity: every re-solve of a
+#: faulted variant builds the same devices again (the parts are immutable).
+_DEVICES: dict = {}
+
+
+def _device(part, override):
+    """:func:`~.junctions.device`, cached (the part kept, so its id is not reused)."""
+    key = (id(part), override)
+    hit = _DEVICES.get(key)
+    if hit is not None and hit[0] is part:
+        return hit[1]
+    dev = device(part, override)
+    if len(_DEVICES) >= 4096:
+        _DEVICES.clear()
+    _DEVICES[key] = (part, dev)
+    return dev
+
+
 class System:
     """The nonlinear network of one analysis of a circuit.
 
@@ -163,6 +184,11 @@ class System:
                     lr.append(r); lc.append(c); lv.append(s)
 
         els: list = []
+        #: elements Newton starts at 0 V whatever the warm start says: the base-emitter
+        #: junction of a transistor whose emitter lead is open (its far side floats, held
+        #: by that junction alone, so it settles at 0 V; from a healthy 0.7 V Newton walks
+        #: down one n Vt per iteration, about 30 iterations)
+        self.zero_start = set()
         self.devices = {}
         self.probe_u = None
         self.probe_open = False
@@ -174,9 +200,9 @@ class System:
             if p.kind in _KEY_TWO:
                 if ov in ("open", "short"):
                     continue
-                dev = device(p, ov if isinstance(ov, tuple) else None)
+                dev = _device(p, ov if isinstance(ov, tuple) else None)
             else:
-                dev = device(p, ov)
+                dev = _device(p, ov)
             roles = {}
             for role, node in dev.terminals.items():
                 if node is None:
@@ -217,6 +243,8 @@ class System:
                     if r >= 0 and c_ >= 0:
                         lr.append(r); lc.append(c_); lv.append(s_)
             for el in dev.elements:
+                if ov == "base-emitter-open" and el.name == "forward":
+                    self.zero_start.add(len(els))
                 els.append((p.ref, el, roles))
             self.devices[p.ref] = (dev, roles)
         for na, nb, g in loads:     # a meter's input resistance across two nodes
@@ -330,6 +358,31 @@ class System:
 
     def matrix(self, g, gmin=0.0, lin_vals=None):
         """The linearized matrix: linear part + element conductances ``g`` + ``gmin`` on node diagonals."""
+        data = self._values(g, gmin, lin_vals)
+        J = getattr(self, "_J", None)
+        if J is None or J.dtype != data.dtype:
+            J = self._J = sp.csc_matrix((data, self._indices, self._indptr),
+                                        shape=(self.size, self.size))
+            return J.copy()
+        J = J.copy()     # a new matrix object sharing the pattern (no format checks)
+        J.data = data
+        return J
+
+    def _work_matrix(self, g, gmin=0.0):
+        """:meth:`matrix` written into one matrix object kept for Newton's iterations
+        (factored at once and not kept: no new object, no format checks, per iteration)."""
+        data = self._values(g, gmin)
+        J = getattr(self, "_Jw", None)
+        if J is None or J.dtype != data.dtype or J.indices is not self._indices:
+            J = self._Jw = sp.csc_matrix((data, self._indices, self._indptr),
+                                         shape=(self.size, self.size), copy=False)
+            J.indices = self._indices
+        else:
+            J.data[:] = data
+        return J
+
+    def _values(self, g, gmin=0.0, lin_vals=None):
+        """The matrix's nonzero values in the pattern's order."""
         lin = self.lin_vals if lin_vals is None else lin_vals
         dev = (self._ew * self._es[None, :] * np.asarray(g)[:, None])[self._emask] if len(g) else np.zeros(0)
         diag = np.full(len(self.n_nodes), gmin)
@@ -339,14 +392,7 @@ class System:
                     + 1j * np.bincount(self._inv, weights=vals.imag, minlength=self._nuniq))
         else:
             data = np.bincount(self._inv, weights=vals, minlength=self._nuniq)
-        J = getattr(self, "_J", None)
-        if J is None or J.dtype != data.dtype:
-            J = self._J = sp.csc_matrix((data, self._indices, self._indptr),
-                                        shape=(self.size, self.size))
-            return J.copy()
-        J = J.copy()     # a new matrix object sharing the pattern (no format checks)
-        J.data = data
-        return J
+        return data
 
     def control(self, x):
         """Element control voltages of a solution ``x``."""
@@ -380,6 +426,8 @@ class System:
             for k, key in enumerate(self.keys):
                 if key in w:
                     v[k] = w[key]
+        for k in self.zero_start:
+            v[k] = 0.0
         return v
 
     def _newton(self, v, b, gmin=0.0, maxiter=MAXITER):
@@ -389,7 +437,7 @@ class System:
         x = None
         for it in range(1, maxiter + 1):
             i, g = law(v, self.log_is, self.nvt)
-            J = self.matrix(g, gmin)
+            J = self._work_matrix(g, gmin)
             rhs = self.companion_rhs(b, i, g, v)
             try:
                 x = splu(J, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.1,

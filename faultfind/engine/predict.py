@@ -21,7 +21,7 @@ _ = _lifted  # re-exported for engine/faulted.py
 
 
 def predict(circuit: Circuit, readings, meters: dict, overrides: dict | None = None, *,
-            share: dict | None = None, warm=None) -> Prediction:
+            share: dict | None = None, warm=None, off_warm=None, off_sens=True) -> Prediction:
     """Predict the meter displays of ``readings`` on ``circuit``.
 
     Parameters
@@ -48,6 +48,13 @@ def predict(circuit: Circuit, readings, meters: dict, overrides: dict | None = N
         Circuits with semiconductors: element voltages to start Newton from
         (an earlier prediction's ``operating_point``).  Ignored for a linear
         circuit.
+    off_warm : dict, optional
+        Circuits with semiconductors: power-off readings' solutions to start
+        from, filled as they are solved (engine/semis.py).  Ignored for a
+        linear circuit.
+    off_sens : bool, optional
+        Circuits with semiconductors: False leaves the power-off readings'
+        sensitivity rows at zero (values unchanged, no factorization each).
 
     Returns
     -------
@@ -67,4 +74,5 @@ def predict(circuit: Circuit, readings, meters: dict, overrides: dict | None = N
     """
     if not circuit.is_nonlinear:
         return predict_linear(circuit, readings, meters, overrides, share=share)
-    return predict_nonlinear(circuit, readings, meters, overrides, share=share, warm=warm)
+    return predict_nonlinear(circuit, readings, meters, overrides, share=share, warm=warm, off_warm=off_warm,
+                             off_sens=off_sens)

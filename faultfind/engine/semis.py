@@ -317,12 +317,18 @@ def _meter_shifts_operating_point(grp, readings, idx, meters, value):
 
 
 def predict_nonlinear(circuit: Circuit, readings, meters: dict, overrides: dict | None = None, *,
-                      share: dict | None = None, warm=None) -> Prediction:
+                      share: dict | None = None, warm=None, off_warm=None,
+                      off_sens=True) -> Prediction:
     """:func:`faultfind.engine.predict.predict` for a circuit with semiconductors.
 
     ``warm``: an earlier prediction's ``operating_point`` (or an
     OperatingPoint) to start Newton from.  ``share`` holds the DC group under
     ``("dc", None)`` and AC groups under ``("ac", f)`` as the linear path does.
+    ``off_warm``: a dict of power-off readings' solutions by ``(plus, minus,
+    quantity)`` to start their Newton solves from; a reading not in it is
+    solved from cold and its solution added (engine/offnet.py).
+    ``off_sens`` False: the power-off readings' sensitivity rows are left at
+    zero (their values are the same; each row costs a factorization).
 
     Raises
     ------
@@ -350,7 +356,15 @@ def predict_nonlinear(circuit: Circuit, readings, meters: dict, overrides: dict 
             value[i], sens[i] = _lifted(c, rd, pindex, npar, over, meter)
         elif key[0] == "off":
             plus, minus = c.part(rd.part).nodes[:2] if rd.part is not None else (rd.plus, rd.minus)
-            value[i], sens[i] = off_reading(c, plus, minus, rd.quantity, meter, over, pindex, npar)
+            okey = (plus, minus, rd.quantity)
+            hold = {} if off_warm is not None and okey not in off_warm else None
+            v, s = off_reading(c, plus, minus, rd.quantity, meter, over, pindex,
+                               npar if off_sens else 0, warm=(off_warm or {}).get(okey), keep=hold)
+            value[i] = v
+            if off_sens:
+                sens[i] = s
+            if hold and "op" in hold:
+                off_warm[okey] = hold["op"]
         else:
             by_key.setdefault(key, []).append(i)
     dc = None

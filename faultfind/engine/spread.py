@@ -28,6 +28,15 @@ only the junctions' values (forward and zener voltages, whose effect is
 exponential) are moved so; the linear parts take the linear treatment on
 the linearization at the operating point (engine/semis.py).  Diode-test
 readings on a linear circuit are moved by re-solves too.
+
+Model spread (nonlinear boards only).  A transistor has no value and a
+zener's forward voltage is no parameter, yet real parts spread from one to
+the next: each transistor's ``vbe`` and ``gain`` and each zener's
+``forward_voltage`` is moved over :data:`~.modelspread.MODEL_SPREAD` exactly (re-solves of
+the healthy board, as a junction's value), and enters the band as one more
+independent part.  These are not fault-hypothesis parameters (no estimate,
+no hypothesis); :func:`~.modelspread.model_spread_columns` gives their one-sigma effect
+for the evidence's covariance (engine/evidence.py).
 """
 
 from __future__ import annotations
@@ -37,12 +46,12 @@ import numpy as np
 from ..errors import SolveError
 from .bands import COVERAGE_FACTOR, log_tolerance
 from .hypotheses import Board
+from .modelspread import _model_resolved, _ol_top, model_parameters
 from .predict import predict
 
 __all__ = ["tolerance_bands"]
 
 _NODES, _WEIGHTS = np.polynomial.legendre.leggauss(6)
-
 
 def _combine(mean, var, lo_sum, hi_sum, one_lo, one_hi):
     sd = np.sqrt(np.clip(var, 0, None))
@@ -71,6 +80,28 @@ def _resolved(circuit, readings, meters, part, factors, rows, y0, warm):
             top = min(m.diode_test_max, m.diode_test_voltage)
             P[:, i] = np.where(np.isinf(P[:, i]), top, P[:, i])
     return P
+
+
+def _accumulate(acc, P, yf, same_sign):
+    """Add one independent part's exact effect ``P`` (Gauss-Legendre nodes, then
+    its two limits, by nominal display ``yf``) to the accumulators; returns the
+    updated same-sign mask."""
+    P = np.where(np.isfinite(P), P, yf)
+    d = P - yf
+    same_sign = same_sign & np.all(np.sign(P) == np.sign(yf), axis=0)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        g = np.where(same_sign, np.log(np.abs(P) / np.where(same_sign, np.abs(yf), 1.0)), 0.0)
+    for key, D in (("", d), ("g", g)):
+        q = D[: len(_NODES)]
+        m = (_WEIGHTS[:, None] * q).sum(axis=0) / 2.0
+        v = (_WEIGHTS[:, None] * q ** 2).sum(axis=0) / 2.0 - m ** 2
+        acc[key + "m"] += m
+        acc[key + "v"] += np.clip(v, 0, None)
+        acc[key + "lo"] += D.min(axis=0)
+        acc[key + "hi"] += D.max(axis=0)
+        acc[key + "olo"] = np.minimum(acc[key + "olo"], D.min(axis=0))
+        acc[key + "ohi"] = np.maximum(acc[key + "ohi"], D.max(axis=0))
+    return same_sign
 
 
 def tolerance_bands(circuit, readings, meters, significant=0.01):
@@ -139,22 +170,16 @@ def tolerance_bands(circuit, readings, meters, significant=0.01):
                               pred.operating_point)
             else:
                 P = board.predict_fault(part, "drift", np.exp(rho))
-            P = np.where(np.isfinite(P), P, yf)
             P = np.where(E[:, j][None, :], P, yf)      # only the readings it is significant for
-            d = P - yf
-            same_sign &= np.all(np.sign(P) == np.sign(yf), axis=0)
-            with np.errstate(divide="ignore", invalid="ignore"):
-                g = np.where(same_sign, np.log(np.abs(P) / np.where(same_sign, np.abs(yf), 1.0)), 0.0)
-            for key, D in (("", d), ("g", g)):
-                q = D[: len(_NODES)]
-                m = (_WEIGHTS[:, None] * q).sum(axis=0) / 2.0
-                v = (_WEIGHTS[:, None] * q ** 2).sum(axis=0) / 2.0 - m ** 2
-                acc[key + "m"] += m
-                acc[key + "v"] += np.clip(v, 0, None)
-                acc[key + "lo"] += D.min(axis=0)
-                acc[key + "hi"] += D.max(axis=0)
-                acc[key + "olo"] = np.minimum(acc[key + "olo"], D.min(axis=0))
-                acc[key + "ohi"] = np.maximum(acc[key + "ohi"], D.max(axis=0))
+            same_sign = _accumulate(acc, P, yf, same_sign)
+    # model spread of the semiconductors (no value, no parameter): each key is
+    # moved over its spread exactly, on every reading, as one more independent part
+    for ref, key, lo, hi in model_parameters(circuit):
+        c, h = log_tolerance(lo, hi)
+        rho = np.concatenate([c + h * _NODES, [c - h, c + h]])
+        P = _model_resolved(circuit, readings, meters, ref, key, np.exp(rho), yf,
+                            pred.operating_point)
+        same_sign = _accumulate(acc, P, yf, same_sign)
     low_l, high_l, sd_l = _combine(acc["m"], acc["v"], acc["lo"], acc["hi"], acc["olo"], acc["ohi"])
     low_g, high_g, sd_g = _combine(acc["gm"], acc["gv"], acc["glo"], acc["ghi"], acc["golo"], acc["gohi"])
     ay = np.abs(yf)

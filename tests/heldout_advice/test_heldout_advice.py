@@ -10,7 +10,10 @@
   resistance by its nodes instead of its part, the current of a part in
   series with the one read), is not suggested again;
 * the conditional prediction of a candidate given the readings taken,
-  against a dense Gaussian conditional written here.
+  against a dense Gaussian conditional written here;
+* a string of contacts in series is read across in one go before contact
+  by contact (its gain against Shannon's entropy of the split it makes);
+  unseen drifts are weighed across their range.
 
 The boards are invented scenarios.
 """
@@ -23,7 +26,8 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
-from faultfind.advise import CURRENT_RANGE, suggest
+from faultfind.advise import CURRENT_RANGE, _spread_unseen, candidate_readings, contact_strings, suggest
+from faultfind.engine.drifts import RESISTOR_FLOOR
 from faultfind.engine.advise import condition_on_taken, expected_information_gain
 from faultfind.engine.hypotheses import Fault
 from faultfind.io.circuit_file import load_circuit, parse_circuit
@@ -199,3 +203,61 @@ def test_condition_rejects_inconsistent_shapes():
     with pytest.raises(ValueError, match="shapes"):
         condition_on_taken(np.zeros((2, 2)), np.ones((2, 3)), np.ones((2, 2)), np.zeros((2, 1)),
                            np.ones(1), np.array([1]), np.array([0.0]))
+
+
+# ---------------------------------------------------------------- strings of contacts
+
+def _entropy(*p):
+    p = np.array(p, dtype=float)
+    return float(-(p * np.log2(p)).sum())
+
+
+def test_contact_strings_follow_series_contacts_only():
+    """S1-S2-S3 feed KM1 in series (R1 on G1 does not break the string: the
+    contacts still carry the coil's current between them); S4-S5 feed KA1.
+    The rail joins three contacts and F1: a branch point, so no run goes
+    through it (S3 to S4 are not in series).  The plus end is the supply's."""
+    c = load_circuit(HERE / "interlock_string.toml")
+    runs = {(a, b): refs for a, b, refs in contact_strings(c)}
+    assert runs == {("+24V", "COIL"): ("S1", "S2", "S3"), ("+24V", "G2"): ("S1", "S2"),
+                    ("G1", "COIL"): ("S2", "S3"), ("+24V", "ALARM"): ("S4", "S5")}
+    labels = [r.label for r in candidate_readings(c)]
+    assert "across S1 + S2 + S3" in labels and "across S4 + S5" in labels
+
+
+def test_reading_across_the_string_first_when_any_contact_may_be_high():
+    """Healthy 0.7 against one of three series contacts drifted to 2 ohm, 0.1
+    each.  Across the whole string a healthy board reads I x 3 x 50 mOhm,
+    about 33 mV (Ohm's law, I = 24 V / (120 || 1200 ohm)), and any high
+    contact some 0.4 V more: that one reading settles healthy against "a
+    contact is high", H(0.7, 0.3) = 0.881 bit (Shannon entropy), where a
+    reading across one contact gains only H(0.9, 0.1) = 0.469 bit and across
+    two H(0.8, 0.2) = 0.722 bit.  Half-splitting (common practice, no source)."""
+    c = load_circuit(HERE / "interlock_string.toml")
+    hyps = [((), 0.7)] + [(_h((ref, "drift", 2.0)), 0.1) for ref in ("S1", "S2", "S3")]
+    sug = suggest(c, [], METERS, hypotheses=hyps, top=10)
+    first = sug[0].reading
+    assert (first.quantity, first.plus, first.minus) == ("voltage", "+24V", "COIL"), first
+    assert_allclose(sug[0].gain, _entropy(0.7, 0.3), atol=0.01)
+    i_coil = 24.0 / (120.0 * 1200.0 / 1320.0)
+    assert f"it reads {3 * 0.05 * i_coil * 1e3:.0f} mV" in sug[0].why
+    gains = {s.reading.label: s.gain for s in sug}
+    assert_allclose(gains["across S1 + S2"], _entropy(0.8, 0.2), atol=0.01)
+    assert_allclose(gains["across S2"], _entropy(0.9, 0.1), atol=0.01)
+
+
+def test_unseen_drift_is_weighed_across_its_range():
+    """A drift no reading sees stands for any value in its range: four values
+    (quarter points of each side of the band) with the mass conserved, all
+    outside the tolerance band and inside the diagnosis's drift range."""
+    c = load_circuit(HERE / "interlock_string.toml")
+    hyps = [((), 0.5), ((Fault("S2", "drift", 50.0, seen=False),), 0.3),
+            ((Fault("R1", "drift", 1e7, seen=False),), 0.2)]
+    out = _spread_unseen(c, hyps)
+    assert_allclose(sum(p for _, p in out), 1.0, rtol=1e-12)
+    s2 = [f[0].value for f, _ in out if f and f[0].ref == "S2"]
+    r1 = [f[0].value for f, _ in out if f and f[0].ref == "R1"]
+    assert len(s2) == 2 and all(0.05 * 1.5 < v <= 0.05 * 1000 for v in s2)   # a contact only goes high
+    assert len(r1) == 4 and sum(v < 10e3 * 0.95 for v in r1) == 2
+    assert all(10e3 * RESISTOR_FLOOR <= v <= 10e3 * 1e3 for v in r1)
+    assert all(f[0].seen for f, _ in out if f)

@@ -2,7 +2,9 @@
 
 Outside reference: the Monte Carlo method of JCGM 101:2008 (GUM Supplement 1):
 draw every part's value from the distribution faultfind documents (uniform on
-a log scale inside its tolerance, GUM 4.3.7), solve the full nonlinear circuit
+a log scale inside its tolerance, GUM 4.3.7; the transistor's vbe and gain and
+the zener's forward voltage likewise inside their model spread,
+engine/modelspread.py), solve the full nonlinear circuit
 for each draw (Newton's method to convergence, the meter in place), and count
 how often the reading falls inside the band ``expect`` gives.  A ~95 % band
 should hold at least 90 % of 600 draws (binomial standard error about 0.9 %)
@@ -52,7 +54,7 @@ def test_bands_cover_the_monte_carlo_spread_of_the_nonlinear_board():
     low = np.array([e.low for e in exp])
     high = np.array([e.high for e in exp])
     rng = np.random.default_rng(20261204)
-    vals = np.array([predict(draw_board(BOARD, rng), READINGS, METERS).value for _ in range(N_DRAWS)])
+    vals = np.array([predict(draw_board(BOARD, rng, model_spread=True), READINGS, METERS).value for _ in range(N_DRAWS)])
     inside = (vals >= low - 1e-12 * np.abs(low)) & (vals <= high + 1e-12 * np.abs(high))
     # an OL diode test is inside a band that reaches the display's top (a healthy LED
     # drawn high in its tolerance shows OL on a 2 V diode test)

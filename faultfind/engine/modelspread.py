@@ -74,12 +74,14 @@ def _ol_top(readings, meters, P, idx):
     return P
 
 
-def _model_resolved(circuit, readings, meters, ref, key, factors, y0, warm):
-    """Displays with model ``key`` of ``ref`` at each factor (exact re-solves)."""
+def _model_resolved(circuit, readings, meters, ref, key, factors, y0, warm, off_warm=None):
+    """Displays with model ``key`` of ``ref`` at each factor (exact re-solves; values
+    only, power-off readings warm-started from ``off_warm``)."""
     P = np.tile(np.asarray(y0, dtype=float), (len(factors), 1))
     for k, f in enumerate(factors):
         try:
-            P[k] = predict(_with_key(circuit, ref, key, f), readings, meters, warm=warm).value
+            P[k] = predict(_with_key(circuit, ref, key, f), readings, meters, warm=warm,
+                           off_warm=off_warm, off_sens=False).value
         except SolveError:
             P[k] = np.nan
     return _ol_top(readings, meters, P, range(len(readings)))
@@ -117,11 +119,14 @@ def model_spread_columns(circuit, readings, meters, pred=None):
     y0 = np.asarray(pred.value, dtype=float)
     yf = np.where(np.isfinite(y0), y0, 0.0)
     cols = np.zeros((len(readings), len(mp)))
+    # power-off readings start from the first re-solve's solution of the same reading
+    off_warm = {}
     for j, (ref, key, lo, hi) in enumerate(mp):
         c, h = log_tolerance(lo, hi)
         s = float(h) / np.sqrt(3.0)
         P = _model_resolved(circuit, readings, meters, ref, key,
-                            np.exp([float(c) + s, float(c) - s]), yf, pred.operating_point)
+                            np.exp([float(c) + s, float(c) - s]), yf, pred.operating_point,
+                            off_warm)
         d = (P[0] - P[1]) / 2.0
         cols[:, j] = np.where(np.isfinite(d) & np.isfinite(y0), d, 0.0)
     return cols

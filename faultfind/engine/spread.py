@@ -174,11 +174,12 @@ def tolerance_bands(circuit, readings, meters, significant=0.01):
             same_sign = _accumulate(acc, P, yf, same_sign)
     # model spread of the semiconductors (no value, no parameter): each key is
     # moved over its spread exactly, on every reading, as one more independent part
+    off_warm = {}   # power-off readings start from the first re-solve's solution
     for ref, key, lo, hi in model_parameters(circuit):
         c, h = log_tolerance(lo, hi)
         rho = np.concatenate([c + h * _NODES, [c - h, c + h]])
         P = _model_resolved(circuit, readings, meters, ref, key, np.exp(rho), yf,
-                            pred.operating_point)
+                            pred.operating_point, off_warm)
         same_sign = _accumulate(acc, P, yf, same_sign)
     low_l, high_l, sd_l = _combine(acc["m"], acc["v"], acc["lo"], acc["hi"], acc["olo"], acc["ohi"])
     low_g, high_g, sd_g = _combine(acc["gm"], acc["gv"], acc["glo"], acc["ghi"], acc["golo"], acc["gohi"])

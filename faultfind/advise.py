@@ -482,6 +482,10 @@ def _suggest(circuit, readings, meters, hypotheses, costs, power, top, factors, 
         cands = [c for c in cands if _solvable(circuit, c, meters)]
     if not cands or len(kept) < 2:
         return []
+    if len(set(_repair_groups(kept).tolist())) < 2:
+        # only one part's modes are left: no reading changes what to repair (the gain
+        # over repair groups is zero), so none is advised - without the work of weighing
+        return []
     seen = [r for r in readings if r.value is not None and r.overrange == 0
             and math.isfinite(r.value)]
     supplies = [p for p in circuit.parts if p.kind == "voltage-source" and p.current_limit]

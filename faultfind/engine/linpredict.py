@@ -215,6 +215,20 @@ def _memo_key(rd, meter, dtype):
     return ("i", rd.part, meter.current_shunt, dtype.char)
 
 
+def _reading_vectors(part, N, dtype):
+    """The reading vectors ``u`` of one block of ``(row, entries)`` columns (a node
+    pair or one branch each, entries ``(unknown index, +-1)``), as their nonzero
+    entries ``(er, ec, ev)`` and as the dense ``N x len(part)`` matrix ``U``."""
+    er = np.array([k for _, ent in part for k, _ in ent], dtype=np.int64)
+    ec = np.array([q for q, (_, ent) in enumerate(part) for _ in ent], dtype=np.int64)
+    ev = np.array([v for _, ent in part for _, v in ent], dtype=float)
+    on = er >= 0                      # the ground node has no row
+    er, ec, ev = er[on], ec[on], ev[on]
+    U = np.zeros((N, len(part)), dtype=dtype)
+    np.add.at(U, (er, ec), ev)
+    return er, ec, ev, U
+
+
 def _live_block(circuit, grp, readings, idx, meters, npar, pindex, value, sens, memo=None, store=False):
     """Live readings of one analysis: block solves, then vectorized gradients.
 
@@ -266,14 +280,7 @@ def _live_block(circuit, grp, readings, idx, meters, npar, pindex, value, sens, 
     for c0 in range(0, len(cols), _BLOCK):
         part = cols[c0:c0 + _BLOCK]
         rows = [i for i, _ in part]
-        # the reading vectors u (a node pair or one branch each), kept as their entries
-        er = np.array([k for _, ent in part for k, _ in ent], dtype=np.int64)
-        ec = np.array([q for q, (_, ent) in enumerate(part) for _ in ent], dtype=np.int64)
-        ev_ = np.array([v for _, ent in part for _, v in ent], dtype=float)
-        on = er >= 0                      # the ground node has no row
-        er, ec, ev_ = er[on], ec[on], ev_[on]
-        U = np.zeros((N, len(part)), dtype=net.A.dtype)
-        np.add.at(U, (er, ec), ev_)
+        er, ec, ev_, U = _reading_vectors(part, N, net.A.dtype)
         W, Mu = lu.solve_both(U)
         alpha = np.array(alphas[c0:c0 + _BLOCK], dtype=complex)
         s = np.array(ss[c0:c0 + _BLOCK], dtype=complex)
@@ -327,14 +334,7 @@ def _ohms_block(circuit, grp, readings, idx, npar, value, sens, meters=None):
     for c0 in range(0, len(cols), _BLOCK):
         part = cols[c0:c0 + _BLOCK]
         rows = [i for i, _ in part]
-        # the reading vectors u (a node pair or one branch each), kept as their entries
-        er = np.array([k for _, ent in part for k, _ in ent], dtype=np.int64)
-        ec = np.array([q for q, (_, ent) in enumerate(part) for _ in ent], dtype=np.int64)
-        ev_ = np.array([v for _, ent in part for _, v in ent], dtype=float)
-        on = er >= 0                      # the ground node has no row
-        er, ec, ev_ = er[on], ec[on], ev_[on]
-        U = np.zeros((N, len(part)), dtype=net.A.dtype)
-        np.add.at(U, (er, ec), ev_)
+        er, ec, ev_, U = _reading_vectors(part, N, net.A.dtype)
         W, Mu = lu.solve_both(U)
         z = np.zeros(len(part), dtype=np.result_type(U.dtype, W.dtype))
         np.add.at(z, ec, ev_ * W[er, ec])

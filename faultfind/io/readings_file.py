@@ -465,9 +465,7 @@ def diode_test_allowance(profile: MeterProfile, value: float) -> float:
         meter's test current through a junction (an external voltage:
         the circuit is powered or a capacitor is charged).
     """
-    a = meter_model.spec_limit(profile, "diode-test", None, value)
-    r = meter_model.resolution(profile, "diode-test", value)
-    return float(a + r / 2.0) * (1.0 + 1e-9)
+    return _below_zero_allowance(profile, "diode-test", value)
 
 
 def zero_allowance(profile: MeterProfile, value: float) -> float:
@@ -491,8 +489,13 @@ def zero_allowance(profile: MeterProfile, value: float) -> float:
         nulled (relative mode) shows such small negative values on a short.
         A display further below zero is not a resistance.
     """
-    a = meter_model.spec_limit(profile, "resistance", None, value)
-    r = meter_model.resolution(profile, "resistance", value)
+    return _below_zero_allowance(profile, "resistance", value)
+
+
+def _below_zero_allowance(profile, quantity, value) -> float:
+    """``a + r / 2`` of ``quantity``'s display at ``value`` (spec limit plus half a step)."""
+    a = meter_model.spec_limit(profile, quantity, None, value)
+    r = meter_model.resolution(profile, quantity, value)
     return float(a + r / 2.0) * (1.0 + 1e-9)  # 1e-9: a display exactly at the bound is inside
 
 

@@ -30,6 +30,7 @@ from .mna import assemble
 from .nonlinear import System
 from .offnet import off_reading
 from .predict import analysis_key, lifted_value
+from .semis import split_overrides
 
 __all__ = ["oracle_readings", "apply_faults"]
 
@@ -44,19 +45,8 @@ def apply_faults(circuit: Circuit, overrides: dict) -> tuple[Circuit, dict]:
     overrides left for :func:`~faultfind.engine.mna.assemble` ("open", "short",
     "dead") and for the semiconductors (their strings, ``("leaky", ohms)``).
     """
-    parts, rest = [], {}
-    for p in circuit.parts:
-        ov = overrides.get(p.ref)
-        if ov is None or isinstance(ov, (str, tuple)):
-            parts.append(p)
-            if ov is not None:
-                rest[p.ref] = ov
-        else:
-            q = replace(p, value=float(ov))
-            if q.kind == "switch" and q.state == "open":
-                q = replace(q, state="closed")  # a drifted open switch conducts (partly welded)
-            parts.append(q)
-    return replace(circuit, parts=tuple(parts)), rest
+    # one rule for linear and nonlinear boards (a drifted open switch conducts)
+    return split_overrides(circuit, overrides)
 
 
 def _solve_nonlinear(circuit, key, overrides, warm):

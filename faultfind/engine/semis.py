@@ -72,7 +72,7 @@ __all__ = ["predict_nonlinear", "split_overrides", "DCGroup", "ACGroup", "juncti
 def split_overrides(circuit: Circuit, overrides: dict | None) -> tuple[Circuit, dict]:
     """Write drifted values into the parts; return the circuit and the other overrides.
 
-    A drifted open switch becomes closed (partly welded), as engine/oracle.py.
+    A drifted open switch becomes closed (partly welded).  engine/oracle.py uses it too.
     """
     overrides = overrides or {}
     if not overrides:

@@ -28,6 +28,7 @@ from .engine.priors import HANDBOOK
 from .errors import InputError, SolveError
 from .io.meters_file import meters_with_default
 from .model import QUANTITY_UNITS, Circuit, Reading
+from .shown import reading_text
 from .units import format_value
 
 __all__ = ["Suggestion", "DEFAULT_COSTS", "suggest", "candidate_readings", "contact_strings", "load_costs",
@@ -538,7 +539,8 @@ def _suggest(circuit, readings, meters, hypotheses, costs, power, top, factors, 
         if rd.quantity == "current":
             caution += ("; the meter goes in series: break the circuit with power off first "
                         "(or use a clamp meter), then restore power")
-        why = _why(circuit, rd, kept, fed / fed.sum(), mu[c], mean_s[c], sd_s[c], power)
+        why = _why(circuit, rd, kept, fed / fed.sum(), mu[c], mean_s[c], sd_s[c], power,
+                   meters.get(rd.meter or "default", meters["default"]))
         why += _limit_note(circuit, kept, probs_eff, drawn)
         out.append(Suggestion(rd, pw, float(score[c]), float(gain[c]), float(cost[c]), why, caution))
     return out
@@ -708,7 +710,7 @@ def _label(circuit, faults):
     return " + ".join(parts)
 
 
-def _why(circuit, rd, kept, probs, mu, mu_s, sd_s, power):
+def _why(circuit, rd, kept, probs, mu, mu_s, sd_s, power, meter=None):
     unit = QUANTITY_UNITS[rd.quantity]
     idx = [i for i in np.argsort(-probs)[:6] if probs[i] > 0]
     best, bd = None, 0.0
@@ -723,8 +725,7 @@ def _why(circuit, rd, kept, probs, mu, mu_s, sd_s, power):
         return "separates the remaining hypotheses"
 
     def val(i):
-        v = mu[i]
-        return "OL" if not np.isfinite(v) else format_value(0.0 if abs(v) < 1e-10 and unit != "Ω" else v, unit)
+        return reading_text(mu[i], unit, meter, rd.quantity)
 
     a, b = best
     text = f"if {_label(circuit, kept[a][0])}, it reads {val(a)}; if {_label(circuit, kept[b][0])}, {val(b)}"

@@ -27,7 +27,7 @@ from .engine.predict import predict
 from .engine.priors import HANDBOOK
 from .errors import InputError, SolveError
 from .io.meters_file import meters_with_default
-from .model import QUANTITY_UNITS, Circuit, Reading
+from .model import QUANTITY_UNITS, Circuit, Reading, power_for
 from .shown import reading_text
 from .units import format_value
 
@@ -125,7 +125,7 @@ def load_costs(path) -> dict:
 
 def _power(rd: Reading) -> str:
     """A resistance and a diode test are power-off readings."""
-    return "off" if rd.quantity in ("resistance", "diode-test") else "on"
+    return power_for(rd.quantity)
 
 
 def junction_probes(part):
@@ -609,6 +609,9 @@ def _same(circuit, rd):
     if rd.quantity == "resistance" and rd.setup != "lifted":
         plus, minus = circuit.part(rd.part).nodes[:2] if rd.part is not None else (rd.plus, rd.minus)
         return ("resistance", frozenset((plus, minus)))
+    if rd.quantity == "diode-test":   # red probe on the first node: the direction counts
+        plus, minus = circuit.part(rd.part).nodes[:2] if rd.part is not None else (rd.plus, rd.minus)
+        return ("diode-test", plus, minus)
     freq = rd.frequency if rd.frequency != circuit.frequency else None
     if rd.quantity == "voltage":
         return ("voltage", rd.mode, frozenset((rd.plus, rd.minus)), freq)

@@ -81,3 +81,23 @@ def test_diode_test_command_words():
     step = d.command("read D B,0V")                         # Q1's base-emitter junction
     assert step.kind == "reading" and 0.5 < step.reading.value < 0.7
     assert "D B" in step.message
+
+
+def test_a_diode_test_that_would_have_told_is_a_power_off_reading():
+    # the relay driver's output stage sagging (OUT4 at 3.14 V) named as Q1's base-emitter
+    # junction open: only a diode test on Q1's base tells the two apart (an open junction
+    # reads OL, a healthy one 0.5-0.7 V, from memory), and it is taken isolated
+    from pathlib import Path
+
+    from faultfind.io.circuit_file import load_circuit
+    case = Path(__file__).resolve().parent.parent / "field_cases" / "irrigation_valve_relay_driver"
+    c = load_circuit(case / "circuit.toml")
+    d = Drill(c, "sam", seed=5, fault=check_fault(c, "OUT4", "drift", "3.14"),
+              caution_acknowledged=True)
+    d.isolate()
+    d.command("read D D1")
+    d.verdict("Q1", "base-emitter-open")
+    lines = [x for x in d.result.explanation.verdict if "would have" in x]
+    assert lines, d.result.explanation.verdict
+    assert "D B" in lines[0] and "(board isolated)" in lines[0]
+    assert "energized" not in lines[0]

@@ -261,3 +261,20 @@ def test_unseen_drift_is_weighed_across_its_range():
     assert len(r1) == 4 and sum(v < 10e3 * 0.95 for v in r1) == 2
     assert all(10e3 * RESISTOR_FLOOR <= v <= 10e3 * 1e3 for v in r1)
     assert all(f[0].seen for f, _ in out if f)
+
+
+def test_diode_test_taken_by_nodes_is_not_suggested_by_part():
+    """D1 (anode C, cathode +24V) was diode-tested with the red probe on C: the
+    diode test of D1 by part is the same reading (formats.md section 4: by part,
+    the red probe goes on the anode); the reversed one is another reading."""
+    case = ROOT / "field_cases" / "irrigation_valve_relay_driver"
+    c = load_circuit(case / "circuit.toml")
+    rds = load_readings(HERE / "relay_diode_taken_by_nodes.csv", c, METERS)
+    hyps = [((), 0.4), (_h(("D1", "short")), 0.3), (_h(("D1", "open")), 0.3)]
+    sug = suggest(c, rds, METERS, hypotheses=hyps, top=30)
+    assert sug
+    for s in sug:
+        rd = s.reading
+        if rd.quantity == "diode-test":
+            assert rd.part != "D1", rd
+            assert (rd.plus, rd.minus) != ("C", "+24V"), rd

@@ -27,7 +27,8 @@ from .engine.predict import predict
 from .engine.priors import HANDBOOK
 from .errors import InputError, SolveError
 from .io.meters_file import meters_with_default
-from .model import QUANTITY_UNITS, Circuit, Reading
+from .model import QUANTITY_UNITS, Circuit, Reading, power_for
+from .shown import reading_text
 from .units import format_value
 
 __all__ = ["Suggestion", "DEFAULT_COSTS", "suggest", "candidate_readings", "contact_strings", "load_costs",
@@ -124,7 +125,7 @@ def load_costs(path) -> dict:
 
 def _power(rd: Reading) -> str:
     """A resistance and a diode test are power-off readings."""
-    return "off" if rd.quantity in ("resistance", "diode-test") else "on"
+    return power_for(rd.quantity)
 
 
 def junction_probes(part):
@@ -540,7 +541,8 @@ def _suggest(circuit, readings, meters, hypotheses, costs, power, top, factors, 
         if rd.quantity == "current":
             caution += ("; the meter goes in series: break the circuit with power off first "
                         "(or use a clamp meter), then restore power")
-        why = _why(circuit, rd, kept, fed / fed.sum(), mu[c], mean_s[c], sd_s[c], power)
+        why = _why(circuit, rd, kept, fed / fed.sum(), mu[c], mean_s[c], sd_s[c], power,
+                   meters.get(rd.meter or "default", meters["default"]))
         why += _limit_note(circuit, kept, probs_eff, drawn)
         out.append(Suggestion(rd, pw, float(score[c]), float(gain[c]), float(cost[c]), why, caution))
     return out
@@ -609,6 +611,9 @@ def _same(circuit, rd):
     if rd.quantity == "resistance" and rd.setup != "lifted":
         plus, minus = circuit.part(rd.part).nodes[:2] if rd.part is not None else (rd.plus, rd.minus)
         return ("resistance", frozenset((plus, minus)))
+    if rd.quantity == "diode-test":   # red probe on the first node: the direction counts
+        plus, minus = circuit.part(rd.part).nodes[:2] if rd.part is not None else (rd.plus, rd.minus)
+        return ("diode-test", plus, minus)
     freq = rd.frequency if rd.frequency != circuit.frequency else None
     if rd.quantity == "voltage":
         return ("voltage", rd.mode, frozenset((rd.plus, rd.minus)), freq)
@@ -762,7 +767,7 @@ def _label(circuit, faults):
     return " + ".join(parts)
 
 
-def _why(circuit, rd, kept, probs, mu, mu_s, sd_s, power):
+def _why(circuit, rd, kept, probs, mu, mu_s, sd_s, power, meter=None):
     unit = QUANTITY_UNITS[rd.quantity]
     idx = [i for i in np.argsort(-probs)[:6] if probs[i] > 0]
     best, bd = None, 0.0
@@ -777,8 +782,7 @@ def _why(circuit, rd, kept, probs, mu, mu_s, sd_s, power):
         return "separates the remaining hypotheses"
 
     def val(i):
-        v = mu[i]
-        return "OL" if not np.isfinite(v) else format_value(0.0 if abs(v) < 1e-10 and unit != "Ω" else v, unit)
+        return reading_text(mu[i], unit, meter, rd.quantity)
 
     a, b = best
     text = f"if {_label(circuit, kept[a][0])}, it reads {val(a)}; if {_label(circuit, kept[b][0])}, {val(b)}"

@@ -269,6 +269,23 @@ def test_unseen_drift_is_weighed_across_its_range():
     assert all(f[0].seen for f, _ in out if f)
 
 
+def test_diode_test_taken_by_nodes_is_not_suggested_by_part():
+    """D1 (anode C, cathode +24V) was diode-tested with the red probe on C: the
+    diode test of D1 by part is the same reading (formats.md section 4: by part,
+    the red probe goes on the anode); the reversed one is another reading."""
+    case = ROOT / "field_cases" / "irrigation_valve_relay_driver"
+    c = load_circuit(case / "circuit.toml")
+    rds = load_readings(HERE / "relay_diode_taken_by_nodes.csv", c, METERS)
+    hyps = [((), 0.4), (_h(("D1", "short")), 0.3), (_h(("D1", "open")), 0.3)]
+    sug = suggest(c, rds, METERS, hypotheses=hyps, top=30)
+    assert sug
+    for s in sug:
+        rd = s.reading
+        if rd.quantity == "diode-test":
+            assert rd.part != "D1", rd
+            assert (rd.plus, rd.minus) != ("C", "+24V"), rd
+
+
 # ---------------------------------------------------------------- Kirchhoff's voltage law
 
 def test_voltages_that_follow_by_kvl_from_taken_ones():

@@ -10,7 +10,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
-__all__ = ["POWER_OFF_QUANTITIES", "power_for", "KindInfo", "KINDS", "SEMICONDUCTORS", "JUNCTION_DEFAULTS", "TRANSISTOR_DEFAULTS",
+__all__ = ["POWER_OFF_QUANTITIES", "power_for", "fault_mode_name", "KindInfo", "KINDS", "SEMICONDUCTORS", "JUNCTION_DEFAULTS", "TRANSISTOR_DEFAULTS",
            "Part", "Circuit", "Reading", "Accuracy", "MeterProfile",
            "QUANTITIES", "QUANTITY_UNITS", "MODES", "SETUPS"]
 
@@ -425,3 +425,19 @@ def power_for(quantity: str) -> str:
         One of :data:`QUANTITIES`.
     """
     return "off" if quantity in POWER_OFF_QUANTITIES else "on"
+
+
+def fault_mode_name(text) -> str:
+    """A fault mode as the user wrote it, in faultfind's spelling.
+
+    Case, surrounding space and the separator are free: ``"Base-emitter
+    open"`` (formats.md section 4's table), ``base_emitter_open`` and
+    ``base-emitter-open`` are one mode, written ``base-emitter-open`` in JSON
+    and in the tables.
+
+    Parameters
+    ----------
+    text : str or None
+        The mode as written; None is ``""`` (no mode given).
+    """
+    return "-".join(str(text or "").strip().lower().replace("_", " ").split())

@@ -14,7 +14,7 @@ import numpy as np
 
 from faultfind.drill import Drill, check_fault, draw_fault
 from faultfind.io.meters_file import meters_with_default
-from faultfind.model import Circuit, Part, Reading
+from faultfind.model import Circuit, Part, Reading, fault_mode_name
 
 METERS = meters_with_default()
 
@@ -101,3 +101,28 @@ def test_a_diode_test_that_would_have_told_is_a_power_off_reading():
     assert lines, d.result.explanation.verdict
     assert "D B" in lines[0] and "(board isolated)" in lines[0]
     assert "energized" not in lines[0]
+
+
+def test_transistor_modes_as_formats_md_writes_them():
+    # formats.md section 4's table writes "base-emitter open"; faultfind's spelling is
+    # base-emitter-open (JSON, tables): both, and any case or underscores, are one mode
+    c = board()
+    for text in ("base-emitter open", "Base_Emitter_Open", " BASE-EMITTER-OPEN "):
+        assert check_fault(c, "Q1", text).mode == "base-emitter-open"
+    assert fault_mode_name("collector  emitter") == "collector-emitter"
+    assert fault_mode_name(None) == ""
+    d = Drill(c, "sam", seed=4, fault=check_fault(c, "Q1", "base-emitter-short"),
+              caution_acknowledged=True)
+    step = d.command("verdict Q1 base-emitter short")
+    assert step.kind == "verdict" and d.result.correct
+
+
+def test_a_logbook_outcome_takes_the_spelled_out_mode(tmp_path):
+    from pathlib import Path
+
+    from faultfind.io.logbook import Logbook
+    case = Path(__file__).resolve().parent.parent / "field_cases" / "irrigation_valve_relay_driver"
+    with Logbook(tmp_path / "book.sqlite") as book:
+        s = book.start_session(case / "circuit.toml", unit="zone 4")
+        closed = book.close_session(s.id, ["Q1:base-emitter open"])
+        assert closed.outcome.faults == (("Q1", "base-emitter-open"),)

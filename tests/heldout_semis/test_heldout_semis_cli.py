@@ -127,6 +127,28 @@ def test_a_fault_no_reading_can_see_is_no_fault_with_a_note(capsys, tmp_path):
     assert seeing and all(s["power"] == "off" for s in seeing), seeing
 
 
+@pytest.mark.parametrize("seed", [4, 5, 6])
+def test_a_leaky_diode_read_with_power_off_is_found(capsys, tmp_path, seed):
+    """D5 leaky (2 kohm across it) read by three power-off readings: its diode test,
+    the diode test reversed across it and the ohmmeter reversed across it (the
+    ohmmeter's 100 uA reads the leak nearly alone).  Found here: the leak was
+    scored with the diode's own tolerance dropped and fitted on the healthy
+    board's spread, so the diode alone came out worse than "D5 leaky + PS1 dead"
+    (a supply no power-off reading sees), verdict inconsistent."""
+    circuit = load_circuit(HERE / "bridge_or.toml")
+    rows = [Reading("diode-test", None, part="D5"), Reading("diode-test", None, "OR", "P"),
+            Reading("resistance", None, "OR", "P")]
+    done = simulate_readings(circuit, rows, meters_with_default(), [("D5", "leaky", 2e3)],
+                             rng=seed)
+    path = tmp_path / "leak.csv"
+    write_readings(done, path)
+    code, out, err = run(capsys, "diagnose", HERE / "bridge_or.toml", path, "--json")
+    assert code == 0, err
+    doc = json.loads(out)
+    assert doc["verdict"] == "fault" and lead(doc) == (("D5", "leaky"),), doc["hypotheses"][:3]
+    assert doc["hypotheses"][0]["probability"] > 0.9
+
+
 def test_suggest_and_expect_on_a_planted_fault(capsys, tmp_path):
     circuit, readings = planted(tmp_path, "pnp_high_side", ("Q2", "open", None),
                                 V("B1", "D", "B2", "HTR"), seed=3)

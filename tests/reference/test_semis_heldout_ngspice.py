@@ -7,7 +7,7 @@ laws of formats.md section 4 written as ``D`` and ``Q`` models at 25 °C), so
 the two sides solve the same equations and must agree far inside the 0.2 %
 of issue 12.
 
-Fourteen hand-drawn sub-circuits, each the shape a technician meets on a
+Twenty-one hand-drawn sub-circuits, each the shape a technician meets on a
 board: a common-emitter stage with emitter degeneration and a bypassed
 emitter resistor (AC gain), a pnp high-side switch, a Darlington pair, a
 current mirror (a transistor wired as a diode), an emitter follower, a
@@ -15,7 +15,10 @@ long-tailed pair (AC on one base), a zener shunt regulator with an npn pass
 transistor, a bridge rectifier read at DC with its load, anti-parallel LEDs
 on both polarities, LED strings on a 24 V rail, transistors in hard
 saturation (npn and pnp), zeners below and in breakdown, a diode-OR of a
-supply and a battery, reverse-polarity protection (series and shunt).
+supply and a battery, reverse-polarity protection (series and shunt), a pnp
+current mirror, an npn fitted reversed (reverse active), twelve LEDs on 48 V,
+back-to-back zeners clipping both polarities, a biased bridge carrying an AC
+signal, a cascode (AC) and a Sziklai pair.
 Checked: DC node voltages, AC magnitudes, junction currents; with power off
 the diode test and the auto-ranging ohmmeter in both polarities across
 transistor junctions, diodes with a resistor in parallel, bridges and strings.
@@ -233,14 +236,83 @@ def reverse_protect():
     ))
 
 
+def pnp_mirror():
+    """A pnp current mirror from the positive rail, unequal transistors."""
+    return Circuit("pnp mirror", "0", (
+        P("V1", "voltage-source", ("vcc", "0"), 12.0),
+        P("Q1", "pnp", ("r", "r", "vcc"), gain=120.0),
+        P("Q2", "pnp", ("o", "r", "vcc"), gain=90.0, vbe=0.62),
+        P("RR", "resistor", ("r", "0"), 11e3), P("RL", "resistor", ("o", "0"), 3.3e3)))
+
+
+def reverse_active():
+    """An npn fitted with collector and emitter swapped (reverse active, gain 1)."""
+    return Circuit("reverse active", "0", (
+        P("V1", "voltage-source", ("vcc", "0"), 5.0),
+        P("RB", "resistor", ("vcc", "b"), 10e3),
+        P("Q1", "npn", ("0", "b", "e"), gain=200.0),
+        P("RE", "resistor", ("vcc", "e"), 1e3)))
+
+
+def string_48v():
+    """Twelve white LEDs in one string on a 48 V rail through 820 ohm."""
+    parts = [P("V1", "voltage-source", ("v", "0"), 48.0), P("R1", "resistor", ("v", "s0"), 820.0)]
+    parts += [P(f"L{k}", "led", (f"s{k}", f"s{k + 1}" if k < 11 else "0"), 3.0,
+                test_current=0.02, series_resistance=8.0) for k in range(12)]
+    return Circuit("48V string", "0", tuple(parts))
+
+
+def back_to_back_zeners():
+    """Back-to-back zeners as a clipper, on a positive and on a negative input."""
+    return Circuit("back to back zeners", "0", (
+        P("V1", "voltage-source", ("a", "0"), 12.0), P("R1", "resistor", ("a", "x"), 1e3),
+        P("Z1", "zener", ("y", "x"), 5.1), P("Z2", "zener", ("y", "0"), 6.8),
+        P("V2", "voltage-source", ("0", "b"), 12.0), P("R2", "resistor", ("b", "w"), 1e3),
+        P("Z3", "zener", ("u", "w"), 5.1), P("Z4", "zener", ("u", "0"), 6.8)))
+
+
+def ac_bridge():
+    """A bridge biased by a DC source through 10 kohm, a 1 V AC winding across it:
+    the small-signal path through four biased junctions."""
+    return Circuit("ac bridge", "0", (
+        P("VS", "voltage-source", ("a", "b"), 1.0, waveform="ac"), P("RG", "resistor", ("b", "0"), 1e3),
+        P("D1", "diode", ("a", "p"), 0.65), P("D2", "diode", ("b", "p"), 0.65),
+        P("D3", "diode", ("n", "a"), 0.65), P("D4", "diode", ("n", "b"), 0.65),
+        P("RL", "resistor", ("p", "n"), 1e3), P("VB", "voltage-source", ("p2", "0"), 5.0),
+        P("RB", "resistor", ("p2", "p"), 10e3), P("RN", "resistor", ("n", "0"), 10e3)),
+        frequency=50.0)
+
+
+def cascode():
+    """A cascode: a common-emitter npn under a common-base npn, AC at the lower base."""
+    return Circuit("cascode", "0", (
+        P("V1", "voltage-source", ("vcc", "0"), 15.0), P("VB2", "voltage-source", ("b2", "0"), 6.0),
+        P("VB1", "voltage-source", ("bb", "0"), 1.2), P("RB", "resistor", ("bb", "b1"), 1e3),
+        P("Q1", "npn", ("m", "b1", "e"), gain=150.0), P("RE", "resistor", ("e", "0"), 560.0),
+        P("Q2", "npn", ("c", "b2", "m"), gain=150.0), P("RC", "resistor", ("vcc", "c"), 4.7e3),
+        P("VS", "voltage-source", ("s", "0"), 0.001, waveform="ac"),
+        P("CS", "capacitor", ("s", "b1"), 1e-5)), frequency=1000.0)
+
+
+def sziklai():
+    """A complementary (Sziklai) pair: an npn driving a pnp output transistor."""
+    return Circuit("sziklai", "0", (
+        P("V1", "voltage-source", ("vcc", "0"), 12.0), P("VIN", "voltage-source", ("i", "0"), 6.0),
+        P("RB", "resistor", ("i", "b"), 10e3),
+        P("Q1", "npn", ("c1", "b", "o"), gain=100.0), P("Q2", "pnp", ("o", "c1", "vcc"), gain=50.0),
+        P("RL", "resistor", ("o", "0"), 100.0)))
+
+
 CIRCUITS = [ce_bypass, pnp_high_side, darlington, mirror, follower, ltp, zener_pass, bridge,
-            antiparallel, led_strings, hard_sat, zeners, diode_or, reverse_protect]
+            antiparallel, led_strings, hard_sat, zeners, diode_or, reverse_protect,
+            pnp_mirror, reverse_active, string_48v, back_to_back_zeners, ac_bridge, cascode,
+            sziklai]
 
 
 def test_the_circuits_cover_every_kind():
     kinds = {p.kind for f in CIRCUITS for p in f().parts}
     assert {"diode", "led", "zener", "npn", "pnp"} <= kinds
-    assert len(CIRCUITS) == 14
+    assert len(CIRCUITS) == 21
 
 
 # ---------------------------------------------------------------------------
@@ -281,6 +353,10 @@ def test_operating_point_and_ac_match_ngspice(make, tmp_path):
         assert abs(op["p"]) < 1e-3 and -2.0 < op["f"] < -0.6              # blocked; clamped
     if make is mirror:
         assert_allclose((15.0 - op["out"]) / 4.7e3, (15.0 - op["ref"]) / 13e3, rtol=0.03)
+    if make is reverse_active:
+        assert op["e"] > 4.0                     # barely conducting: reverse gain 1
+    if make is back_to_back_zeners:
+        assert 5.5 < op["x"] < 6.2 and -7.8 < op["w"] < -7.2   # one zener forward, one in breakdown
 
 
 @pytest.mark.parametrize("make", CIRCUITS, ids=lambda f: f.__name__)

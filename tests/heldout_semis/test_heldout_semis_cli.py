@@ -409,3 +409,21 @@ def test_a_white_led_on_a_meter_that_reads_to_3v2(capsys, tmp_path):
     code, out, err = run(capsys, "diagnose", circuit, path)
     assert_exit_2(code, err, f"{path}:2:", "above the top of the diode-test display",
                   "meter profile")
+
+
+def test_log_add_diode_tests(capsys, tmp_path):
+    """The logbook's compact form takes a diode test (``D``); one above the meter's
+    display top stores nothing (exit 2); a healthy OL is not called "no path" (a
+    white LED on a 2 V diode test has a path, above the display)."""
+    book = tmp_path / "book.sqlite"
+    code, out, err = run(capsys, "log", "start", HERE / "led_strings.toml", "--unit", "P-1",
+                         "--caution-acknowledged", "--logbook", book)
+    assert code == 0, err
+    code, out, err = run(capsys, "log", "add", "last", "D", "W3", "2.5", "--logbook", book)
+    assert_exit_2(code, err, "above the top of the diode-test display", "nothing was stored")
+    code, out, err = run(capsys, "log", "add", "last", "D", "W3", "OL", "--logbook", book)
+    assert code == 0, err
+    assert "reads OL here (a reversed or open junction, or above the display's top)" in out
+    code, out, err = run(capsys, "log", "show", "last", "--json", "--logbook", book)
+    assert code == 0, err
+    assert len(json.loads(out)["session"]["readings"]) == 1

@@ -82,8 +82,9 @@ CASES = [
     ("ce_bypass", ("CE", "open", None), V("B", "C", "E") + [("ac", "C"), ("ac", "E")], None),
     ("pnp_high_side", ("R2", "open", None), V("B1", "B2", "HTR"), None),
     ("zener_pass", ("Q1", "base-emitter-open", None), V("Z", "OUT"), None),
-    # ZD1 short and PS1 dead both leave Z and OUT at 0 V: the rail tells them apart
-    ("zener_pass", ("ZD1", "short", None), V("+18V", "Z", "OUT"), None),
+    # ZD1 short, PS1 dead and RZ open all leave Z and OUT at 0 V: the rail and the
+    # zener's own diode test (power off) tell them apart
+    ("zener_pass", ("ZD1", "short", None), V("+18V", "Z", "OUT") + [("dt", "0V", "Z")], None),
     ("led_strings", ("LED3", "open", None), V("S1", "S2", "S3", "S4", "W1"), None),
     ("led_strings", ("W2", "short", None), V("S1", "W1", "W2", "W3"), None),
     ("bridge_or", ("D7", "open", None), V("P", "OR", "BP", "+BAT"), None),
@@ -107,6 +108,22 @@ def test_planted_fault_ranks_first(capsys, tmp_path, case):
     assert abs(sum(h["probability"] for h in doc["hypotheses"]) - 1.0) < 1e-6
     for s in doc["suggestions"]:
         assert s["power"] in ("on", "off")
+
+
+@pytest.mark.parametrize("ref, value", [("LED3", 1.5), ("W1", 2.325)])
+def test_an_led_drifted_low_in_a_string_is_found_with_its_value(capsys, tmp_path, ref, value):
+    """An LED 25 % low in a string, every node read.  Found here: the drift fit
+    stopped at -21 % / -14 % (Gauss-Newton on per-reading weights, while the
+    string's nodes share the supply's and the resistor's spread), which scored
+    worse than the healthy board: verdict inconsistent, healthy first."""
+    nodes = ("S1", "S2", "S3", "S4", "W1", "W2", "W3")
+    circuit, readings = planted(tmp_path, "led_strings", (ref, "drift", value), V(*nodes), seed=11)
+    code, out, err = run(capsys, "diagnose", circuit, readings, "--json")
+    assert code == 0, err
+    doc = json.loads(out)
+    assert doc["verdict"] == "fault" and lead(doc) == ((ref, "drift"),), doc["hypotheses"][:3]
+    got = doc["hypotheses"][0]["faults"][0]["value"]
+    assert abs(got / value - 1) < 0.05, got       # the drawn board's tolerances: a few %
 
 
 def test_a_fault_no_reading_can_see_is_no_fault_with_a_note(capsys, tmp_path):

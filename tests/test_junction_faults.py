@@ -331,8 +331,9 @@ def test_power_off_reading_from_the_healthy_solution_equals_the_cold_one():
 
 
 def test_full_solve_after_a_live_one_equals_a_fresh_full_solve():
-    # Exact.solve after solve_live reuses the live rows and solves only the power-off
-    # readings: the same displays and sensitivities as a full re-solve from scratch
+    # Exact.solve(sens=False) after solve_live reuses the live rows and solves only the
+    # power-off readings: the same displays as a full re-solve from scratch; wanting
+    # sensitivities, the full solve gives those of a fresh one
     from faultfind.engine.faults import Fault
     from faultfind.engine.hypotheses import Evaluator
     from faultfind.engine.junction_faults import Exact, _faulted, _key
@@ -343,18 +344,20 @@ def test_full_solve_after_a_live_one_equals_a_fresh_full_solve():
         ev = Evaluator(c, rd, METERS)
         a = Exact(ev)
         live = a.solve_live([f])
-        assert not np.isnan(live[0]).any()
+        assert not np.isnan(live[0]).any() and live[1] is None
+        assert a._from_live(_key([f]), *_faulted(c, [f]), sens=False) is not None   # the path
+        vals = a.solve([f], sens=False)
         got = a.solve([f])
-        assert a._from_live(_key([f]), *_faulted(c, [f])) is not None   # the path taken
         ref = Exact(Evaluator(c, rd, METERS)).solve([f])
+        np.testing.assert_allclose(vals[0], ref[0], rtol=1e-9, atol=1e-12)
         np.testing.assert_allclose(got[0], ref[0], rtol=1e-9, atol=1e-12)
         np.testing.assert_allclose(got[1], ref[1], rtol=1e-7, atol=1e-9)
 
 
 def test_displays_only_then_sensitivities_equal_a_fresh_full_solve():
-    # Exact.solve(sens=False) skips the power-off readings' sensitivity rows; the same
-    # displays as a full solve, and a later call wanting sensitivities fills those rows
-    # to what a fresh full solve gives
+    # Exact.solve(sens=False) skips the sensitivities (no adjoint solves); the same
+    # displays as a full solve, and a later call wanting sensitivities gives what a
+    # fresh full solve gives
     from faultfind.engine.faults import Fault
     from faultfind.engine.hypotheses import Evaluator
     from faultfind.engine.junction_faults import Exact
@@ -366,7 +369,7 @@ def test_displays_only_then_sensitivities_equal_a_fresh_full_solve():
         ref = Exact(Evaluator(c, rd, METERS)).solve([f])
         vals = a.solve([f], sens=False)
         np.testing.assert_allclose(vals[0], ref[0], rtol=1e-9, atol=1e-12)
-        assert np.all(vals[1][3:] == 0.0) and np.any(ref[1][3:] != 0.0)   # rows skipped
+        assert vals[1] is None and np.any(ref[1][3:] != 0.0)   # no sensitivities
         got = a.solve([f])
         np.testing.assert_allclose(got[0], ref[0], rtol=1e-9, atol=1e-12)
         np.testing.assert_allclose(got[1], ref[1], rtol=1e-7, atol=1e-9)

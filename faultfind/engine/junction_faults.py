@@ -158,7 +158,7 @@ class Exact:
             off = [ev.readings[i] for i in range(ev.n) if i not in set(self.cheap)]
             if off:
                 try:
-                    predict(ev.circuit, off, ev.meters, off_warm=self.off_warm)
+                    predict(ev.circuit, off, ev.meters, off_warm=self.off_warm, sens=False)
                 except _ERRORS:
                     pass     # a reading without a healthy solution starts from cold
         return self.off_warm
@@ -167,9 +167,10 @@ class Exact:
         """``(displays (n,), sensitivity (n, m))`` under ``faults``; NaN displays and
         None when the faulted board cannot be solved.
 
-        ``sens`` False: only the displays are wanted (the sensitivity returned may lack
-        the power-off readings' rows, each of which costs a factorization); a later call
-        wanting them solves just those readings again (:meth:`_from_live`)."""
+        ``sens`` False: only the displays are wanted (no adjoint solves; the
+        sensitivity returned is None); a displays-only result already cached for the
+        live readings (:meth:`solve_live`) is completed by the power-off readings alone
+        (:meth:`_from_live`)."""
         key = _key(faults)
         got = self.cache.get(key)
         if got is not None:
@@ -187,64 +188,60 @@ class Exact:
                 got = self._solve(circuit, overrides, range(ev.n), sens)
             except _ERRORS:
                 got = self._piecewise(circuit, overrides, sens)
-        store = self.cache if sens or got[1] is None else self.vals
+        store = self.cache if sens else self.vals
         if len(store) > 4096:
             store.clear()
         store[key] = got
         return got
 
     def solve_live(self, faults):
-        """:meth:`solve` without the power-off readings (each its own Newton solve): they
-        stand at ``Board.off_fill`` (what was read) until the hypothesis is re-solved in
-        full (:func:`rescore_leaders`).  The full solve when there is nothing to save."""
+        """:meth:`solve` without the power-off readings (each its own Newton solve), and
+        displays only: the power-off readings stand at ``Board.off_fill`` (what was read)
+        until the hypothesis is re-solved in full (:func:`rescore_leaders`).  The full
+        (displays-only) solve when there is nothing to save."""
         ev = self.ev
         fill = getattr(ev, "off_fill", None)
         if fill is None or len(self.cheap) == ev.n:
-            return self.solve(faults)
+            return self.solve(faults, sens=False)
         key = ("live",) + _key(faults)
-        got = self.cache.get(key)
+        got = self.vals.get(key)
         if got is None:
             circuit, overrides = _faulted(ev.circuit, faults)
             try:
-                val, S = self._solve(circuit, overrides, self.cheap) if self.cheap else \
-                    (np.full(ev.n, np.nan), np.zeros((ev.n, len(ev.params))))
+                val = self._solve(circuit, overrides, self.cheap, False)[0] if self.cheap else \
+                    np.full(ev.n, np.nan)
                 rest = [i for i in range(ev.n) if i not in set(self.cheap)]
                 val[rest] = fill[rest]
-                got = (val, S)
+                got = (val, None)
             except _ERRORS:
                 got = (np.full(ev.n, np.nan), None)
-            self.cache[key] = got
+            self.vals[key] = got
         return got
 
     def _from_live(self, key, circuit, overrides, sens=True):
-        """The full solve from a :meth:`solve_live` result (or, wanting sensitivities,
-        a displays-only one) already cached: its live and lifted rows (the same
-        operating point and linearisation a full solve computes) and the power-off
-        readings solved now (they need no operating point).  None when there is no such
-        result or the power-off solve fails (the caller solves it all)."""
-        cheap = set(self.cheap)
-        ev = self.ev
-        off = [i for i in range(ev.n) if i not in cheap]
-        have = self.vals.get(key) if sens else None
-        if have is not None and have[1] is not None:
-            live, reuse_off = have, not off
-        else:
-            live, reuse_off = self.cache.get(("live",) + key), False
-        if live is None or live[1] is None or np.isnan(live[0][self.cheap]).any():
+        """The displays-only full solve from a :meth:`solve_live` result already cached:
+        its live and lifted rows (the same operating point a full solve computes) and
+        the power-off readings solved now (they need no operating point).  None when
+        sensitivities are wanted, when there is no such result or when the power-off
+        solve fails (the caller solves it all)."""
+        if sens:
             return None
-        val, S = live[0].copy(), live[1].copy()
-        if reuse_off:
-            return val, S
+        live = self.vals.get(("live",) + key)
+        if live is None or np.isnan(live[0][self.cheap]).any():
+            return None
+        ev = self.ev
+        cheap = set(self.cheap)
+        off = [i for i in range(ev.n) if i not in cheap]
+        val = live[0].copy()
         try:
-            v, s = self._solve(circuit, overrides, off, sens)
+            val[off] = self._solve(circuit, overrides, off, False)[0][off]
         except _ERRORS:
             return None
-        val[off], S[off] = v[off], s[off]
-        return val, S
+        return val, None
 
     def _solve(self, circuit, overrides, rows, sens=True):
         """Displays and sensitivities of the readings ``rows`` (raises when unsolvable);
-        ``sens`` False: the power-off readings' sensitivity rows left at zero."""
+        ``sens`` False: the displays only (the sensitivity returned is None)."""
         ev = self.ev
         rows = list(rows)
         rds = [ev.readings[i] for i in rows]
@@ -253,9 +250,11 @@ class Exact:
             kw["off_warm"] = self._off_warm()
         # predict() re-solves with the meter in the circuit where the meter loads a node
         # heavily (a pad above an open LED): docs/junction-models.md
-        pr = predict(circuit, rds, ev.meters, overrides=overrides, off_sens=sens, **kw)
+        pr = predict(circuit, rds, ev.meters, overrides=overrides, sens=sens, **kw)
         val = np.full(ev.n, np.nan)
         val[rows] = np.asarray(pr.value, dtype=float)
+        if not sens:
+            return val, None
         S = np.zeros((ev.n, len(ev.params)))
         col = [ev.pindex.get(r, -1) for r in pr.params]
         have = [k for k, j in enumerate(col) if j >= 0]
@@ -270,20 +269,25 @@ class Exact:
         hypothesis: ``Board.off_fill``); with no live solution the hypothesis has none."""
         ev = self.ev
         off = [i for i in range(ev.n) if i not in self.live_set]
-        val, S = np.full(ev.n, np.nan), np.zeros((ev.n, len(ev.params)))
+        val = np.full(ev.n, np.nan)
+        S = np.zeros((ev.n, len(ev.params))) if sens else None
         if self.live:
             try:
                 v, s = self._solve(circuit, overrides, self.live, sens)
             except _ERRORS:
                 return val, None
-            val[self.live], S[self.live] = v[self.live], s[self.live]
+            val[self.live] = v[self.live]
+            if sens:
+                S[self.live] = s[self.live]
         fill = getattr(ev, "off_fill", None)
         if fill is None:   # a Board without readings' values (advice): the reading is unknown
             fill = np.full(ev.n, np.nan)
         for i in off:
             try:
                 v, s = self._solve(circuit, overrides, [i], sens)
-                val[i], S[i] = v[i], s[i]
+                val[i] = v[i]
+                if sens:
+                    S[i] = s[i]
             except _ERRORS:
                 val[i] = fill[i]
         return val, S

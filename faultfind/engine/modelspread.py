@@ -81,7 +81,7 @@ def _model_resolved(circuit, readings, meters, ref, key, factors, y0, warm, off_
     for k, f in enumerate(factors):
         try:
             P[k] = predict(_with_key(circuit, ref, key, f), readings, meters, warm=warm,
-                           off_warm=off_warm, off_sens=False).value
+                           off_warm=off_warm, sens=False).value
         except SolveError:
             P[k] = np.nan
     return _ol_top(readings, meters, P, range(len(readings)))

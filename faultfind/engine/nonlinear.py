@@ -52,6 +52,7 @@ from scipy.sparse.linalg import splu
 
 from ..errors import ConvergenceError
 from ..model import SEMICONDUCTORS
+from .factor import Factorization
 from .junctions import ARG_MAX, Element, critical_voltage, device, law, limit
 from .mna import Network, assemble
 
@@ -126,6 +127,49 @@ def _device(part, override):
     return dev
 
 
+#: Linear networks (:func:`.mna.assemble`) of recent circuits, by what they depend on
+#: (:func:`_linear_key`): the faulted variants of one board mostly share one (a
+#: junction's fault or a model key leaves the linear network as it was).
+_LINEAR: dict = {}
+_LINEAR_SIZE = 64
+
+
+def _linear_key(circuit, analysis, frequency, overrides, floating):
+    """What :func:`.mna.assemble` reads: every linear part as an object (with its
+    override), every semiconductor by its name, kind, nodes and topology override
+    (their values and models stamp nothing there)."""
+    get = overrides.get
+    joins = analysis == "off" or floating    # a semiconductor's faults change connectivity
+    parts = []
+    for p in circuit.parts:
+        ov = get(p.ref)
+        if p.kind in SEMICONDUCTORS:
+            if not isinstance(ov, str) or not (joins or ov == "short" and p.kind in _KEY_TWO):
+                ov = None      # a leak, a drift or (live, not floating) an open: no stamp
+            parts.append((p.ref, p.kind, p.nodes, ov))
+        else:
+            parts.append((id(p), ov))
+    return (analysis, frequency, bool(floating), circuit.ground, tuple(parts))
+
+
+def linear_network(circuit, analysis, frequency=None, overrides=None, floating=False):
+    """``(net, rows, cols, vals)``: :func:`.mna.assemble`'s network and its matrix as
+    COO triplets, cached (the network is shared: treat it as read-only)."""
+    overrides = overrides or {}
+    key = _linear_key(circuit, analysis, frequency, overrides, floating)
+    hit = _LINEAR.get(key)
+    if hit is not None:
+        return hit[1]
+    net = assemble(circuit, analysis, frequency, overrides, floating)
+    A0 = net.A.tocoo()
+    got = (net, A0.row.astype(np.int64), A0.col.astype(np.int64), A0.data)
+    if len(_LINEAR) >= _LINEAR_SIZE:
+        _LINEAR.pop(next(iter(_LINEAR)))
+    # the parts are kept with the entry: the ids in its key stay theirs
+    _LINEAR[key] = (circuit.parts, got)
+    return got
+
+
 class System:
     """The nonlinear network of one analysis of a circuit.
 
@@ -166,7 +210,8 @@ class System:
         overrides = overrides or {}
         self.circuit = circuit
         self.analysis = analysis
-        net = assemble(circuit, analysis, frequency, overrides, floating)
+        net, a_rows, a_cols, a_vals = linear_network(circuit, analysis, frequency, overrides,
+                                                      floating)
         self.net0 = net
         N0 = net.size
         idx = net.node_index
@@ -263,10 +308,9 @@ class System:
         self.size = N
         self.n_nodes = node_unknowns
         # padded linear matrix and right-hand side
-        A0 = net.A.tocoo()
-        self.lin_rows = np.concatenate([A0.row, np.array(lr, dtype=np.int64)]).astype(np.int64)
-        self.lin_cols = np.concatenate([A0.col, np.array(lc, dtype=np.int64)]).astype(np.int64)
-        self.lin_vals = np.concatenate([A0.data, np.array(lv, dtype=float)])
+        self.lin_rows = np.concatenate([a_rows, np.array(lr, dtype=np.int64)])
+        self.lin_cols = np.concatenate([a_cols, np.array(lc, dtype=np.int64)])
+        self.lin_vals = np.concatenate([a_vals, np.array(lv, dtype=float)])
         b = np.zeros(N, dtype=net.b.dtype)
         b[:N0] = net.b
         for k, v in b_extra.items():
@@ -440,8 +484,9 @@ class System:
             J = self._work_matrix(g, gmin)
             rhs = self.companion_rhs(b, i, g, v)
             try:
-                x = splu(J, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.1,
-                         options={"SymmetricMode": True}).solve(rhs)
+                lu = splu(J, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.1,
+                          options={"SymmetricMode": True})
+                x = lu.solve(rhs)
             except RuntimeError:
                 return None, v, it, False, np.ones(len(v), dtype=bool)
             if not np.all(np.isfinite(x)):
@@ -460,6 +505,8 @@ class System:
                 moved &= off
             bad = lim | moved
             if not bad.any():
+                if gmin == 0.0:     # the factors of the Jacobian at the solution (v)
+                    self._last_lu = (v, lu)
                 return x, v, it, True, bad
             if it > DAMP_AFTER:
                 vnew = v + 0.5 * (vnew - v)
@@ -577,6 +624,15 @@ class System:
         """The Newton matrix at an operating point (the linearized DC network)."""
         _, g = law(op.v, self.log_is, self.nvt)
         return self.matrix(g)
+
+    def factors(self, op: OperatingPoint):
+        """``(J, Factorization of J)`` at an operating point: Newton's last factors when it
+        ended there (the same matrix, factored with the same options), else new ones."""
+        J = self.jacobian(op)
+        last = getattr(self, "_last_lu", None)
+        if last is not None and last[0] is op.v:
+            return J, Factorization(J, lu=last[1])
+        return J, Factorization(J)
 
     def linear_network(self, A) -> Network:
         """The extended :class:`Network` with matrix ``A`` (what the predictions read)."""

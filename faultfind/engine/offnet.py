@@ -35,7 +35,6 @@ from dataclasses import replace
 import numpy as np
 
 from ..model import Accuracy, Circuit, MeterProfile
-from .factor import Factorization
 from .junctions import law
 from .meter import OHMS_COMPLIANCE, ohmmeter_ranges
 from .nonlinear import System, junction_grad
@@ -62,9 +61,9 @@ def _sens(circuit, sysm, op, u, pindex, npar):
     """``d (u^T x) / d ln p`` at an operating point of ``sysm`` (linearized network)."""
     if npar == 0:
         return np.zeros(0)
-    J = sysm.jacobian(op)
+    J, lu = sysm.factors(op)
     net = sysm.linear_network(J)
-    lam = Factorization(J).solve_adjoint(u)
+    lam = lu.solve_adjoint(u)
     st = Stamps(circuit, net, pindex)
     G = st.grad_block(lam[:, None], op.x[:, None], npar, [-1])
     G = G + junction_grad(sysm, lam[:, None], op.v, npar)

@@ -41,7 +41,7 @@ from .nonlinear import System, junction_grad
 from .stamps import Stamps
 
 __all__ = ["off_reading", "lifted_junction", "lifted_junction_sens", "diode_test_display_limit",
-           "CLAMP_SHARE"]
+           "diode_test_adjoint", "CLAMP_SHARE"]
 
 #: A diode-test or ohms reading is OL when the source's clamp takes more than
 #: this share of the test current.
@@ -147,6 +147,29 @@ def off_reading(circuit: Circuit, plus: str, minus: str, quantity: str, meter, o
         s = _sens(circuit, sysm, op, u, pindex or {}, npar)
         return shown, (s if quantity == "diode-test" else s / cur)
     return np.inf, zeros
+
+
+def diode_test_adjoint(circuit, plus, minus, meter, op):
+    """``(system, lambda)`` of a diode test on ``circuit`` (no overrides) at its solution
+    ``op`` (an earlier :func:`off_reading`'s, ``keep["op"]``): the power-off system with
+    the meter's source in place and ``lambda = J^-T u``, ``u`` selecting the probes, for
+    the change of the display under a small change of the network's equations
+    (``d display = -lambda^T dF``).  None when the probes are not connected or ``op`` is
+    not a solution of that system."""
+    top = diode_test_display_limit(meter)
+    voc = max(meter.diode_test_voltage, top + KNEE_MARGIN)
+    sysm = _system(circuit, None, None, plus, minus, meter.diode_test_current, voc)
+    if not sysm.net0.connected(plus, minus) or tuple(op.keys) != sysm.keys:
+        return None
+    sysm.set_source(meter.diode_test_current, voc)
+    ip, im = sysm.net.node_index[plus], sysm.net.node_index[minus]
+    u = np.zeros(sysm.size)
+    if ip >= 0:
+        u[ip] += 1.0
+    if im >= 0:
+        u[im] -= 1.0
+    _, lu = sysm.factors(op)
+    return sysm, lu.solve_adjoint(u)
 
 
 #: Power-off systems of the last few (circuit, overrides) pairs, the meter

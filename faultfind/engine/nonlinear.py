@@ -44,7 +44,7 @@ Linear circuits never come here (``Circuit.is_nonlinear`` is false).
 from __future__ import annotations
 
 import re
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 import scipy.sparse as sp
@@ -55,9 +55,10 @@ from ..model import SEMICONDUCTORS
 from .factor import Factorization
 from .junctions import ARG_MAX, Element, critical_voltage, device, law, limit
 from .mna import Network, assemble
+from .stamps import Stamps
 
 __all__ = ["System", "OperatingPoint", "operating_point", "ConvergenceError",
-           "VTOL", "MAXITER"]
+           "VTOL", "MAXITER", "linear_network", "shared_stamps", "junction_grad"]
 
 #: Newton has converged when every element voltage moved less than this (volts).
 VTOL = 1e-9
@@ -138,18 +139,38 @@ def _linear_key(circuit, analysis, frequency, overrides, floating):
     """What :func:`.mna.assemble` reads: every linear part as an object (with its
     override), every semiconductor by its name, kind, nodes and topology override
     (their values and models stamp nothing there)."""
-    get = overrides.get
     joins = analysis == "off" or floating    # a semiconductor's faults change connectivity
-    parts = []
-    for p in circuit.parts:
-        ov = get(p.ref)
+    over = []
+    for ref, ov in overrides.items():
+        if not circuit.has_part(ref):
+            continue
+        p = circuit.part(ref)
         if p.kind in SEMICONDUCTORS:
             if not isinstance(ov, str) or not (joins or ov == "short" and p.kind in _KEY_TWO):
-                ov = None      # a leak, a drift or (live, not floating) an open: no stamp
-            parts.append((p.ref, p.kind, p.nodes, ov))
-        else:
-            parts.append((id(p), ov))
-    return (analysis, frequency, bool(floating), circuit.ground, tuple(parts))
+                continue       # a leak, a drift or (live, not floating) an open: no stamp
+        elif ov is None:
+            continue
+        over.append((ref, ov))
+    return (analysis, frequency, bool(floating), _signature(circuit), tuple(sorted(over, key=str)))
+
+
+#: Circuits' signatures (:func:`_signature`), by the circuit's identity.
+_SIGNATURES: dict = {}
+
+
+def _signature(circuit):
+    """The ground, every linear part as an object and every semiconductor by its name,
+    kind and nodes (its values and models stamp nothing in the linear network)."""
+    hit = _SIGNATURES.get(id(circuit))
+    if hit is not None and hit[0] is circuit:
+        return hit[1]
+    semi = SEMICONDUCTORS
+    sig = (circuit.ground,) + tuple((p.ref, p.kind, p.nodes) if p.kind in semi else id(p)
+                                    for p in circuit.parts)
+    if len(_SIGNATURES) >= 256:
+        _SIGNATURES.clear()
+    _SIGNATURES[id(circuit)] = (circuit, sig)
+    return sig
 
 
 def linear_network(circuit, analysis, frequency=None, overrides=None, floating=False):
@@ -160,14 +181,76 @@ def linear_network(circuit, analysis, frequency=None, overrides=None, floating=F
     hit = _LINEAR.get(key)
     if hit is not None:
         return hit[1]
-    net = assemble(circuit, analysis, frequency, overrides, floating)
-    A0 = net.A.tocoo()
-    got = (net, A0.row.astype(np.int64), A0.col.astype(np.int64), A0.data)
+    # the same network with other values of some linear parts: its values patched
+    skey = (key[0], key[1], key[2], key[4], circuit.ground,
+            tuple((p.ref, p.kind, p.nodes) for p in circuit.parts))
+    base = _BASES.get(skey)
+    got = _revalued(base, circuit, analysis, overrides) if base is not None else None
+    if got is None:
+        net = assemble(circuit, analysis, frequency, overrides, floating)
+        A0 = net.A.tocoo()      # a canonical CSC matrix: its COO triplets in its data's order
+        got = (net, A0.row.astype(np.int64), A0.col.astype(np.int64), A0.data)
+        if base is None:
+            if len(_BASES) >= _LINEAR_SIZE:
+                _BASES.pop(next(iter(_BASES)))
+            _BASES[skey] = (circuit.parts, got)
     if len(_LINEAR) >= _LINEAR_SIZE:
         _LINEAR.pop(next(iter(_LINEAR)))
     # the parts are kept with the entry: the ids in its key stay theirs
     _LINEAR[key] = (circuit.parts, got)
     return got
+
+
+#: A first assembled network of each structure (parts by name, kind and nodes; the
+#: same topology overrides): a network whose linear parts differ only in value is that
+#: one with its values patched (:func:`_revalued`).
+_BASES: dict = {}
+
+
+def _revalued(base, circuit, analysis, overrides):
+    """``base``'s network with the values of ``circuit``'s linear parts that differ from
+    its own only in ``value`` (resistors, fuses, closed switches; DC voltage sources;
+    parts that stamp nothing in this analysis); None when another change is there (the
+    caller assembles)."""
+    parts0, (net, rows, cols, vals) = base
+    changed = [(p0, p) for p0, p in zip(parts0, circuit.parts) if p0 is not p]
+    if not changed or len(changed) > 4:
+        return None
+    vals = vals.copy()
+    y_val, b, br_e = net.y_val, net.b, net.br_e
+    for p0, p in changed:
+        if p.kind in SEMICONDUCTORS or p0 != replace(p, value=p0.value):
+            return None           # not a value change of a linear part
+        ov = overrides.get(p.ref)
+        el = net.element.get(p.ref)
+        if ov is not None and not isinstance(ov, str):
+            return None
+        if el is None or ov in ("open", "short", "dead"):
+            continue              # nothing of it in this network
+        if el[0] == "y" and p.kind in ("resistor", "fuse", "switch"):
+            k = el[1]
+            if y_val is net.y_val:
+                y_val = y_val.copy()
+            dy = 1.0 / p.value - y_val[k]
+            y_val[k] += dy
+            a, bb = net.y_a[k], net.y_b[k]
+            for r, c, sg in ((a, a, 1.0), (bb, bb, 1.0), (a, bb, -1.0), (bb, a, -1.0)):
+                if r >= 0 and c >= 0:
+                    vals[np.flatnonzero((rows == r) & (cols == c))] += sg * dy
+        elif el[0] == "br" and p.kind == "voltage-source" and analysis == "dc" \
+                and p.waveform != "ac":
+            k = el[1]
+            if b is net.b:
+                b, br_e = b.copy(), br_e.copy()
+            br_e[k] = p.value
+            b[net.n + k] = p.value
+        else:
+            return None
+    A = net.A.copy()
+    A.data = vals.astype(A.dtype)
+    new = replace(net, A=A, b=b, y_val=y_val, br_e=br_e)
+    new.indeterminate = getattr(net, "indeterminate", set())
+    return new, rows, cols, vals
 
 
 class System:
@@ -686,6 +769,25 @@ def operating_point(circuit, overrides=None, warm=None, floating=False) -> tuple
     """
     sysm = System(circuit, "dc", None, overrides, floating)
     return sysm, sysm.solve(warm)
+
+
+def shared_stamps(st: Stamps, system: System, circuit, pindex) -> Stamps:
+    """Set up ``st`` (a :class:`~.stamps.Stamps`) on ``system``'s linearised network
+    (``system.net``): the stamp derivatives and the incidence map are the linear
+    network's, shared by every system built on it (a junction's fault or value, or
+    the meter's source, leaves them as they were), so they are worked out once."""
+    memo = system.net0.__dict__.setdefault("_stamps", {})
+    key = (tuple(pindex), system.size)
+    got = memo.get(key)
+    if got is None:
+        Stamps.__init__(st, circuit, system.net, pindex)
+        if len(memo) > 16:
+            memo.clear()
+        memo[key] = (st.jy, st.dy, st.src, st.incidence())
+    else:
+        st.net = system.net
+        st.jy, st.dy, st.src, st._inc = got
+    return st
 
 
 def junction_grad(system: System, Lam, v, n_params):

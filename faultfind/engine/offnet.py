@@ -37,7 +37,7 @@ import numpy as np
 from ..model import Accuracy, Circuit, MeterProfile
 from .junctions import law
 from .meter import OHMS_COMPLIANCE, ohmmeter_ranges
-from .nonlinear import System, junction_grad
+from .nonlinear import System, junction_grad, shared_stamps
 from .stamps import Stamps
 
 __all__ = ["off_reading", "lifted_junction", "lifted_junction_sens", "diode_test_display_limit",
@@ -62,9 +62,9 @@ def _sens(circuit, sysm, op, u, pindex, npar):
     if npar == 0:
         return np.zeros(0)
     J, lu = sysm.factors(op)
-    net = sysm.linear_network(J)
+    sysm.linear_network(J)
     lam = lu.solve_adjoint(u)
-    st = Stamps(circuit, net, pindex)
+    st = shared_stamps(Stamps.__new__(Stamps), sysm, circuit, pindex)
     G = st.grad_block(lam[:, None], op.x[:, None], npar, [-1])
     G = G + junction_grad(sysm, lam[:, None], op.v, npar)
     return np.asarray(G[:, 0].real, dtype=float)

@@ -62,7 +62,7 @@ from ..model import SEMICONDUCTORS, Circuit, MeterProfile, Part
 from .factor import Factorization
 from .junctions import law
 from .linpredict import Prediction, _lifted, _live_block, analysis_key, finish, parameters
-from .nonlinear import System, junction_grad
+from .nonlinear import System, junction_grad, shared_stamps
 from .offnet import off_reading
 from .stamps import Stamps
 
@@ -118,19 +118,7 @@ class DCGroup(Stamps):
         J, self.lu = self.sys.factors(self.op)
         net = self.sys.linear_network(J)
         self.x = self.op.x
-        # the stamp derivatives and the incidence map are the linear network's, shared by
-        # every system built on it (a junction's fault or value leaves them as they were)
-        memo = self.sys.net0.__dict__.setdefault("_stamps", {})
-        key = (tuple(pindex), self.sys.size)
-        got = memo.get(key)
-        if got is None:
-            super().__init__(circuit, net, pindex)
-            if len(memo) > 16:
-                memo.clear()
-            memo[key] = (self.jy, self.dy, self.src, self.incidence())
-        else:
-            self.net = net
-            self.jy, self.dy, self.src, self._inc = got
+        shared_stamps(self, self.sys, circuit, pindex)
 
     def grad_block(self, Lam, X, n_params, skips):
         G = super().grad_block(Lam, X, n_params, skips)

@@ -13,14 +13,16 @@ fault-hypothesis parameters.  A linear board has none: nothing here runs.
 
 from __future__ import annotations
 
+import copy
 from dataclasses import replace
 
 import numpy as np
 
 from ..errors import SolveError
 from .bands import log_tolerance
-from .junctions import device, law
+from .junctions import critical_voltage, device, law
 from .linpredict import analysis_key
+from .semis import LOAD_EXACT
 from .offnet import diode_test_adjoint
 from .predict import predict
 
@@ -186,6 +188,53 @@ def _screen(circuit, readings, meters, mp, factors, share, off_ops):
     return need, lin
 
 
+def _dc_voltages(dc, ref, parts, readings, idx, meters):
+    """DC voltage displays ``idx`` with part ``ref`` replaced by each of ``parts`` (its
+    model key moved), by Newton on a copy of the healthy system ``dc.sys`` whose elements
+    of that part take the new law (the same structure: nothing else is built), from the
+    healthy operating point; the voltmeter's loading as :func:`.linpredict._live_block`
+    does it.  Rows of NaN where Newton fails; None when the part's elements do not
+    match or a meter loads a node heavily (:data:`.semis.LOAD_EXACT`: the caller
+    re-solves those with the meter in place)."""
+    base = dc.sys
+    ks, terms = _element_change(base, ref, parts)
+    if terms is None:
+        return None
+    net = dc.net
+    U = np.zeros((base.size, len(idx)))
+    at = net.node_index
+    for q, i in enumerate(idx):
+        a, b = at[readings[i].plus], at[readings[i].minus]
+        if a >= 0:
+            U[a, q] += 1.0
+        if b >= 0:
+            U[b, q] -= 1.0
+    g_in = np.array([1.0 / meters[readings[i].meter or "default"].input_resistance for i in idx])
+    out = np.full((len(parts), len(idx)), np.nan)
+    for r, (w, log_is) in enumerate(terms):
+        var = copy.copy(base)
+        var.log_is = base.log_is.copy()
+        var.log_is[ks] = log_is
+        var.w = base.w.copy()
+        var.w[ks] = np.where(base.out[ks] >= 0, w, 0.0)
+        var._ew = np.repeat(var.w, 2, axis=1)
+        var.vcrit = base.vcrit.copy()
+        var.vcrit[ks] = critical_voltage(log_is + base.voff[ks] / base.nvt[ks], base.nvt[ks])
+        var._Jw = None
+        var._last_lu = None
+        try:
+            op = var.solve(dc.op)
+        except SolveError:
+            continue
+        _, lu = var.factors(op)
+        W = lu.solve(U)
+        z = np.einsum("ij,ij->j", U, W)
+        if np.any(np.abs(z * g_in) > LOAD_EXACT):
+            return None
+        out[r] = (U.T @ op.x) / (1.0 + g_in * z)
+    return out
+
+
 def model_spread_columns(circuit, readings, meters, pred=None, share=None, off_ops=None):
     """One-sigma effects of the model spread on the displays.
 
@@ -238,9 +287,23 @@ def model_spread_columns(circuit, readings, meters, pred=None, share=None, off_o
     # power-off readings start from the healthy solution (or the first re-solve's) of
     # the same reading
     off_warm = dict(off_ops or {})
+    dc = (share or {}).get(("dc", None))
+    if dc is not None and dc.circuit is not circuit:
+        dc = None
+    volt = np.array([rd.quantity == "voltage" and analysis_key(circuit, rd) == ("dc", None)
+                     for rd in readings], dtype=bool)
+    by_ref = {p.ref: p for p in circuit.parts}
     for j, (ref, key, lo, hi) in enumerate(mp):
         d = lin[j].copy()
         idx = np.flatnonzero(need[j])
+        fast = idx[volt[idx]] if dc is not None else idx[:0]
+        if fast.size:
+            # DC voltages by Newton on the healthy system with the key's law changed
+            Pf = _dc_voltages(dc, ref, [_with_part(by_ref[ref], key, f) for f in factors[j]],
+                              readings, fast, meters)
+            if Pf is not None:
+                d[fast] = (Pf[0] - Pf[1]) / 2.0
+                idx = idx[~volt[idx]]
         if idx.size:
             P = _model_resolved(circuit, [readings[i] for i in idx], meters, ref, key, factors[j],
                                 yf[idx], pred.operating_point, off_warm)

@@ -482,6 +482,7 @@ class System:
         self._indptr = np.concatenate([[0], np.cumsum(np.bincount(uniq // N, minlength=N))]).astype(np.int32)
         self._nlin = self.lin_vals.size
         self._ndev = int(ok.sum())
+        self._lin_data = None
 
     def matrix(self, g, gmin=0.0, lin_vals=None):
         """The linearized matrix: linear part + element conductances ``g`` + ``gmin`` on node diagonals."""
@@ -510,6 +511,22 @@ class System:
 
     def _values(self, g, gmin=0.0, lin_vals=None):
         """The matrix's nonzero values in the pattern's order."""
+        if lin_vals is None and self.lin_vals.dtype == float:
+            # the linear part's sums are the same every iteration: summed once
+            base = self.__dict__.get("_lin_data")
+            if base is None:
+                nl, nd = self._nlin, self._ndev
+                base = self._lin_data = np.bincount(self._inv[:nl], weights=self.lin_vals,
+                                                    minlength=self._nuniq)
+                self._dev_inv = self._inv[nl:nl + nd]
+                self._diag_pos = self._inv[nl + nd:]
+            data = base.copy()
+            if len(g):
+                dev = (self._ew * self._es[None, :] * np.asarray(g, dtype=float)[:, None])[self._emask]
+                data += np.bincount(self._dev_inv, weights=dev, minlength=self._nuniq)
+            if gmin:
+                data[self._diag_pos] += gmin
+            return data
         lin = self.lin_vals if lin_vals is None else lin_vals
         dev = (self._ew * self._es[None, :] * np.asarray(g)[:, None])[self._emask] if len(g) else np.zeros(0)
         diag = np.full(len(self.n_nodes), gmin)
@@ -533,7 +550,7 @@ class System:
         if len(v):
             c = (self.w * (i - g * v)[:, None])
             m = self.out >= 0
-            np.subtract.at(rhs, self.out[m], c[m])
+            rhs -= np.bincount(self.out[m], weights=c[m], minlength=rhs.size)
         return rhs
 
     def element_currents(self, x=None, v=None):

@@ -213,7 +213,14 @@ def _heavy_loads(c, over, grp, readings, idx, meters, pindex, npar, value, sens,
     volt = [i for i in idx if readings[i].quantity == "voltage"]
     if not volt:
         return _heavy_shunts(c, over, grp, readings, idx, meters, pindex, npar, value, sens, grads)
-    U = np.column_stack([grp.net.node_vector(readings[i].plus, readings[i].minus) for i in volt])
+    U = np.zeros((grp.net.size, len(volt)))
+    at = grp.net.node_index
+    for q, i in enumerate(volt):
+        a, b = at[readings[i].plus], at[readings[i].minus]
+        if a >= 0:
+            U[a, q] += 1.0
+        if b >= 0:
+            U[b, q] -= 1.0
     z = np.einsum("ij,ij->j", U, grp.lu.solve(U))
     heavy = set()
     for q, i in enumerate(volt):
@@ -322,6 +329,23 @@ def _meter_shifts_operating_point(grp, readings, idx, meters, value):
     value[volt] = value[volt] + delta
 
 
+#: Parameters and their columns of recent circuits, by the circuit's identity.
+_PARAMS: dict = {}
+
+
+def _parameters(circuit):
+    """``(parameters(circuit), {ref: column})``, kept per circuit (read-only)."""
+    hit = _PARAMS.get(id(circuit))
+    if hit is not None and hit[0] is circuit:
+        return hit[1], hit[2]
+    params = parameters(circuit)
+    pindex = {r: j for j, r in enumerate(params)}
+    if len(_PARAMS) >= 256:
+        _PARAMS.clear()
+    _PARAMS[id(circuit)] = (circuit, params, pindex)
+    return params, pindex
+
+
 def predict_nonlinear(circuit: Circuit, readings, meters: dict, overrides: dict | None = None, *,
                       share: dict | None = None, warm=None, off_warm=None,
                       off_sens=True, sens=True) -> Prediction:
@@ -347,8 +371,7 @@ def predict_nonlinear(circuit: Circuit, readings, meters: dict, overrides: dict 
         raise ValueError("meters: must contain a 'default' profile")
     off_sens = off_sens and sens
     c, over = split_overrides(circuit, overrides)
-    params = parameters(circuit)
-    pindex = {r: j for j, r in enumerate(params)}
+    params, pindex = _parameters(circuit)
     npar = len(params)
     readings = list(readings)
     nr = len(readings)

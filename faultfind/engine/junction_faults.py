@@ -40,6 +40,7 @@ from ..errors import SolveError
 from ..model import Part
 from .drifts import _occam
 from .faults import Fault
+from .nonlinear import Solution
 from .predict import predict
 
 __all__ = ["JUNCTION_DRIFT", "LEAK_RANGE", "NONLINEAR_TOP", "EXACT_ALL", "RESCORE_WINDOW",
@@ -116,6 +117,18 @@ def _faulted(circuit, faults):
     if extra:
         circuit = replace(circuit, parts=tuple(circuit.parts) + tuple(extra))
     return circuit, overrides
+
+
+#: Solutions of faulted variants by (board, variant): the live operating point's element
+#: voltages and each power-off reading's, where a later solve of the same variant starts
+#: (:class:`~.nonlinear.Solution`: one Newton iteration).  Kept across diagnoses of the
+#: same circuit object (re-diagnosing after a new reading solves the same variants).
+_SOLVED: dict = {}
+
+
+def _key_of(overrides):
+    """A hashable form of a variant's overrides."""
+    return tuple(sorted((r, repr(v)) for r, v in overrides.items()))
 
 
 def _key(faults):
@@ -249,12 +262,30 @@ class Exact:
         ev = self.ev
         rows = list(rows)
         rds = [ev.readings[i] for i in rows]
-        kw = {"warm": self.warm} if self.warm is not None else {}
+        # Newton starts from this variant's own solution when it was solved before (in
+        # this diagnosis or an earlier one of the same board), else from the healthy one
+        extra = tuple((p.ref, p.nodes, p.value) for p in circuit.parts[len(ev.circuit.parts):]) \
+            if circuit is not ev.circuit else ()
+        skey = (id(ev.circuit), extra) + _key_of(overrides)
+        hit = _SOLVED.get(skey)
+        if hit is not None and hit[0] is not ev.circuit:
+            hit = None
+        warm = hit[1] if hit is not None and hit[1] is not None else self.warm
+        kw = {"warm": warm} if warm is not None else {}
+        keep = None
         if any(i not in self.live_set for i in rows):
-            kw["off_warm"] = self._off_warm()
+            off = self._off_warm()
+            kw["off_warm"] = {**off, **hit[2]} if hit is not None else off
+            kw["off_keep"] = keep = {}
         # predict() re-solves with the meter in the circuit where the meter loads a node
         # heavily (a pad above an open LED): docs/junction-models.md
         pr = predict(circuit, rds, ev.meters, overrides=overrides, sens=sens, **kw)
+        live = Solution(pr.operating_point) if pr.operating_point is not None else None
+        offs = dict(hit[2]) if hit is not None else {}
+        offs.update({k: Solution(op.voltages()) for k, op in (keep or {}).items()})
+        if len(_SOLVED) >= 4096:
+            _SOLVED.clear()
+        _SOLVED[skey] = (ev.circuit, live or (hit[1] if hit is not None else None), offs)
         val = np.full(ev.n, np.nan)
         val[rows] = np.asarray(pr.value, dtype=float)
         if not sens:

@@ -23,6 +23,7 @@ from .bands import log_tolerance
 from .junctions import critical_voltage, device, law
 from .linpredict import analysis_key
 from .semis import LOAD_EXACT
+from .nonlinear import Solution
 from .offnet import diode_test_adjoint
 from .predict import predict
 
@@ -188,6 +189,11 @@ def _screen(circuit, readings, meters, mp, factors, share, off_ops):
     return need, lin
 
 
+#: Operating points of model variants by (board, part as varied): where the next
+#: diagnosis of the same circuit object starts them (one Newton iteration).
+_SOLVED: dict = {}
+
+
 def _dc_voltages(dc, ref, parts, readings, idx, meters):
     """DC voltage displays ``idx`` with part ``ref`` replaced by each of ``parts`` (its
     model key moved), by Newton on a copy of the healthy system ``dc.sys`` whose elements
@@ -222,10 +228,16 @@ def _dc_voltages(dc, ref, parts, readings, idx, meters):
         var.vcrit[ks] = critical_voltage(log_is + base.voff[ks] / base.nvt[ks], base.nvt[ks])
         var._Jw = None
         var._last_lu = None
+        skey = (id(dc.circuit), ref, repr(parts[r]))
+        hit = _SOLVED.get(skey)
+        warm = hit[1] if hit is not None and hit[0] is dc.circuit else dc.op
         try:
-            op = var.solve(dc.op)
+            op = var.solve(warm)
         except SolveError:
             continue
+        if len(_SOLVED) >= 1024:
+            _SOLVED.clear()
+        _SOLVED[skey] = (dc.circuit, Solution(op.voltages()))
         _, lu = var.factors(op)
         W = lu.solve(U)
         z = np.einsum("ij,ij->j", U, W)

@@ -57,7 +57,7 @@ from .junctions import ARG_MAX, Element, critical_voltage, device, law, limit
 from .mna import Network, assemble
 from .stamps import Stamps
 
-__all__ = ["System", "OperatingPoint", "operating_point", "ConvergenceError",
+__all__ = ["System", "OperatingPoint", "Solution", "operating_point", "ConvergenceError",
            "VTOL", "MAXITER", "linear_network", "shared_stamps", "junction_grad"]
 
 #: Newton has converged when every element voltage moved less than this (volts).
@@ -108,6 +108,12 @@ class OperatingPoint:
     def voltages(self) -> dict:
         """Element voltages by (part ref, element name): a warm start for a nearby circuit."""
         return dict(zip(self.keys, self.v.tolist()))
+
+
+class Solution(dict):
+    """Element voltages by (part ref, element name) of an earlier solution of the very
+    board being solved (the same faulted variant): Newton starts there as they are (no
+    junction is put back at 0 V, :attr:`System.zero_start`) and settles in one iteration."""
 
 
 #: Devices built from (part, override) pairs, by the part's identity: every re-solve of a
@@ -570,8 +576,9 @@ class System:
             for k, key in enumerate(self.keys):
                 if key in w:
                     v[k] = w[key]
-        for k in self.zero_start:
-            v[k] = 0.0
+        if not isinstance(warm, Solution):
+            for k in self.zero_start:
+                v[k] = 0.0
         return v
 
     def _newton(self, v, b, gmin=0.0, maxiter=MAXITER):

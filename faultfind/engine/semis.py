@@ -348,7 +348,7 @@ def _parameters(circuit):
 
 def predict_nonlinear(circuit: Circuit, readings, meters: dict, overrides: dict | None = None, *,
                       share: dict | None = None, warm=None, off_warm=None,
-                      off_sens=True, sens=True) -> Prediction:
+                      off_sens=True, sens=True, off_keep=None) -> Prediction:
     """:func:`faultfind.engine.predict.predict` for a circuit with semiconductors.
 
     ``warm``: an earlier prediction's ``operating_point`` (or an
@@ -360,7 +360,8 @@ def predict_nonlinear(circuit: Circuit, readings, meters: dict, overrides: dict 
     ``off_sens`` False: the power-off readings' sensitivity rows are left at
     zero (their values are the same; each row costs a factorization).
     ``sens`` False: every sensitivity row is left at zero (the values only: no
-    adjoint solves; implies ``off_sens`` False).
+    adjoint solves; implies ``off_sens`` False).  ``off_keep``: a dict filled with
+    every power-off reading's solution (its first range's) by the same key.
 
     Raises
     ------
@@ -389,14 +390,18 @@ def predict_nonlinear(circuit: Circuit, readings, meters: dict, overrides: dict 
         elif key[0] == "off":
             plus, minus = c.part(rd.part).nodes[:2] if rd.part is not None else (rd.plus, rd.minus)
             okey = (plus, minus, rd.quantity)
-            hold = {} if off_warm is not None and okey not in off_warm else None
+            hold = {} if (off_warm is not None and okey not in off_warm) or off_keep is not None \
+                else None
             v, s = off_reading(c, plus, minus, rd.quantity, meter, over, pindex,
                                npar if off_sens else 0, warm=(off_warm or {}).get(okey), keep=hold)
             value[i] = v
             if off_sens:
                 rows[i] = s
             if hold and "op" in hold:
-                off_warm[okey] = hold["op"]
+                if off_warm is not None and okey not in off_warm:
+                    off_warm[okey] = hold["op"]
+                if off_keep is not None:
+                    off_keep[okey] = hold["op"]
         else:
             by_key.setdefault(key, []).append(i)
     dc = None

@@ -27,11 +27,12 @@ from .engine.predict import predict
 from .engine.priors import HANDBOOK
 from .errors import InputError, SolveError
 from .io.meters_file import meters_with_default
-from .model import QUANTITY_UNITS, Circuit, Reading
+from .model import QUANTITY_UNITS, Circuit, Reading, power_for
+from .shown import reading_text
 from .units import format_value
 
 __all__ = ["Suggestion", "DEFAULT_COSTS", "suggest", "candidate_readings", "contact_strings", "load_costs",
-           "ELV_AC", "ELV_DC", "suggestion_json"]
+           "follows_by_kvl", "ELV_AC", "ELV_DC", "suggestion_json"]
 
 #: Effort of each kind of reading, in "probe placements" (docs/advice.md).
 #: Common practice (no source): a voltage probe is cheap; a current reading
@@ -124,7 +125,7 @@ def load_costs(path) -> dict:
 
 def _power(rd: Reading) -> str:
     """A resistance and a diode test are power-off readings."""
-    return "off" if rd.quantity in ("resistance", "diode-test") else "on"
+    return power_for(rd.quantity)
 
 
 def junction_probes(part):
@@ -518,6 +519,8 @@ def _suggest(circuit, readings, meters, hypotheses, costs, power, top, factors, 
     # a reading that repeats one taken, another way, tells nothing new
     cands_ok &= ~_repeats(mu_s[:C], noise_s[:C], mu_s[C:C + M], fed,
                           [rd.quantity for rd in cands], [rd.quantity for rd in seen])
+    # nor does a DC voltage that follows from taken ones by Kirchhoff's voltage law
+    cands_ok &= ~follows_by_kvl(cands, seen)
     gain = np.where(cands_ok, gain, 0.0)
     cost = np.array([_cost(rd, power, costs, circuit) for rd in cands])
     score = gain / cost
@@ -538,7 +541,8 @@ def _suggest(circuit, readings, meters, hypotheses, costs, power, top, factors, 
         if rd.quantity == "current":
             caution += ("; the meter goes in series: break the circuit with power off first "
                         "(or use a clamp meter), then restore power")
-        why = _why(circuit, rd, kept, fed / fed.sum(), mu[c], mean_s[c], sd_s[c], power)
+        why = _why(circuit, rd, kept, fed / fed.sum(), mu[c], mean_s[c], sd_s[c], power,
+                   meters.get(rd.meter or "default", meters["default"]))
         why += _limit_note(circuit, kept, probs_eff, drawn)
         out.append(Suggestion(rd, pw, float(score[c]), float(gain[c]), float(cost[c]), why, caution))
     return out
@@ -607,6 +611,9 @@ def _same(circuit, rd):
     if rd.quantity == "resistance" and rd.setup != "lifted":
         plus, minus = circuit.part(rd.part).nodes[:2] if rd.part is not None else (rd.plus, rd.minus)
         return ("resistance", frozenset((plus, minus)))
+    if rd.quantity == "diode-test":   # red probe on the first node: the direction counts
+        plus, minus = circuit.part(rd.part).nodes[:2] if rd.part is not None else (rd.plus, rd.minus)
+        return ("diode-test", plus, minus)
     freq = rd.frequency if rd.frequency != circuit.frequency else None
     if rd.quantity == "voltage":
         return ("voltage", rd.mode, frozenset((rd.plus, rd.minus)), freq)
@@ -635,6 +642,58 @@ def _repeats(a, na, b, weight, qa, qb):
         with np.errstate(invalid="ignore"):
             hit = np.all(np.abs(x - B[None]) <= t, axis=2) | np.all(np.abs(x + B[None]) <= t, axis=2)
         out[s:s + step] = np.any(hit & same[s:s + step], axis=1)
+    return out
+
+
+def follows_by_kvl(cands, taken):
+    """For each of ``cands``: is it a DC voltage that the ``taken`` DC voltages already give?
+
+    Kirchhoff's voltage law: the voltage between two nodes is the sum of the
+    voltages along any path joining them, so once V(a,b) and V(b,c) are read,
+    V(a,c) is their sum under every hypothesis (up to the meter's own error
+    and loading), and reading it tells nothing new.  The taken readings are
+    edges between their probe nodes; a candidate whose probe nodes the edges
+    already join follows from them.  AC readings are left alone: a meter
+    shows the magnitude, and magnitudes of phasors do not add.
+
+    The Gaussian conditional of :func:`~faultfind.engine.advise.condition_on_taken`
+    would find this too if every reading's tolerance spread under a fault
+    were the healthy one, but it is rescaled per reading and hypothesis
+    (docs/advice.md, step 3), and the rescaled spreads no longer add up
+    along a loop: a fuse's drop read after the drops across the fuse and
+    the contacts together, and across the contacts alone, was predicted to
+    tell a lamp open from healthy by four standard deviations.
+
+    Parameters
+    ----------
+    cands, taken : sequence of Reading
+        ``taken`` with finite values on scale.
+
+    Returns
+    -------
+    ndarray of bool, shape (len(cands),)
+    """
+    parent = {}
+
+    def find(n):
+        while parent.get(n, n) != n:
+            parent[n] = parent.get(parent[n], parent[n])
+            n = parent[n]
+        return n
+
+    def dc_volts(rd):
+        return rd.quantity == "voltage" and rd.mode == "dc" and rd.setup is None \
+            and rd.plus is not None and rd.minus is not None
+
+    for rd in taken:
+        if dc_volts(rd):
+            a, b = find(rd.plus), find(rd.minus)
+            if a != b:
+                parent[a] = b
+    out = np.zeros(len(cands), dtype=bool)
+    if parent:
+        for c, rd in enumerate(cands):
+            out[c] = dc_volts(rd) and rd.plus != rd.minus and find(rd.plus) == find(rd.minus)
     return out
 
 
@@ -708,7 +767,7 @@ def _label(circuit, faults):
     return " + ".join(parts)
 
 
-def _why(circuit, rd, kept, probs, mu, mu_s, sd_s, power):
+def _why(circuit, rd, kept, probs, mu, mu_s, sd_s, power, meter=None):
     unit = QUANTITY_UNITS[rd.quantity]
     idx = [i for i in np.argsort(-probs)[:6] if probs[i] > 0]
     best, bd = None, 0.0
@@ -723,8 +782,7 @@ def _why(circuit, rd, kept, probs, mu, mu_s, sd_s, power):
         return "separates the remaining hypotheses"
 
     def val(i):
-        v = mu[i]
-        return "OL" if not np.isfinite(v) else format_value(0.0 if abs(v) < 1e-10 and unit != "Ω" else v, unit)
+        return reading_text(mu[i], unit, meter, rd.quantity)
 
     a, b = best
     text = f"if {_label(circuit, kept[a][0])}, it reads {val(a)}; if {_label(circuit, kept[b][0])}, {val(b)}"

@@ -21,6 +21,7 @@ from .engine.predict import predict
 from .eseries import nearest, series_for_tolerance
 from .io.meters_file import meters_with_default
 from .model import QUANTITY_UNITS, Circuit, Reading
+from .shown import reading_text
 from .units import format_value
 
 __all__ = ["Diagnosis", "diagnose", "diagnosis_json", "describe_fault", "priors_json"]
@@ -79,11 +80,13 @@ def _name(rd: Reading) -> str:
 
 
 def _fmt(v, unit):
-    if v is None or not np.isfinite(v):
-        return "OL"
-    if unit != "Ω" and abs(v) < 1e-10:
-        v = 0.0  # numerical zero, far below any meter's resolution
-    return format_value(v, unit, digits=3)
+    return reading_text(v, unit)
+
+
+def _rfmt(ev, rd, v):
+    """``v`` as the meter that takes ``rd`` would show it (zero below its resolution)."""
+    meter = ev.meters.get(rd.meter or "default") or ev.meters.get("default")
+    return reading_text(v, UNITS[rd.quantity], meter, rd.quantity)
 
 
 def describe_fault(circuit, f) -> str:
@@ -154,8 +157,8 @@ def _explain(ev: Evaluator, h: Hypothesis, healthy: Hypothesis, limit=4):
         unit = UNITS[rd.quantity]
         shown = "OL" if rd.overrange else _fmt(rd.value, unit)
         if abs(z0[i]) > 3 and abs(zh[i]) <= 2 and n_for < limit:
-            out.append(f"for: {_name(rd)} reads {shown} where {_fmt(ev.pred0[i], unit)} "
-                       f"is expected; {label} explains it (predicts {_fmt(_shown(ev, h)[i], unit)})")
+            out.append(f"for: {_name(rd)} reads {shown} where {_rfmt(ev, rd, ev.pred0[i])} "
+                       f"is expected; {label} explains it (predicts {_rfmt(ev, rd, _shown(ev, h)[i])})")
             n_for += 1
     # a reading is "against" when it is off by more than chance allows among this many
     # readings: 3 standard deviations, raised so that the chance of any one of n readings
@@ -167,7 +170,7 @@ def _explain(ev: Evaluator, h: Hypothesis, healthy: Hypothesis, limit=4):
         shown = "OL" if rd.overrange else _fmt(rd.value, unit)
         if abs(zh[i]) > z_against and len(out) < 2 * limit:
             out.append(f"against: {_name(rd)} reads {shown} but {label} predicts "
-                       f"{_fmt(_shown(ev, h)[i], unit)}")
+                       f"{_rfmt(ev, rd, _shown(ev, h)[i])}")
     for f in h.faults:
         p = ev.circuit.part(f.ref)
         if f.mode == "drift" and f.value and getattr(f, "seen", True):
@@ -270,7 +273,7 @@ def _recheck(ev: Evaluator, best: Hypothesis):
         hint = ("; possible causes: " + ", ".join(hints)) if hints else \
             "; re-take it, check the probe points and the meter's mode and range"
         out.append(f"re-check {_name(rd)}: reads {'OL' if rd.overrange else _fmt(y, unit)} where the best "
-                   f"explanation ({best.label}) expects {_fmt(p, unit)}{hint}")
+                   f"explanation ({best.label}) expects {_rfmt(ev, rd, p)}{hint}")
     out.append("if the readings stand, more than one part may have failed, or the unit differs "
                "from its drawing (a modification, a wrong part fitted)")
     return out

@@ -14,7 +14,7 @@ import numpy as np
 from .engine.meter import overrange as meter_overrange
 from .engine.spread import tolerance_bands
 from .io.meters_file import meters_with_default
-from .model import QUANTITY_UNITS, Circuit, Reading
+from .model import QUANTITY_UNITS, Circuit, Reading, power_for
 
 __all__ = ["Expected", "expect", "survey_readings", "UNITS", "power_state"]
 
@@ -67,7 +67,7 @@ EXPECT_CHUNK = 512
 
 def power_state(reading: Reading) -> str:
     """"off" for a resistance or diode-test reading (circuit isolated), else "on"."""
-    return "off" if reading.quantity in ("resistance", "diode-test") else "on"
+    return power_for(reading.quantity)
 
 
 def survey_readings(circuit: Circuit) -> list[Reading]:

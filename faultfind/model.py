@@ -10,7 +10,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
-__all__ = ["KindInfo", "KINDS", "SEMICONDUCTORS", "JUNCTION_DEFAULTS", "TRANSISTOR_DEFAULTS",
+__all__ = ["POWER_OFF_QUANTITIES", "power_for", "fault_mode_name", "KindInfo", "KINDS", "SEMICONDUCTORS", "JUNCTION_DEFAULTS", "TRANSISTOR_DEFAULTS",
            "Part", "Circuit", "Reading", "Accuracy", "MeterProfile",
            "QUANTITIES", "QUANTITY_UNITS", "MODES", "SETUPS"]
 
@@ -108,6 +108,9 @@ QUANTITIES = ("voltage", "current", "resistance", "diode-test")
 #: Display unit of each quantity.  A diode-test reading displays the voltage
 #: the meter's test current develops (formats.md section 4).
 QUANTITY_UNITS = {"voltage": "V", "current": "A", "resistance": "Ω", "diode-test": "V"}
+#: Quantities read with the circuit isolated (power off): an ohmmeter and the
+#: diode test drive their own test current and must not meet a live circuit.
+POWER_OFF_QUANTITIES = frozenset({"resistance", "diode-test"})
 MODES = ("dc", "ac")
 SETUPS = ("in-circuit", "lifted")
 
@@ -411,3 +414,30 @@ class MeterProfile:
 
     def finest_resolution(self, quantity: str) -> float:
         return getattr(self, f"{quantity.replace('-', '_')}_resolution")
+
+
+def power_for(quantity: str) -> str:
+    """``"off"`` (circuit isolated) for a resistance reading or a diode test, else ``"on"``.
+
+    Parameters
+    ----------
+    quantity : str
+        One of :data:`QUANTITIES`.
+    """
+    return "off" if quantity in POWER_OFF_QUANTITIES else "on"
+
+
+def fault_mode_name(text) -> str:
+    """A fault mode as the user wrote it, in faultfind's spelling.
+
+    Case, surrounding space and the separator are free: ``"Base-emitter
+    open"`` (formats.md section 4's table), ``base_emitter_open`` and
+    ``base-emitter-open`` are one mode, written ``base-emitter-open`` in JSON
+    and in the tables.
+
+    Parameters
+    ----------
+    text : str or None
+        The mode as written; None is ``""`` (no mode given).
+    """
+    return "-".join(str(text or "").strip().lower().replace("_", " ").split())

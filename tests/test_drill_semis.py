@@ -14,7 +14,7 @@ import numpy as np
 
 from faultfind.drill import Drill, check_fault, draw_fault
 from faultfind.io.meters_file import meters_with_default
-from faultfind.model import Circuit, Part, Reading
+from faultfind.model import Circuit, Part, Reading, fault_mode_name
 
 METERS = meters_with_default()
 
@@ -81,3 +81,48 @@ def test_diode_test_command_words():
     step = d.command("read D B,0V")                         # Q1's base-emitter junction
     assert step.kind == "reading" and 0.5 < step.reading.value < 0.7
     assert "D B" in step.message
+
+
+def test_a_diode_test_that_would_have_told_is_a_power_off_reading():
+    # the relay driver's output stage sagging (OUT4 at 3.14 V) named as Q1's base-emitter
+    # junction open: only a diode test on Q1's base tells the two apart (an open junction
+    # reads OL, a healthy one 0.5-0.7 V, from memory), and it is taken isolated
+    from pathlib import Path
+
+    from faultfind.io.circuit_file import load_circuit
+    case = Path(__file__).resolve().parent.parent / "field_cases" / "irrigation_valve_relay_driver"
+    c = load_circuit(case / "circuit.toml")
+    d = Drill(c, "sam", seed=5, fault=check_fault(c, "OUT4", "drift", "3.14"),
+              caution_acknowledged=True)
+    d.isolate()
+    d.command("read D D1")
+    d.verdict("Q1", "base-emitter-open")
+    lines = [x for x in d.result.explanation.verdict if "would have" in x]
+    assert lines, d.result.explanation.verdict
+    assert "D B" in lines[0] and "(board isolated)" in lines[0]
+    assert "energized" not in lines[0]
+
+
+def test_transistor_modes_as_formats_md_writes_them():
+    # formats.md section 4's table writes "base-emitter open"; faultfind's spelling is
+    # base-emitter-open (JSON, tables): both, and any case or underscores, are one mode
+    c = board()
+    for text in ("base-emitter open", "Base_Emitter_Open", " BASE-EMITTER-OPEN "):
+        assert check_fault(c, "Q1", text).mode == "base-emitter-open"
+    assert fault_mode_name("collector  emitter") == "collector-emitter"
+    assert fault_mode_name(None) == ""
+    d = Drill(c, "sam", seed=4, fault=check_fault(c, "Q1", "base-emitter-short"),
+              caution_acknowledged=True)
+    step = d.command("verdict Q1 base-emitter short")
+    assert step.kind == "verdict" and d.result.correct
+
+
+def test_a_logbook_outcome_takes_the_spelled_out_mode(tmp_path):
+    from pathlib import Path
+
+    from faultfind.io.logbook import Logbook
+    case = Path(__file__).resolve().parent.parent / "field_cases" / "irrigation_valve_relay_driver"
+    with Logbook(tmp_path / "book.sqlite") as book:
+        s = book.start_session(case / "circuit.toml", unit="zone 4")
+        closed = book.close_session(s.id, ["Q1:base-emitter open"])
+        assert closed.outcome.faults == (("Q1", "base-emitter-open"),)

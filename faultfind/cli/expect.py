@@ -6,6 +6,7 @@ from ..expect import expect
 from ..io.circuit_file import load_circuit
 from ..io.meters_file import load_meters, meters_with_default
 from ..io.readings_file import load_readings
+from ..shown import reading_text
 from ..units import format_value
 from .output import describe_reading, emit_json, reading_json, table
 
@@ -29,12 +30,10 @@ def add_parser(sub):
     p.set_defaults(run=run)
 
 
-def _value(x, unit, digits=4):
+def _value(x, unit, digits=4, meter=None, quantity=None):
     if x is None:
         return "—"
-    if unit != "Ω" and abs(x) < 1e-12:
-        x = 0.0  # numerical zero, far below any meter's resolution
-    return format_value(x, unit, digits=digits)
+    return reading_text(x, unit, meter, quantity, digits=digits)
 
 
 def run(args) -> int:
@@ -82,8 +81,10 @@ def run(args) -> int:
                 exp, band = "OL", ("reversed or open junction" if rd.quantity == "diode-test"
                                    else "no path between the probes")
             else:
-                exp = _value(e.expected, e.unit)
-                band = f"{_value(e.low, e.unit, 3)} .. {_value(e.high, e.unit, 3)}"
+                meter = meters.get(rd.meter or "default", m)
+                exp = _value(e.expected, e.unit, 4, meter, rd.quantity)
+                band = (f"{_value(e.low, e.unit, 3, meter, rd.quantity)} .. "
+                        f"{_value(e.high, e.unit, 3, meter, rd.quantity)}")
                 if e.overrange:
                     exp += " (OL)"
             rows.append([str(n), describe_reading(rd), e.power, exp, band, rd.label])

@@ -15,7 +15,7 @@ from ..engine.priors import HANDBOOK
 from ..errors import InputError
 from ..expect import expect
 from ..io.meters_file import meters_with_default
-from ..model import Circuit
+from ..model import Circuit, fault_mode_name
 from ..simulate import fault_overrides
 from ..units import format_value, parse_value
 
@@ -113,7 +113,7 @@ def check_fault(circuit: Circuit, ref, mode, value=None, *, what="fault") -> Dri
         refs = [p.ref for p in circuit.parts]
         raise InputError(f"{ref!r} is not a part of the circuit{_hint(ref, refs)}", key=what)
     part = circuit.part(ref)
-    mode = str(mode or "").strip().lower()
+    mode = fault_mode_name(mode)
     modes = part.fault_modes
     if mode not in modes:
         raise InputError(f"{mode or 'no mode'!r} is not a fault mode of {ref} ({part.kind}): "

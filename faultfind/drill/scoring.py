@@ -11,6 +11,7 @@ from ..engine.meter import spec_limit
 from ..engine.hypotheses import rank
 from ..engine.priors import HANDBOOK
 from ..expect import expect
+from ..model import power_for
 from ..units import format_value
 from .faults import DrillFault, _faulted, _outside
 from .results import _UNITS, describe_reading, Score, ReadingNote, Explanation, DrillResult
@@ -227,7 +228,7 @@ def _verdict_lines(drill, r, final) -> list:
         rd, unit = cands[best], _UNITS[cands[best].quantity]
         out.append(f"None of your readings could tell {_label(key_named)} from "
                    f"{_label(key_true)}: {describe_reading(rd, c)} (board "
-                   f"{'isolated' if rd.quantity == 'resistance' else 'energized'}) would have: "
+                   f"{'isolated' if power_for(rd.quantity) == 'off' else 'energized'}) would have: "
                    f"{_label(key_true)} reads {_fmt(pt[best], unit)}, {_label(key_named)} "
                    f"{_fmt(pv[best], unit)}.")
     return out
@@ -239,7 +240,7 @@ def _settle_line(drill, r) -> str:
         return "faultfind had no reading to suggest on this board."
     first = adv.readings[0]
     e = expect(drill.circuit, [first], drill.meters)[0]
-    state = "isolated" if first.quantity in ("resistance", "diode-test") else "energized"
+    state = "isolated" if power_for(first.quantity) == "off" else "energized"
     words = describe_reading(first, drill.circuit)
     return (f"Soonest: faultfind's first advice from the start was {words} (board {state}); "
             f"on this board it reads {first.raw} where a healthy board reads "

@@ -17,7 +17,7 @@ from ..errors import InputError, ReadingsError
 from ..io.logbook import SAFETY_CAUTION
 from ..io.meters_file import meters_with_default
 from ..io.readings_file import COLUMNS, parse_readings
-from ..model import Circuit, Reading
+from ..model import POWER_OFF_QUANTITIES, Circuit, Reading, fault_mode_name
 from ..simulate import draw_board, simulate_readings
 from ..units import format_value
 from .faults import DrillFault, _hint, check_fault, parse_fault, _probes, _detectable, draw_fault
@@ -39,7 +39,7 @@ _READ_HELP = ("a reading is KIND WHERE, KIND one of V, I, R, D (Vac, Iac, Rlifte
               "test): read V TP1, read V A,B, read I R3, read R F1, read R R2 lifted, read D D3, "
               "read D B,E, read V OUT ac 1k")
 # Readings taken with the board isolated.
-_POWER_OFF = ("resistance", "diode-test")
+_POWER_OFF = POWER_OFF_QUANTITIES
 
 
 # -- the drill ---------------------------------------------------------------------------
@@ -407,6 +407,9 @@ class Drill:
             if not rest:
                 return self._add(text, "error", "name the part and fault mode: verdict R7 open, "
                                  "verdict R9 drift 6k8, or verdict none")
+            if (len(rest) >= 3 and self.circuit.has_part(rest[0])
+                    and fault_mode_name(" ".join(rest[1:3])) in self.circuit.part(rest[0]).fault_modes):
+                rest = [rest[0], " ".join(rest[1:3])] + rest[3:]   # "base-emitter open"
             if rest[0].lower() in ("none", "no-fault", "healthy") and len(rest) > 1:
                 return self._add(text, "error", "'verdict none' takes nothing after it")
             return self.verdict(rest[0], rest[1] if len(rest) > 1 else None,

@@ -31,7 +31,7 @@ import re
 from faultfind.engine.prior_update import OutcomeCounts, mix_key
 from faultfind.errors import PriorsError
 from faultfind.io.textfile import read_text
-from faultfind.model import KINDS
+from faultfind.model import KINDS, fault_mode_name
 
 __all__ = ["read_counts", "parse_counts", "write_counts", "counts_text", "merge_counts",
            "COLUMNS", "FORMAT"]
@@ -142,7 +142,7 @@ def parse_counts(text: str, source="<counts>") -> OutcomeCounts:
         elif rec == "no-fault":
             no_fault += n
         elif rec == "fault":
-            kind, mode = row["kind"], row["mode"]
+            kind, mode = row["kind"], fault_mode_name(row["mode"])
             if kind not in KINDS:
                 _fail(source, no, f"unknown kind {kind!r}" if kind else "a fault row names its kind",
                       "kind")

@@ -19,7 +19,7 @@ from pathlib import Path
 
 from faultfind.errors import InputError, ReadingsError
 from faultfind.io.circuit_versions import circuit_versions, diagnosis_circuit, revise_circuit
-from faultfind.model import Reading
+from faultfind.model import Reading, fault_mode_name, power_for
 
 from .entry import check_cells, describe_cells, parse_entry
 
@@ -35,7 +35,7 @@ POWER_WORDS = {
 
 def power_needed(reading: Reading) -> str:
     """``"off"`` for a resistance reading or a diode test (circuit isolated), else ``"on"``."""
-    return "off" if reading.quantity in ("resistance", "diode-test") else "on"
+    return power_for(reading.quantity)
 
 
 @dataclass(frozen=True)
@@ -87,6 +87,7 @@ def parse_found(text, circuit) -> list[tuple[str, str | None]]:
         if not item:
             continue
         ref, _, mode = item.partition(":")
+        mode = fault_mode_name(mode)
         if not circuit.has_part(ref):
             close = [p.ref for p in circuit.parts if p.ref.lower() == ref.lower()]
             hint = f" (did you mean {close[0]}?)" if close else ""

@@ -13,7 +13,10 @@
   against a dense Gaussian conditional written here;
 * a string of contacts in series is read across in one go before contact
   by contact (its gain against Shannon's entropy of the split it makes);
-  unseen drifts are weighed across their range.
+  unseen drifts are weighed across their range;
+* a DC voltage that follows from the taken ones by Kirchhoff's voltage law
+  is not suggested (a pilot lamp open across a coil: the fuse's drop after
+  the drops around it), and the reading offered instead settles it.
 
 The boards are invented scenarios.
 """
@@ -26,13 +29,16 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
-from faultfind.advise import CURRENT_RANGE, _spread_unseen, candidate_readings, contact_strings, suggest
+from faultfind.advise import (CURRENT_RANGE, _spread_unseen, candidate_readings, contact_strings,
+                               follows_by_kvl, suggest)
 from faultfind.engine.drifts import RESISTOR_FLOOR
 from faultfind.engine.advise import condition_on_taken, expected_information_gain
-from faultfind.engine.hypotheses import Fault
+from faultfind.engine.hypotheses import Fault, rank
 from faultfind.io.circuit_file import load_circuit, parse_circuit
-from faultfind.io.meters_file import DEFAULT_METER, meters_with_default
+from faultfind.io.meters_file import DEFAULT_METER, load_meters, meters_with_default
 from faultfind.io.readings_file import load_readings
+from faultfind.model import Reading
+from faultfind.simulate import draw_board, simulate_readings
 
 HERE = Path(__file__).resolve().parent
 ROOT = HERE.parents[1]
@@ -261,3 +267,77 @@ def test_unseen_drift_is_weighed_across_its_range():
     assert len(r1) == 4 and sum(v < 10e3 * 0.95 for v in r1) == 2
     assert all(10e3 * RESISTOR_FLOOR <= v <= 10e3 * 1e3 for v in r1)
     assert all(f[0].seen for f, _ in out if f)
+
+
+def test_diode_test_taken_by_nodes_is_not_suggested_by_part():
+    """D1 (anode C, cathode +24V) was diode-tested with the red probe on C: the
+    diode test of D1 by part is the same reading (formats.md section 4: by part,
+    the red probe goes on the anode); the reversed one is another reading."""
+    case = ROOT / "field_cases" / "irrigation_valve_relay_driver"
+    c = load_circuit(case / "circuit.toml")
+    rds = load_readings(HERE / "relay_diode_taken_by_nodes.csv", c, METERS)
+    hyps = [((), 0.4), (_h(("D1", "short")), 0.3), (_h(("D1", "open")), 0.3)]
+    sug = suggest(c, rds, METERS, hypotheses=hyps, top=30)
+    assert sug
+    for s in sug:
+        rd = s.reading
+        if rd.quantity == "diode-test":
+            assert rd.part != "D1", rd
+            assert (rd.plus, rd.minus) != ("C", "+24V"), rd
+
+
+# ---------------------------------------------------------------- Kirchhoff's voltage law
+
+def test_voltages_that_follow_by_kvl_from_taken_ones():
+    """V(a,c) = V(a,b) + V(b,c) along any path of taken DC voltages (Kirchhoff's
+    voltage law, any circuit-theory text; a node reading is a path to ground).
+    AC magnitudes do not add (phasors), so AC readings join nothing."""
+    taken = [Reading("voltage", "dc", "A", "B"), Reading("voltage", "dc", "C", "0V"),
+             Reading("voltage", "dc", "B", "0V"), Reading("voltage", "ac", "D", "0V")]
+    cands = [Reading("voltage", "dc", "A", "C"), Reading("voltage", "dc", "C", "B"),
+             Reading("voltage", "dc", "A", "0V"), Reading("voltage", "dc", "D", "0V"),
+             Reading("voltage", "ac", "A", "C"), Reading("voltage", "dc", "A", "D"),
+             Reading("current", "dc", part="R1"), Reading("resistance", None, "A", "C")]
+    assert follows_by_kvl(cands, taken).tolist() == [True, True, True, False, False, False,
+                                                      False, False]
+    assert not follows_by_kvl(cands, []).any()
+
+
+BENCH = load_meters(HERE / "bench_meter.toml")
+
+
+def test_fuse_drop_after_the_drops_around_it_is_not_read_again():
+    """Lamp H1 open across coil K1, read with the bench meter of formats.md
+    section 3: 35.98 mV across S1 + S2 and 298.55 mV across F1 + S1 + S2.
+    The drop across F1 alone is then 298.55 - 35.98 = 262.57 mV under every
+    hypothesis (Kirchhoff's voltage law); the advice used to rank it first
+    (0.52 bit expected: the per-hypothesis rescaling of the tolerance spread
+    does not add up around the loop).  The supply current settles it: healthy
+    24 V / (0.5 + 390 || (0.1 + 66 || 220)) = 527 mA against
+    24 V / (0.5 + 390 || 66.1) = 421 mA with H1 open (Ohm's law, series and
+    parallel resistances), far apart for F1's 30 % and the lamps' 10 %."""
+    c = load_circuit(HERE / "lamp_across_coil.toml")
+    rds = load_readings(HERE / "lamp_across_coil_two_drops.csv", c, BENCH)
+    # the board these readings came from (seeded), to take the next reading on
+    rng = np.random.default_rng(1)
+    board = draw_board(c, rng)
+    again = simulate_readings(c, rds, BENCH, [("H1", "open", None)], rng=rng, board=board)
+    assert [r.raw for r in again] == [r.raw for r in rds]
+
+    def par(*r):
+        return 1.0 / sum(1.0 / x for x in r)
+
+    healthy = 24.0 / (0.5 + par(390.0, 0.1 + par(66.0, 220.0)))
+    lamp_open = 24.0 / (0.5 + par(390.0, 0.1 + 66.0))
+    assert_allclose([healthy, lamp_open], [0.527, 0.421], atol=0.001)
+    sug = suggest(c, rds, BENCH, top=10)
+    assert not [s for s in sug if s.reading.quantity == "voltage"
+                and {s.reading.plus, s.reading.minus} == {"+24V_IN", "+24V"}], [s.reading for s in sug]
+    first = sug[0]
+    assert (first.reading.quantity, first.reading.part, first.power) == ("current", "PS1", "on")
+    assert "series" in first.caution
+    taken = simulate_readings(c, [first.reading], BENCH, [("H1", "open", None)], rng=rng, board=board)
+    assert_allclose(taken[0].value, lamp_open, rtol=0.05)
+    rk = rank(c, rds + taken, BENCH)
+    on_h1 = sum(h.probability for h in rk.hypotheses if {f.ref for f in h.faults} == {"H1"})
+    assert rk.hypotheses[0].faults[0].ref == "H1" and on_h1 >= 0.95, rk.hypotheses[:3]

@@ -11,6 +11,7 @@ import json
 from faultfind import __version__
 from faultfind.errors import InputError
 from faultfind.io.circuit_versions import used_version
+from faultfind.model import fault_mode_name
 from faultfind.io.logbook.checks import _text
 from faultfind.io.logbook.connection import _locked
 from faultfind.io.logbook.records import Session, StoredDiagnosis
@@ -54,7 +55,7 @@ class Outcomes:
             else:
                 raise InputError(f"{item!r}: give (ref, mode) or 'REF:MODE'", key="faults")
             ref = _text(ref, "faults", required=True)
-            mode = _text(mode, "faults") or None
+            mode = fault_mode_name(_text(mode, "faults")) or None
             if not circuit.has_part(ref):
                 raise InputError(f"{ref!r} is not a part of the session's circuit; a fault in "
                                  "something the circuit file does not draw goes in the notes",

@@ -43,6 +43,7 @@ Linear circuits never come here (``Circuit.is_nonlinear`` is false).
 
 from __future__ import annotations
 
+import copy
 import re
 from dataclasses import dataclass, replace
 
@@ -138,7 +139,24 @@ def _device(part, override):
 #: (:func:`_linear_key`): the faulted variants of one board mostly share one (a
 #: junction's fault or a model key leaves the linear network as it was).
 _LINEAR: dict = {}
-_LINEAR_SIZE = 64
+#: At most this many networks, holding at most :data:`_LINEAR_ENTRIES` matrix entries
+#: in all (a board with semiconductors of thousands of parts keeps fewer).
+_LINEAR_SIZE = 512
+_LINEAR_ENTRIES = 2_000_000
+
+
+#: Matrix entries held by each of the caches of networks, by the cache's identity.
+_HELD: dict = {}
+
+
+def _bounded_put(cache, key, value):
+    """Put ``value`` (``(parts, (net, rows, cols, vals))``) in ``cache`` under ``key``,
+    dropping the oldest entries past :data:`_LINEAR_SIZE` or :data:`_LINEAR_ENTRIES`."""
+    total = _HELD.get(id(cache), 0) + value[1][3].size
+    while cache and (len(cache) >= _LINEAR_SIZE or total > _LINEAR_ENTRIES):
+        total -= cache.pop(next(iter(cache)))[1][3].size
+    cache[key] = value
+    _HELD[id(cache)] = total
 
 
 def _linear_key(circuit, analysis, frequency, overrides, floating):
@@ -197,13 +215,9 @@ def linear_network(circuit, analysis, frequency=None, overrides=None, floating=F
         A0 = net.A.tocoo()      # a canonical CSC matrix: its COO triplets in its data's order
         got = (net, A0.row.astype(np.int64), A0.col.astype(np.int64), A0.data)
         if base is None:
-            if len(_BASES) >= _LINEAR_SIZE:
-                _BASES.pop(next(iter(_BASES)))
-            _BASES[skey] = (circuit.parts, got)
-    if len(_LINEAR) >= _LINEAR_SIZE:
-        _LINEAR.pop(next(iter(_LINEAR)))
+            _bounded_put(_BASES, skey, (circuit.parts, got))
     # the parts are kept with the entry: the ids in its key stay theirs
-    _LINEAR[key] = (circuit.parts, got)
+    _bounded_put(_LINEAR, key, (circuit.parts, got))
     return got
 
 
@@ -311,11 +325,10 @@ class System:
             return nxt[0] - 1
 
         lr, lc, lv = [], [], []            # extension stamps (rows, cols, values)
+        conds = []                         # conductances (a, b, g), stamped together below
 
         def cond(a, b, g):
-            for r, c, s in ((a, a, g), (b, b, g), (a, b, -g), (b, a, -g)):
-                if r >= 0 and c >= 0:
-                    lr.append(r); lc.append(c); lv.append(s)
+            conds.append((a, b, g))
 
         els: list = []
         #: elements Newton starts at 0 V whatever the warm start says: the base-emitter
@@ -397,9 +410,15 @@ class System:
         self.size = N
         self.n_nodes = node_unknowns
         # padded linear matrix and right-hand side
-        self.lin_rows = np.concatenate([a_rows, np.array(lr, dtype=np.int64)])
-        self.lin_cols = np.concatenate([a_cols, np.array(lc, dtype=np.int64)])
-        self.lin_vals = np.concatenate([a_vals, np.array(lv, dtype=float)])
+        ca, cb, cg = (np.array(t) for t in zip(*conds)) if conds else \
+            (np.zeros(0, np.int64), np.zeros(0, np.int64), np.zeros(0))
+        cr = np.concatenate([ca, cb, ca, cb]).astype(np.int64)
+        cc = np.concatenate([ca, cb, cb, ca]).astype(np.int64)
+        cv = np.concatenate([cg, cg, -cg, -cg]).astype(float)
+        on = (cr >= 0) & (cc >= 0)
+        self.lin_rows = np.concatenate([a_rows, np.array(lr, dtype=np.int64), cr[on]])
+        self.lin_cols = np.concatenate([a_cols, np.array(lc, dtype=np.int64), cc[on]])
+        self.lin_vals = np.concatenate([a_vals, np.array(lv, dtype=float), cv[on]])
         b = np.zeros(N, dtype=net.b.dtype)
         b[:N0] = net.b
         for k, v in b_extra.items():
@@ -735,16 +754,21 @@ class System:
     def factors(self, op: OperatingPoint):
         """``(J, Factorization of J)`` at an operating point: Newton's last factors when it
         ended there (the same matrix, factored with the same options), else new ones."""
-        J = self.jacobian(op)
         last = getattr(self, "_last_lu", None)
-        if last is not None and last[0] is op.v:
+        if last is not None and last[0] is op.v and getattr(self, "_Jw", None) is not None:
+            # Newton's work matrix holds that very matrix: handed over (the next Newton
+            # solve of this system starts a new one)
+            J, self._Jw, self._last_lu = self._Jw, None, None
             return J, Factorization(J, lu=last[1])
+        J = self.jacobian(op)
         return J, Factorization(J)
 
     def linear_network(self, A) -> Network:
-        """The extended :class:`Network` with matrix ``A`` (what the predictions read)."""
-        self.net.A = A
-        return self.net
+        """The extended :class:`Network` with matrix ``A`` (what the predictions read): a
+        new object each time (a system can serve several groups, each its own matrix)."""
+        net = copy.copy(self.net)
+        net.A = A
+        return net
 
     def small_signal(self, g):
         """The AC matrix of this (``"ac"``) system with element conductances ``g``."""
@@ -795,21 +819,22 @@ def operating_point(circuit, overrides=None, warm=None, floating=False) -> tuple
     return sysm, sysm.solve(warm)
 
 
-def shared_stamps(st: Stamps, system: System, circuit, pindex) -> Stamps:
-    """Set up ``st`` (a :class:`~.stamps.Stamps`) on ``system``'s linearised network
-    (``system.net``): the stamp derivatives and the incidence map are the linear
-    network's, shared by every system built on it (a junction's fault or value, or
-    the meter's source, leaves them as they were), so they are worked out once."""
+def shared_stamps(st: Stamps, system: System, circuit, pindex, net) -> Stamps:
+    """Set up ``st`` (a :class:`~.stamps.Stamps`) on ``net``, a linearised network of
+    ``system`` (:meth:`System.linear_network`): the stamp derivatives and the incidence
+    map are the linear network's, shared by every system built on it (a junction's
+    fault or value, or the meter's source, leaves them as they were), so they are
+    worked out once."""
     memo = system.net0.__dict__.setdefault("_stamps", {})
     key = (tuple(pindex), system.size)
     got = memo.get(key)
     if got is None:
-        Stamps.__init__(st, circuit, system.net, pindex)
+        Stamps.__init__(st, circuit, net, pindex)
         if len(memo) > 16:
             memo.clear()
         memo[key] = (st.jy, st.dy, st.src, st.incidence())
     else:
-        st.net = system.net
+        st.net = net
         st.jy, st.dy, st.src, st._inc = got
     return st
 

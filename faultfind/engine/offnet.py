@@ -62,9 +62,9 @@ def _sens(circuit, sysm, op, u, pindex, npar):
     if npar == 0:
         return np.zeros(0)
     J, lu = sysm.factors(op)
-    sysm.linear_network(J)
+    net = sysm.linear_network(J)
     lam = lu.solve_adjoint(u)
-    st = shared_stamps(Stamps.__new__(Stamps), sysm, circuit, pindex)
+    st = shared_stamps(Stamps.__new__(Stamps), sysm, circuit, pindex, net)
     G = st.grad_block(lam[:, None], op.x[:, None], npar, [-1])
     G = G + junction_grad(sysm, lam[:, None], op.v, npar)
     return np.asarray(G[:, 0].real, dtype=float)
@@ -175,7 +175,9 @@ def diode_test_adjoint(circuit, plus, minus, meter, op):
 #: Power-off systems of the last few (circuit, overrides) pairs, the meter
 #: source moved between readings instead of assembling the network again.
 _CACHE: dict = {}
-_CACHE_SIZE = 8
+#: At most this many systems, of at most :data:`_CACHE_UNKNOWNS` unknowns in all.
+_CACHE_SIZE = 128
+_CACHE_UNKNOWNS = 200_000
 
 
 def _system(circuit, overrides, pindex, plus, minus, current, voc):
@@ -187,8 +189,9 @@ def _system(circuit, overrides, pindex, plus, minus, current, voc):
         return sysm
     sysm = System(circuit, "off", None, overrides, source=(plus, minus, current, voc),
                   pindex=pindex)
-    if len(_CACHE) >= _CACHE_SIZE:
-        _CACHE.pop(next(iter(_CACHE)))
+    held = sum(v[2].size for v in _CACHE.values()) + sysm.size
+    while _CACHE and (len(_CACHE) >= _CACHE_SIZE or held > _CACHE_UNKNOWNS):
+        held -= _CACHE.pop(next(iter(_CACHE)))[2].size
     _CACHE[key] = (circuit, pindex, sysm)
     return sysm
 

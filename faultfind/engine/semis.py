@@ -94,6 +94,32 @@ def split_overrides(circuit: Circuit, overrides: dict | None) -> tuple[Circuit, 
     return replace(circuit, parts=tuple(parts)), rest
 
 
+#: DC systems of recent (circuit, variant) pairs: a variant solved again (its full
+#: solve after a live-only one, the next diagnosis of the same board) finds its system
+#: assembled.  Bounded by count and by unknowns in all.
+_SYSTEMS: dict = {}
+_SYSTEMS_SIZE = 512
+_SYSTEMS_UNKNOWNS = 500_000
+_HELD = [0]
+
+
+def _system(circuit, overrides, floating, probe, pindex, loads):
+    """``System(circuit, "dc", None, overrides, floating, probe=, pindex=, loads=)``,
+    kept per (circuit, overrides, probe, loads, parameter columns)."""
+    key = (id(circuit), tuple(sorted((r, repr(v)) for r, v in (overrides or {}).items())),
+           bool(floating), probe, tuple(loads), id(pindex))
+    hit = _SYSTEMS.get(key)
+    if hit is not None and hit[0] is circuit and hit[1] is pindex:
+        return hit[2]
+    sysm = System(circuit, "dc", None, overrides, floating, probe=probe, pindex=pindex,
+                  loads=loads)
+    _HELD[0] += sysm.size
+    while _SYSTEMS and (len(_SYSTEMS) >= _SYSTEMS_SIZE or _HELD[0] > _SYSTEMS_UNKNOWNS):
+        _HELD[0] -= _SYSTEMS.pop(next(iter(_SYSTEMS)))[2].size
+    _SYSTEMS[key] = (circuit, pindex, sysm)
+    return sysm
+
+
 class DCGroup(Stamps):
     """The DC operating point of a circuit and its linearized network.
 
@@ -112,13 +138,12 @@ class DCGroup(Stamps):
         self.overrides = dict(overrides or {})
         self.cols = {}
         self.keep = False
-        self.sys = System(circuit, "dc", None, overrides, floating, probe=probe, pindex=pindex,
-                          loads=loads)
+        self.sys = _system(circuit, overrides, floating, probe, pindex, loads)
         self.op = self.sys.solve(warm)
         J, self.lu = self.sys.factors(self.op)
         net = self.sys.linear_network(J)
         self.x = self.op.x
-        shared_stamps(self, self.sys, circuit, pindex)
+        shared_stamps(self, self.sys, circuit, pindex, net)
 
     def grad_block(self, Lam, X, n_params, skips):
         G = super().grad_block(Lam, X, n_params, skips)

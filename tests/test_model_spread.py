@@ -173,3 +173,20 @@ def test_screened_columns_equal_the_re_solved_ones():
         factors.append(np.exp([float(cc) + h / np.sqrt(3.0), float(cc) - h / np.sqrt(3.0)]))
     need, _ = _screen(c, reads, METERS, mp, factors, share, offs)
     assert need.sum() < need.size                # some re-solves were skipped
+
+
+def test_model_variants_solved_on_the_healthy_system_equal_full_predictions():
+    # engine/modelspread.py solves a key's DC voltages on a copy of the healthy system with
+    # the part's law changed; they must equal a full prediction of the board with that key
+    # moved (engine/predict.py, itself checked against ngspice)
+    from faultfind.engine.modelspread import _dc_voltages, _with_key, _with_part
+    from faultfind.engine.predict import predict
+    c = two_stages()
+    reads = DC + [Reading("voltage", "dc", n, "0") for n in ("b2", "c2")]
+    share = {}
+    predict(c, reads, METERS, share=share)
+    for ref, key, f in (("Q1", "vbe", 1.05), ("Q2", "gain", 0.6), ("DZ", "forward_voltage", 0.9)):
+        got = _dc_voltages(share[("dc", None)], ref, [_with_part(c.part(ref), key, f)], reads,
+                           list(range(len(reads))), METERS)
+        ref_val = predict(_with_key(c, ref, key, f), reads, METERS).value
+        assert_allclose(got[0], ref_val, rtol=1e-9, atol=1e-9)

@@ -418,6 +418,26 @@ def fit_junction_drift(ev, part, exact=True):
                         ev.healthy_prediction())
         sd = float(np.sqrt(1.0 / info))
         return Fault(part.ref, "drift", float(part.value * np.exp(rho))), pred, sd, _occam(sd, spec)
+    best = _drift_gauss_newton(ev, part, j, rho, (lo, hi, blo, bhi), w, y)
+    if best is None:
+        f = Fault(part.ref, "drift", float(part.value * np.exp(hi)))
+        return f, np.full(ev.n, np.nan), None, 0.0
+    c2, rho, f, pred, S = best
+    g = float(np.sum(w * S[:, j] ** 2))
+    sd = float(np.sqrt(1.0 / g)) if g > 0 else None
+    occam = _occam(sd, spec) if sd else 0.0
+    return f, pred, sd, occam
+
+
+def _drift_gauss_newton(ev, part, j, rho, bounds, w, y):
+    """Gauss-Newton on the log-value ``rho`` of ``part``'s drift (column ``j``), each
+    step an exact re-solve of the drifted board (:meth:`Exact.solve`, with its
+    sensitivities), kept out of the tolerance band and within the drift range
+    ``bounds = (lo, hi, band low, band high)``; a step that raises the chi-square is
+    halved back.  Returns the best ``(chi2, rho, Fault, prediction, sensitivity)``,
+    or None when the first trial has no solution."""
+    lo, hi, blo, bhi = bounds
+    ex = _exact(ev)
     best = None
     for _ in range(_GN_STEPS):
         rho = float(np.clip(_outside(rho, blo, bhi), lo, hi))
@@ -435,19 +455,11 @@ def fit_junction_drift(ev, part, exact=True):
         g = float(np.sum(w * sj * sj))
         if g <= 0:
             break
-        res = np.where(np.isfinite(pred), y - pred, 0.0)
-        step = float(np.sum(w * sj * res) / g)
+        step = float(np.sum(w * sj * np.where(np.isfinite(pred), y - pred, 0.0)) / g)
         if abs(step) < 1e-4:
             break
         rho = rho + step
-    if best is None:
-        f = Fault(part.ref, "drift", float(part.value * np.exp(hi)))
-        return f, np.full(ev.n, np.nan), None, 0.0
-    c2, rho, f, pred, S = best
-    g = float(np.sum(w * S[:, j] ** 2))
-    sd = float(np.sqrt(1.0 / g)) if g > 0 else None
-    occam = _occam(sd, spec) if sd else 0.0
-    return f, pred, sd, occam
+    return best
 
 
 def fit_leak(ev, part, refine=True):
@@ -667,31 +679,10 @@ def _refit_linear_drift(ev, h):
     w = _weights(ev, j)
     y = np.where(np.isfinite(ev.ev.y), ev.ev.y, 0.0)
     rho = float(np.log(f0.value / part.value))
-    ex = _exact(ev)
-    best = None
-    for _ in range(_GN_STEPS):
-        rho = float(np.clip(_outside(rho, blo, bhi), lo, hi))
-        f = Fault(part.ref, "drift", float(part.value * np.exp(rho)))
-        pred, S = ex.solve([f])
-        if S is None or np.isnan(pred).any():
-            break
-        c2 = float(_chi2(ev, pred, j)[0])
-        if best is None or c2 < best[0]:
-            best = (c2, f, pred, S)
-        elif c2 > best[0]:
-            rho = 0.5 * (rho + float(np.log(best[1].value / part.value)))
-            continue
-        sj = S[:, j]
-        g = float(np.sum(w * sj * sj))
-        if g <= 0:
-            break
-        step = float(np.sum(w * sj * np.where(np.isfinite(pred), y - pred, 0.0)) / g)
-        if abs(step) < 1e-4:
-            break
-        rho += step
+    best = _drift_gauss_newton(ev, part, j, rho, (lo, hi, blo, bhi), w, y)
     if best is None:
         return f0, exact_faults(ev, [f0]), h.drift_sd, h.occam
-    _, f, pred, S = best
+    _, _, f, pred, S = best
     g = float(np.sum(w * S[:, j] ** 2))
     sd = float(np.sqrt(1.0 / g)) if g > 0 else h.drift_sd
     return f, pred, sd, (_occam(sd, spec) if sd else h.occam)

@@ -153,6 +153,8 @@ def _bounded_put(cache, key, value):
     """Put ``value`` (``(parts, (net, rows, cols, vals))``) in ``cache`` under ``key``,
     dropping the oldest entries past :data:`_LINEAR_SIZE` or :data:`_LINEAR_ENTRIES`."""
     total = _HELD.get(id(cache), 0) + value[1][3].size
+    if key in cache:
+        total -= cache.pop(key)[1][3].size
     while cache and (len(cache) >= _LINEAR_SIZE or total > _LINEAR_ENTRIES):
         total -= cache.pop(next(iter(cache)))[1][3].size
     cache[key] = value
@@ -214,8 +216,7 @@ def linear_network(circuit, analysis, frequency=None, overrides=None, floating=F
         net = assemble(circuit, analysis, frequency, overrides, floating)
         A0 = net.A.tocoo()      # a canonical CSC matrix: its COO triplets in its data's order
         got = (net, A0.row.astype(np.int64), A0.col.astype(np.int64), A0.data)
-        if base is None:
-            _bounded_put(_BASES, skey, (circuit.parts, got))
+        _bounded_put(_BASES, skey, (circuit.parts, got))     # the latest of its structure
     # the parts are kept with the entry: the ids in its key stay theirs
     _bounded_put(_LINEAR, key, (circuit.parts, got))
     return got
@@ -233,8 +234,8 @@ def _revalued(base, circuit, analysis, overrides):
     parts that stamp nothing in this analysis); None when another change is there (the
     caller assembles)."""
     parts0, (net, rows, cols, vals) = base
-    changed = [(p0, p) for p0, p in zip(parts0, circuit.parts) if p0 is not p]
-    if not changed or len(changed) > 4:
+    changed = [(p0, p) for p0, p in zip(parts0, circuit.parts) if p0 is not p and p0 != p]
+    if len(changed) > 4:
         return None
     vals = vals.copy()
     y_val, b, br_e = net.y_val, net.b, net.br_e

@@ -114,7 +114,10 @@ class Evidence:
         self.stray_max = np.array([(STRAY_AC if rd.mode == "ac" else STRAY_DC) if rd.quantity == "voltage"
                                    else 0.0 for rd in readings])
         self.pred0 = np.asarray(pred0, dtype=float)
-        self.S0 = np.nan_to_num(np.asarray(S0, dtype=float), nan=0.0, posinf=0.0, neginf=0.0)
+        S0 = np.asarray(S0, dtype=float)
+        # read only: a copy only where something is not finite (a pass over
+        # readings x parts is cheaper than a copy of it at 100,000 parts)
+        self.S0 = S0 if np.isfinite(S0).all() else np.nan_to_num(S0, nan=0.0, posinf=0.0, neginf=0.0)
         centre, half = log_tolerance(tol_low, tol_high)
         self.var_p = half ** 2 / 3.0
         self.centre = centre

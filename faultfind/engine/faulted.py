@@ -53,7 +53,12 @@ def faulted_sensitivity(board, fault):
     circuit = board.circuit
     part = circuit.part(fault.ref)
     npar = len(board.params)
-    S = np.zeros((board.n, npar))
+    # filled as its transpose (parameters x readings): each block's gradients
+    # (parameters x block) go in without a transposing copy, and the products
+    # over every part (the exact score's Gram matrix, the estimate) read
+    # column blocks of S, contiguous in this layout
+    ST = np.zeros((npar, board.n))
+    S = ST.T
     pred = np.zeros(board.n, dtype=complex)
     for key, (g, idx) in board.groups.items():
         t = g.term(part, fault.mode)
@@ -78,23 +83,29 @@ def faulted_sensitivity(board, fault):
             wt, mt = g.solve_term(t)
             k = _at(wt, t.a, t.b)
         for c0 in range(0, cols.size, _BLOCK):
-            q = cols[c0:c0 + _BLOCK]
-            W, Mu = g.W[:, q], g.Mu[:, q]
+            q = _span(cols[c0:c0 + _BLOCK])
+            W, Mu = g.W[:, q], g.Mu[:, q]      # views when the readings are consecutive
             real = not np.iscomplexobj(W)
             alpha = g.d_m[q].real if real else g.d_m[q]
             den = 1.0 + alpha * g.z[q]
+            # X = base + W cw - wt c3 and Lam = Mu cm - mt h (the formulas of the
+            # module docstring with the meter and fault terms multiplied out:
+            # the columns are combinations of W, Mu and the fault term's two
+            # solves, formed in one pass each)
             if live:
-                X = g.x[:, None] - W * (alpha * g.px[q] / den)[None, :]
-                Lam = Mu / den[None, :]
+                c1 = alpha * g.px[q] / den
+                cw, cm = -c1, 1.0 / den
             else:
-                X, Lam = W, Mu
+                c1 = 0.0
+                cw, cm = np.ones(den.shape, dtype=den.dtype), np.ones(den.shape, dtype=den.dtype)
+            c3 = h = None
             if t.kind == "y" and d != 0:
                 if real:
                     d = d.real if np.iscomplexobj(d) else d
                 kit = _at(Mu, t.a, t.b)
                 kti = _at(W, t.a, t.b)
-                Wi = wt[:, None] - W * (alpha * kit / den)[None, :]
-                Mi = mt[:, None] - Mu * (alpha * kti / den)[None, :]
+                c2 = alpha * kit / den        # Wi = wt - W c2
+                b2 = alpha * kti / den        # Mi = mt - Mu b2
                 ki = k - kti * alpha * kit / den
                 if np.isinf(d):
                     if np.any(np.abs(ki) <= _SING * g.zscale):
@@ -105,25 +116,49 @@ def faulted_sensitivity(board, fault):
                     if np.any(np.abs(one) <= 1e-9 * (1.0 + np.abs(d * ki))):
                         return None   # a bridge: the re-solve handles the floating section
                     f = d / one
-                X = X - Wi * (f * _at(X, t.a, t.b))[None, :]
-                Lam = Lam - Mi * (f * _at(Lam, t.a, t.b))[None, :]
+                # the fault term's rows of the meter-loaded vectors
+                xt = (_at(g.x, t.a, t.b) - kti * c1) if live else kti
+                lt = kit * cm
+                c3 = f * xt                   # X = X0 - Wi c3
+                h = f * lt                    # Lam = Lam0 - Mi h
+                cw = cw + c2 * c3
+                cm = cm + b2 * h
+            X = W * cw[None, :]
+            if c3 is not None:
+                X = _less(X, wt[:, None] * c3[None, :])
+            if live:
+                X = _less(X, -g.x[:, None])
             rows = idx[q]
+            # the gradients are linear in the adjoint vectors: each reading's
+            # scale goes on its adjoint column (nodes) rather than on its
+            # gradient column (parameters)
             if live:
                 s = g.scale[q].real if real else g.scale[q]
-                val = s * (_cdot(g.U[:, q], X))
-                G = st.grad_block(Lam, X, npar, [-1] * q.size) * s[None, :]
             else:   # ohms (a diode test on a linear network: scaled by its test current)
-                s = g.scale[q].real
-                val = _cdot(g.U[:, q], X) * s
-                G = -st.minus_grad_block(Lam, X, npar) * s[None, :]
-            pred[rows] = val
+                s = -g.scale[q].real
+            Lam = Mu * (cm * s)[None, :]
+            if h is not None:
+                Lam = _less(Lam, mt[:, None] * (h * s)[None, :])
             ac = g.analysis == "ac"
+            if live:
+                val = s * (_cdot(g.U[:, q], X))
+                span = _span(rows)
+                if not ac and isinstance(span, slice) and np.result_type(Lam, X, st.dy) == ST.dtype:
+                    # straight into S's columns of these readings (a view)
+                    st.grad_block(Lam, X, npar, [-1] * X.shape[1], out=ST[:, span])
+                    pred[rows] = val
+                    continue
+                G = st.grad_block(Lam, X, npar, [-1] * X.shape[1])
+            else:
+                val = -(_cdot(g.U[:, q], X) * s)
+                G = st.minus_grad_block(Lam, X, npar)
+            pred[rows] = val
             if ac:
                 mag = np.abs(val)
                 with np.errstate(divide="ignore", invalid="ignore"):
-                    S[rows] = np.where(mag[:, None] > 0, (np.conj(val)[:, None] * G.T).real / mag[:, None], 0.0)
+                    ST[:, _span(rows)] = np.where(mag[None, :] > 0, (np.conj(val)[None, :] * G).real / mag[None, :], 0.0)
             else:
-                S[rows] = G.T.real
+                ST[:, _span(rows)] = G.real
     overrides = {fault.ref: fault.value if fault.mode == "drift" else fault.mode}
     for i in board.lifted:
         _, S[i] = _lifted(circuit, board.readings[i], board.pindex, npar, overrides)
@@ -131,6 +166,22 @@ def faulted_sensitivity(board, fault):
     if j >= 0:
         S[:, j] = 0.0
     return S
+
+
+def _less(a, b):
+    """``a - b``, into ``a`` (a fresh array) when its type holds the result."""
+    if np.result_type(a, b) == a.dtype:
+        a -= b
+        return a
+    return a - b
+
+
+def _span(rows):
+    """``rows`` as a slice when they are consecutive (a slice assignment is
+    several times faster than a fancy-indexed one), else as they are."""
+    if rows.size and rows[-1] - rows[0] == rows.size - 1 and np.all(np.diff(rows) == 1):
+        return slice(int(rows[0]), int(rows[-1]) + 1)
+    return rows
 
 
 def _cdot(U, X):

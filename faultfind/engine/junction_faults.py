@@ -475,7 +475,7 @@ def fit_leak(ev, part, refine=True):
     (Fault, prediction, None, log Occam factor)
     """
     ex = _exact(ev)
-    j = ev.pindex.get(part.ref, -1)
+    j = -1   # a leak keeps the diode's own tolerance column (Board.drop_cols)
     lo, hi = np.log(LEAK_RANGE)
     seen = {}
 
@@ -541,7 +541,7 @@ def _leak_on_line(ev, part, score, lo, hi):
     the conductance fitted in closed form (refined by re-solves if it leads)."""
     f1 = Fault(part.ref, "leaky", float(LEAK_PROBE))
     p1 = _exact(ev).solve_live([f1])[0]
-    c1 = np.inf if np.isnan(p1).any() else float(_chi2(ev, p1, ev.pindex.get(part.ref, -1))[0])
+    c1 = np.inf if np.isnan(p1).any() else float(_chi2(ev, p1, -1)[0])
     p0 = ev.healthy_prediction()
     w = _weights(ev, -1)
     ok = np.isfinite(p0) & np.isfinite(p1) & (w > 0)

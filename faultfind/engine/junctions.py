@@ -153,7 +153,9 @@ def saturation_log(vj0: float, current: float, nvt: float) -> tuple[float, float
         log_em1 = t + math.log1p(-math.exp(-t))
     else:
         log_em1 = math.log(em1)
-    dlog = -(1.0 / nvt) / (1.0 - math.exp(-t)) if t > 0 else -1.0 / nvt
+    # 1 - exp(-t) as -expm1(-t): exact for a junction voltage far below n Vt
+    # (a forward voltage of 1e-30 V made it 0 and this a ZeroDivisionError)
+    dlog = -(1.0 / nvt) / -math.expm1(-t) if t > 1e-300 else -math.inf
     return math.log(current) - log_em1, dlog
 
 

@@ -188,7 +188,9 @@ def line_bounds(board, evidence, healthy_pred):
                 M[q] = S0r[q]
                 Ks.append(Li @ M)
         # parts with a zero column: explicit directions, whitened
-        colmax = np.abs(S0r).max(axis=0) if G else np.zeros(m)
+        # (a column is zero where its largest and its smallest entry are: two
+        # reductions, no readings x parts temporary)
+        colmax = np.maximum(S0r.max(axis=0), -S0r.min(axis=0)) if G else np.zeros(m)
         jsafe = np.maximum(js, 0)
         zero = np.flatnonzero((js < 0) | (colmax[jsafe] == 0))
         Kz = None
@@ -246,7 +248,8 @@ def line_bounds(board, evidence, healthy_pred):
             x = np.abs(sol[:, g_]) * nrm
             maybe = np.flatnonzero((2 * x + x ** 2 > _RESCALE) | (zpos >= 0))
             if maybe.size:
-                D = S0r[q][:, jsafe[maybe]]        # unwhitened directions, explicit where no current
+                Sq = S0r if q.size == nb and np.array_equal(q, np.arange(nb)) else S0r[q]
+                D = Sq[:, jsafe[maybe]]        # unwhitened directions, explicit where no current
                 z = zpos[maybe] >= 0
                 if z.any():
                     D[:, z] = zdirs[g_][zpos[maybe[z]]].T
@@ -272,7 +275,7 @@ def line_bounds(board, evidence, healthy_pred):
         jsafe = np.maximum(js, 0)
         sc0 = ev._sc0()
         if G == 1 and np.all(sc0 == 1.0) and groups[0].size == nb:
-            w2 = np.einsum("ij,ij->j", Ks[0], Ks[0])[jsafe]     # |L^-1 s|^2
+            w2 = h_all[jsafe]     # |L^-1 s|^2, as above
         else:
             Wc = Li @ (S0r * sc0[:, None])
             w2 = np.einsum("ij,ij->j", Wc, Wc)[jsafe]

@@ -56,6 +56,15 @@ def _dstamps(circuit: Circuit, net: Network, pindex: dict):
     return jy, dy, src
 
 
+def _times(a, b):
+    """``a * b``, into ``a`` (a fresh array) when its type holds the product: one
+    elements x readings temporary fewer."""
+    if np.result_type(a, b) == a.dtype:
+        a *= b
+        return a
+    return a * b
+
+
 class Stamps:
     """How a network's matrix and right-hand side depend on each parameter's log-value.
 
@@ -91,34 +100,54 @@ class Stamps:
         """``X[a] - X[b]`` per admittance element (rows), -1 meaning the reference."""
         return self.incidence() @ np.ascontiguousarray(X)
 
-    def _gather_params(self, term, n_params):
-        """Sum element rows of ``term`` into parameter rows."""
+    def _gather_params(self, term, n_params, out=None):
+        """Sum element rows of ``term`` into parameter rows (into ``out`` if given)."""
         if getattr(self, "_inj", None) is None:
             ok = np.flatnonzero(self.jy >= 0)
-            self._inj = (ok, np.unique(self.jy[ok]).size == ok.size)
-        ok, injective = self._inj
-        if injective:
-            G = np.zeros((n_params,) + term.shape[1:], dtype=term.dtype)
-            G[self.jy[ok]] = term[ok]
-            return G
-        return np.asarray(self._scatter(n_params) @ term)
+            injective = np.unique(self.jy[ok]).size == ok.size
+            # every element its own parameter, in order: rows j0..j1 take the
+            # elements as they are (a slice, no gather)
+            span = None
+            if injective and ok.size == self.jy.size and ok.size and np.all(np.diff(self.jy) == 1):
+                span = (int(self.jy[0]), int(self.jy[-1]) + 1)
+            self._inj = (ok, injective, span)
+        ok, injective, span = self._inj
+        if out is None:
+            if not injective:
+                return np.asarray(self._scatter(n_params) @ term)
+            out = np.empty((n_params,) + term.shape[1:], dtype=term.dtype)
+        if span is not None:
+            j0, j1 = span
+            out[:j0] = 0.0
+            out[j1:] = 0.0
+            out[j0:j1] = term
+        elif injective:
+            out[...] = 0.0
+            out[self.jy[ok]] = term[ok]
+        else:
+            out[...] = self._scatter(n_params) @ term
+        return out
 
-    def grad_block(self, Lam, X, n_params, skips):
+    def grad_block(self, Lam, X, n_params, skips, out=None):
         """Sensitivities ``lambda^T (db_j - dA_j x)`` for a block of columns (one
-        per reading); returns (n_params, k)."""
-        term = self.pairs(Lam) * self.pairs(X)
+        per reading); returns (n_params, k), written into ``out`` if given (an
+        array of that shape whose type holds the result)."""
+        term = _times(self.pairs(Lam), self.pairs(X))
         term *= -self.dy[:, None]
         for q, k in enumerate(skips):
             if k >= 0:
                 term[k, q] = 0.0
-        G = self._gather_params(term, n_params)
-        G = G.astype(np.result_type(G, Lam, X), copy=False)
+        if out is not None:
+            G = self._gather_params(term, n_params, out)
+        else:
+            G = self._gather_params(term, n_params)
+            G = G.astype(np.result_type(G, Lam, X), copy=False)
         for j, row, d in self.src:
             G[j] += Lam[row] * d
         return G
 
     def minus_grad_block(self, Mu, W, n_params):
         """``sum_k dy_k (mu_a - mu_b)(w_a - w_b)`` per parameter, for a block (real part)."""
-        term = self.pairs(Mu) * self.pairs(W)
+        term = _times(self.pairs(Mu), self.pairs(W))
         term *= self.dy[:, None]
         return self._gather_params(term, n_params).real

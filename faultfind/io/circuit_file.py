@@ -17,7 +17,8 @@ import tomllib
 from faultfind.engine.topology import dangling_nodes, floating_nodes, voltage_loops
 from faultfind.errors import CircuitError, UnitError
 from faultfind.io.fast_toml import loads_subset
-from faultfind.io.junction_keys import JUNCTION_KEYS, KEYS_OF, TERMINALS, key_problem
+from faultfind.io.junction_keys import (JUNCTION_KEYS, KEYS_OF, TERMINALS, key_problem,
+                                       series_drop_problem)
 from faultfind.io.textfile import read_text
 from faultfind.model import KINDS, Circuit, Part
 from faultfind import units
@@ -374,7 +375,11 @@ class _Reader:
                 fields[key] = self.junction_key(table[key], key, fields, fail)
         if "current_limit" in table:
             fields["current_limit"] = self.current_limit(table["current_limit"], fields, fail)
-        return Part(**fields)
+        part = Part(**fields)
+        problem = series_drop_problem(part)
+        if problem is not None:
+            fail(problem, "series_resistance")
+        return part
 
     def nodes(self, table, info, ground, fail):
         if "nodes" not in table:

@@ -13,7 +13,7 @@ import math
 from dataclasses import dataclass
 
 __all__ = ["JunctionKey", "JUNCTION_KEYS", "KEYS_OF", "TERMINALS", "IDEALITY_RANGE",
-           "terminal_names", "key_problem"]
+           "terminal_names", "key_problem", "series_drop_problem"]
 
 #: The emission coefficient a file may give: 0.5 to 10.  Real junctions lie
 #: between about 1 (an ideal junction, a zener's sharp knee) and 2 to 4
@@ -119,4 +119,44 @@ def key_problem(key: str, value: float) -> str | None:
         return None
     if not value > 0:
         return f"{key} ({spec.meaning}) must be above 0{unit}"
+    return None
+
+
+def series_drop_problem(part) -> str | None:
+    """What is wrong with a junction's voltages against its series resistance, or None.
+
+    A diode's, LED's or zener's ``value`` (and a zener's ``forward_voltage``)
+    is its terminal voltage at ``test_current``, so the junction itself holds
+    that voltage less ``test_current * series_resistance``
+    (docs/junction-models.md).  When the drop takes all of it there is no
+    junction left to model: the keys contradict each other (most often
+    ``series_resistance`` or ``test_current`` typed in the wrong unit).
+
+    Parameters
+    ----------
+    part : Part
+        Any part; only diodes, LEDs and zeners with a series resistance are
+        looked at (defaults filled in by ``Part.junction``).
+
+    Returns
+    -------
+    str or None
+        A sentence naming the voltage and the drop; None when the junction
+        keeps a voltage above 0.
+    """
+    if part.kind not in ("diode", "led", "zener"):
+        return None
+    rs = part.junction("series_resistance")
+    if not rs > 0:
+        return None
+    it = part.junction("test_current")
+    drop = it * rs
+    checks = [("value", part.value)]
+    if part.kind == "zener":
+        checks.insert(0, ("forward_voltage", part.junction("forward_voltage")))
+    for name, volts in checks:
+        if not volts > drop:
+            return (f"{name} {volts:.4g} V is not above the drop across series_resistance at "
+                    f"test_current ({it:.4g} A x {rs:.4g} ohm = {drop:.4g} V): the junction would "
+                    "hold no voltage; check series_resistance and test_current (their units)")
     return None

@@ -28,6 +28,7 @@ import numpy as np
 import pandas as pd
 
 from faultfind.engine import meter as meter_model
+from faultfind.engine.offnet import diode_test_display_limit
 from faultfind.errors import ReadingsError, UnitError
 from faultfind.io.meters_file import DEFAULT_METER
 from faultfind.io.readings_table import (CLOSE_CHOICES_AT_MOST as _CLOSE_CHOICES_AT_MOST,
@@ -367,6 +368,8 @@ class _RowChecker:
                              "the circuit is still powered or a capacitor is charged. Switch "
                              "off, isolate and lock out, discharge capacitors, prove the "
                              "circuit dead, then test again (a reversed junction shows OL)")
+        elif quantity == "diode-test" and not over and self.meters is not None:
+            self.above_diode_test_top(line, raw, number, meter)
         elif sign < 0 and quantity == "resistance":
             allowance = None if over else zero_allowance(self.profile(meter), number)
             if allowance is None or -number > allowance:
@@ -381,6 +384,27 @@ class _RowChecker:
             self.problem(line, "value", f"negative AC reading {_show(raw)}: an AC reading is an "
                          "RMS value and cannot be below zero")
         return number, (sign if over else 0)
+
+    def above_diode_test_top(self, line, raw, number, meter):
+        """A diode test the row's meter could not display: above the top of its diode test.
+
+        The display stops at ``diode_test_max`` (or the open-circuit voltage if
+        lower) and shows OL above it (docs/meter-model.md), so a higher figure
+        came from a meter whose diode test reads further than the profile
+        says: judged against this profile it would be taken as a junction
+        reading where the profile's meter shows OL.  Only with meter profiles
+        given to the reader (the command line always gives them).
+        """
+        profile = self.profile(meter)
+        top = diode_test_display_limit(profile)
+        step = float(meter_model.resolution(profile, "diode-test", top))
+        if number > (top + step / 2.0) * (1.0 + 1e-9):
+            self.problem(line, "value", f"diode test {_show(raw)} is above the top of the "
+                         f"diode-test display of meter profile '{profile.name}' "
+                         f"({format_value(top, 'V')}; above it that meter shows OL): if your "
+                         "meter's diode test reads higher, describe it in a meter profile "
+                         "(diode_test_max, diode_test_voltage; docs/meter-model.md), give it "
+                         "with --meters and name it in the row's meter column")
 
     def profile(self, meter) -> MeterProfile:
         """The profile a row's meter names (the built-in default when not known here)."""

@@ -48,7 +48,10 @@ def _assessed_json(a) -> dict:
 
 def _status_line(a) -> str:
     if a.expected is None:
-        healthy = "a healthy unit reads OL here (no path)"
+        why = ("a reversed or open junction, or above the display's top"
+               if a.logged.reading.quantity == "diode-test"
+               else "no path")
+        healthy = f"a healthy unit reads OL here ({why})"
     else:
         healthy = f"healthy {a.expected_text()}, band {a.band_text()}"
     return f"{healthy}: {a.symbol} {a.words}"

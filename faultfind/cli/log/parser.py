@@ -79,12 +79,13 @@ def add_parser(sub):
 
     q = cmd("add", run_add, "add one reading (committed before this command reports it)",
             "Add one reading, compact (KIND WHERE VALUE: V TP1 11.91 | V +24V,24V-F 23.9 | "
-            "Vac OUT 1.02 | I H1 2.45mA | R F1 OL | R A,0V 4k61 | Rlifted K1 180.6) or with "
+            "Vac OUT 1.02 | I H1 2.45mA | R F1 OL | R A,0V 4k61 | Rlifted K1 180.6 | "
+            "D D3 0.612 | D B1,0V 0.652) or with "
             "options. Bad input stores nothing. A display starting with '-' goes after '--': "
             "faultfind log add 3 -- I H1 -OL.", intermixed=True)
     session_arg(q)
     q.add_argument("reading", metavar="READING", nargs="*", help="KIND WHERE VALUE")
-    for f, h in (("quantity", "voltage, current or resistance"), ("mode", "dc or ac"),
+    for f, h in (("quantity", "voltage, current, resistance or diode-test"), ("mode", "dc or ac"),
                  ("plus", "node of the red probe"), ("minus", "node of the black probe "
                                                               "(default ground)"),
                  ("part", "part read (current; resistance across it)"),

@@ -331,8 +331,9 @@ def test_power_off_reading_from_the_healthy_solution_equals_the_cold_one():
 
 
 def test_full_solve_after_a_live_one_equals_a_fresh_full_solve():
-    # Exact.solve after solve_live reuses the live rows and solves only the power-off
-    # readings: the same displays and sensitivities as a full re-solve from scratch
+    # Exact.solve(sens=False) after solve_live reuses the live rows and solves only the
+    # power-off readings: the same displays as a full re-solve from scratch; wanting
+    # sensitivities, the full solve gives those of a fresh one
     from faultfind.engine.faults import Fault
     from faultfind.engine.hypotheses import Evaluator
     from faultfind.engine.junction_faults import Exact, _faulted, _key
@@ -343,18 +344,20 @@ def test_full_solve_after_a_live_one_equals_a_fresh_full_solve():
         ev = Evaluator(c, rd, METERS)
         a = Exact(ev)
         live = a.solve_live([f])
-        assert not np.isnan(live[0]).any()
+        assert not np.isnan(live[0]).any() and live[1] is None
+        assert a._from_live(_key([f]), *_faulted(c, [f]), sens=False) is not None   # the path
+        vals = a.solve([f], sens=False)
         got = a.solve([f])
-        assert a._from_live(_key([f]), *_faulted(c, [f])) is not None   # the path taken
         ref = Exact(Evaluator(c, rd, METERS)).solve([f])
+        np.testing.assert_allclose(vals[0], ref[0], rtol=1e-9, atol=1e-12)
         np.testing.assert_allclose(got[0], ref[0], rtol=1e-9, atol=1e-12)
         np.testing.assert_allclose(got[1], ref[1], rtol=1e-7, atol=1e-9)
 
 
 def test_displays_only_then_sensitivities_equal_a_fresh_full_solve():
-    # Exact.solve(sens=False) skips the power-off readings' sensitivity rows; the same
-    # displays as a full solve, and a later call wanting sensitivities fills those rows
-    # to what a fresh full solve gives
+    # Exact.solve(sens=False) skips the sensitivities (no adjoint solves); the same
+    # displays as a full solve, and a later call wanting sensitivities gives what a
+    # fresh full solve gives
     from faultfind.engine.faults import Fault
     from faultfind.engine.hypotheses import Evaluator
     from faultfind.engine.junction_faults import Exact
@@ -366,7 +369,94 @@ def test_displays_only_then_sensitivities_equal_a_fresh_full_solve():
         ref = Exact(Evaluator(c, rd, METERS)).solve([f])
         vals = a.solve([f], sens=False)
         np.testing.assert_allclose(vals[0], ref[0], rtol=1e-9, atol=1e-12)
-        assert np.all(vals[1][3:] == 0.0) and np.any(ref[1][3:] != 0.0)   # rows skipped
+        assert vals[1] is None and np.any(ref[1][3:] != 0.0)   # no sensitivities
         got = a.solve([f])
         np.testing.assert_allclose(got[0], ref[0], rtol=1e-9, atol=1e-12)
         np.testing.assert_allclose(got[1], ref[1], rtol=1e-7, atol=1e-9)
+
+
+# ------------------------------------------------------- shared assembly and warm starts
+def test_kept_and_patched_linear_networks_equal_a_fresh_assembly():
+    # engine/nonlinear.py keeps each board's linear network and patches a linear part's
+    # drift into it; every form must equal engine/mna.py's plain assembly of the same
+    # circuit (itself checked against ngspice in tests/reference/test_semis_ngspice.py)
+    from dataclasses import replace
+    from unittest import mock
+
+    import scipy.sparse as sp
+
+    from faultfind.engine.mna import assemble
+    from faultfind.engine.nonlinear import linear_network
+    from faultfind.engine.semis import split_overrides
+    c = relay_driver()
+    cases = [("dc", {}), ("off", {}), ("dc", {"Q1": "base-emitter-open"}), ("off", {"Q1": "open"}),
+             ("dc", {"D1": "short"}), ("off", {"D1": "open"}), ("dc", {"D1": ("leaky", 1e4)}),
+             ("dc", {"R1": 3300.0}), ("off", {"R2": 15e3}), ("dc", {"PS1": 22.0}),
+             ("dc", {"R1": 3300.0, "Q1": "short"}), ("dc", {"K1": "open"})]
+    for analysis, ov in cases * 2:          # the second round finds them kept
+        cc, rest = split_overrides(c, ov)
+        net, rows, cols, vals = linear_network(cc, analysis, None, rest)
+        ref = assemble(cc, analysis, None, rest)
+        np.testing.assert_allclose(net.A.toarray(), ref.A.toarray(), rtol=1e-14, atol=1e-15)
+        np.testing.assert_allclose(sp.coo_matrix((vals, (rows, cols)), shape=ref.A.shape).toarray(),
+                                   ref.A.toarray(), rtol=1e-14, atol=1e-15)
+        np.testing.assert_allclose(net.b, ref.b, rtol=1e-15, atol=0)
+        np.testing.assert_allclose(net.y_val, ref.y_val, rtol=1e-15, atol=0)
+        np.testing.assert_allclose(net.br_e, ref.br_e, rtol=1e-15, atol=0)
+        assert net.node_index == ref.node_index and net.element == ref.element
+    # a drift not seen before is the kept network patched: no new assembly
+    c2 = replace(c, parts=tuple(replace(p, value=3900.0) if p.ref == "R1" else p for p in c.parts))
+    with mock.patch("faultfind.engine.nonlinear.assemble", side_effect=AssertionError("assembled")):
+        net = linear_network(c2, "dc")[0]
+    np.testing.assert_allclose(net.A.toarray(), assemble(c2, "dc").A.toarray(), rtol=1e-14,
+                               atol=1e-15)
+
+
+def test_a_variant_solved_again_starts_from_its_own_solution():
+    # Exact re-solves a variant from its own earlier solution (nonlinear.Solution): one
+    # Newton iteration, the same operating point as from the healthy start (including a
+    # base-emitter-open transistor, which a healthy warm start puts back at 0 V)
+    from faultfind.engine.nonlinear import Solution, System
+    c = relay_driver()
+    healthy = System(c, "dc").solve()
+    for ov in ({"Q1": "base-emitter-open"}, {"D1": "short"}, {"Q1": "open"}):
+        s = System(c, "dc", None, ov)
+        first = s.solve(healthy)
+        again = s.solve(Solution(first.voltages()))
+        assert again.iterations == 1 < first.iterations
+        np.testing.assert_allclose(again.x, first.x, rtol=1e-12, atol=1e-12)
+
+
+def test_re_diagnosis_equals_the_first_diagnosis():
+    # the kept systems, networks and warm starts change no figure: diagnosing the board
+    # again gives the same ranking and probabilities as its first diagnosis, and as a
+    # diagnosis of a fresh copy of it (nothing kept); physics as
+    # test_base_emitter_open_driver (common practice)
+    from dataclasses import replace
+    c = relay_driver()
+    plan = [V("+24V"), V("B"), V("C"), DT(plus="B", minus="0V"), DT(part="D1")]
+    rd = planted(c, plan, ("Q1", "base-emitter-open", None), 21)
+    first = diagnose(c, rd, METERS, advise=False)
+    again = diagnose(c, rd, METERS, advise=False)
+    fresh = diagnose(replace(c, parts=tuple(replace(p) for p in c.parts)), rd, METERS, advise=False)
+    for d in (again, fresh):
+        assert [h.label for h in d.hypotheses] == [h.label for h in first.hypotheses]
+        np.testing.assert_allclose([h.probability for h in d.hypotheses],
+                                   [h.probability for h in first.hypotheses], rtol=1e-6, atol=1e-9)
+        np.testing.assert_allclose(d.hypotheses[0].predicted, first.hypotheses[0].predicted,
+                                   rtol=1e-9, atol=1e-9)
+    assert first.hypotheses[0].label == "Q1 base-emitter-open"
+
+
+def test_displays_only_prediction_equals_the_full_one():
+    # predict(..., sens=False) skips every adjoint solve: the same displays as the full
+    # prediction (voltages, a current through the diode's lead and through a resistor,
+    # diode tests), no sensitivity rows
+    from faultfind.engine.predict import predict
+    c = relay_driver()
+    plan = [V("B"), V("C"), I("D1"), I("R1"), DT(plus="B", minus="0V"), DT(part="D1")]
+    for ov in ({}, {"Q1": "open"}, {"D1": ("leaky", 1e3)}, {"R2": 22e3}):
+        full = predict(c, plan, METERS, overrides=ov)
+        vals = predict(c, plan, METERS, overrides=ov, sens=False)
+        np.testing.assert_allclose(vals.value, full.value, rtol=1e-12, atol=1e-15)
+        assert not np.any(vals.sensitivity) and np.any(full.sensitivity)

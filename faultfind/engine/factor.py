@@ -17,6 +17,21 @@ from ..errors import SolveError
 __all__ = ["Factorization"]
 
 
+#: Matrices up to this size are checked for symmetry densely (the same test, without
+#: sparse arithmetic's overhead: a small board's Newton Jacobians are factored often).
+_DENSE_CHECK = 256
+
+
+def _symmetric(A) -> bool:
+    """``max |A - A^T| <= 1e-14 max |A|`` (True for an empty matrix)."""
+    if not A.nnz:
+        return True
+    if A.shape[0] <= _DENSE_CHECK:
+        D = A.toarray()
+        return bool(np.abs(D - D.T).max() <= 1e-14 * np.abs(D).max())
+    return bool(abs(A - A.T).max() <= 1e-14 * abs(A).max())
+
+
 class Factorization:
     """LU factors of a square sparse matrix.
 
@@ -24,6 +39,9 @@ class Factorization:
     ----------
     A : sparse matrix
         Square, non-singular.
+    lu : SuperLU, optional
+        ``A``'s factors already computed with this class's options (Newton's
+        last iteration factored the matrix it ends on): taken as they are.
 
     Raises
     ------
@@ -40,8 +58,8 @@ class Factorization:
     diagonal of branch rows.
     """
 
-    def __init__(self, A):
-        A = sp.csc_matrix(A)
+    def __init__(self, A, lu=None):
+        A = A if lu is not None and sp.isspmatrix_csc(A) else sp.csc_matrix(A)
         if A.shape[0] != A.shape[1]:
             raise ValueError(f"A: expected a square matrix, got shape {A.shape}")
         self.shape = A.shape
@@ -50,13 +68,14 @@ class Factorization:
             self._lu = None
             return
         try:
-            self._lu = splu(A, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.1,
-                            options={"SymmetricMode": True})
+            self._lu = lu if lu is not None else splu(A, permc_spec="MMD_AT_PLUS_A",
+                                                      diag_pivot_thresh=0.1,
+                                                      options={"SymmetricMode": True})
         except RuntimeError as exc:  # "Factor is exactly singular"
             raise SolveError(f"the network equations are singular ({exc})") from None
         #: True when ``A`` equals its transpose (an MNA matrix stamped
         #: symmetrically): adjoint solves are then forward solves.
-        self.symmetric = bool(abs(A - A.T).max() <= 1e-14 * abs(A).max()) if A.nnz else True
+        self.symmetric = _symmetric(A)
         d = np.abs(self._lu.U.diagonal())
         if d.size and (not np.all(np.isfinite(d)) or d.min() <= 1e-15 * d.max()):
             raise SolveError("the network equations are singular or nearly so "

@@ -322,7 +322,11 @@ class Evaluator(Board, DriftFits):
         #: the fault priors' table (:class:`~.priors.Priors`)
         self.priors = HANDBOOK if priors is None else priors
         share = {}
-        nominal = predict(circuit, readings, meters, share=share) if readings else None
+        #: a board with junctions: the healthy solutions of the power-off readings, by
+        #: (plus, minus, quantity), where their re-solves on faulted variants start
+        self.off_ops = {}
+        nominal = predict(circuit, readings, meters, share=share,
+                          off_warm=self.off_ops) if readings else None
         super().__init__(circuit, readings, meters, share)
         for g in share.values():
             g.cols = {}   # the groups hold their own copies now
@@ -332,7 +336,8 @@ class Evaluator(Board, DriftFits):
         self.S0 = nominal.sensitivity if self.n else np.zeros((0, len(self.params)))
         # semiconductors' model spread (vbe, gain, zener forward voltage): no parameters,
         # extra covariance (engine/spread.py); nothing on a linear board
-        ms = model_spread_columns(circuit, self.readings, meters, nominal) if self.n else None
+        ms = model_spread_columns(circuit, self.readings, meters, nominal, share=share,
+                                  off_ops=self.off_ops) if self.n else None
         self.ev = Evidence(self.readings, meters, self.pred0, self.S0, self.tol_low, self.tol_high,
                            model_spread=ms)
         if self.offnl:   # the fast path's stand-in: what was read (.junction_faults re-solves)

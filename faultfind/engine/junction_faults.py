@@ -40,6 +40,7 @@ from ..errors import SolveError
 from ..model import Part
 from .drifts import _occam
 from .faults import Fault
+from .nonlinear import Solution
 from .predict import predict
 
 __all__ = ["JUNCTION_DRIFT", "LEAK_RANGE", "NONLINEAR_TOP", "EXACT_ALL", "RESCORE_WINDOW",
@@ -118,6 +119,18 @@ def _faulted(circuit, faults):
     return circuit, overrides
 
 
+#: Solutions of faulted variants by (board, variant): the live operating point's element
+#: voltages and each power-off reading's, where a later solve of the same variant starts
+#: (:class:`~.nonlinear.Solution`: one Newton iteration).  Kept across diagnoses of the
+#: same circuit object (re-diagnosing after a new reading solves the same variants).
+_SOLVED: dict = {}
+
+
+def _key_of(overrides):
+    """A hashable form of a variant's overrides."""
+    return tuple(sorted((r, repr(v)) for r, v in overrides.items()))
+
+
 def _key(faults):
     return tuple(sorted((f.ref, f.mode, None if f.value is None else round(float(f.value), 12))
                         for f in faults))
@@ -153,12 +166,16 @@ class Exact:
     def _off_warm(self):
         """The healthy board's power-off solutions by (plus, minus, quantity)."""
         if self.off_warm is None:
-            self.off_warm = {}
             ev = self.ev
+            self.off_warm = {}
             off = [ev.readings[i] for i in range(ev.n) if i not in set(self.cheap)]
+            have = getattr(ev, "off_ops", None)     # the Evaluator's healthy predict's
+            if have is not None and all(_off_key(ev.circuit, rd) in have for rd in off):
+                self.off_warm = have
+                return have
             if off:
                 try:
-                    predict(ev.circuit, off, ev.meters, off_warm=self.off_warm)
+                    predict(ev.circuit, off, ev.meters, off_warm=self.off_warm, sens=False)
                 except _ERRORS:
                     pass     # a reading without a healthy solution starts from cold
         return self.off_warm
@@ -167,9 +184,10 @@ class Exact:
         """``(displays (n,), sensitivity (n, m))`` under ``faults``; NaN displays and
         None when the faulted board cannot be solved.
 
-        ``sens`` False: only the displays are wanted (the sensitivity returned may lack
-        the power-off readings' rows, each of which costs a factorization); a later call
-        wanting them solves just those readings again (:meth:`_from_live`)."""
+        ``sens`` False: only the displays are wanted (no adjoint solves; the
+        sensitivity returned is None); a displays-only result already cached for the
+        live readings (:meth:`solve_live`) is completed by the power-off readings alone
+        (:meth:`_from_live`)."""
         key = _key(faults)
         got = self.cache.get(key)
         if got is not None:
@@ -187,75 +205,91 @@ class Exact:
                 got = self._solve(circuit, overrides, range(ev.n), sens)
             except _ERRORS:
                 got = self._piecewise(circuit, overrides, sens)
-        store = self.cache if sens or got[1] is None else self.vals
+        store = self.cache if sens else self.vals
         if len(store) > 4096:
             store.clear()
         store[key] = got
         return got
 
     def solve_live(self, faults):
-        """:meth:`solve` without the power-off readings (each its own Newton solve): they
-        stand at ``Board.off_fill`` (what was read) until the hypothesis is re-solved in
-        full (:func:`rescore_leaders`).  The full solve when there is nothing to save."""
+        """:meth:`solve` without the power-off readings (each its own Newton solve), and
+        displays only: the power-off readings stand at ``Board.off_fill`` (what was read)
+        until the hypothesis is re-solved in full (:func:`rescore_leaders`).  The full
+        (displays-only) solve when there is nothing to save."""
         ev = self.ev
         fill = getattr(ev, "off_fill", None)
         if fill is None or len(self.cheap) == ev.n:
-            return self.solve(faults)
+            return self.solve(faults, sens=False)
         key = ("live",) + _key(faults)
-        got = self.cache.get(key)
+        got = self.vals.get(key)
         if got is None:
             circuit, overrides = _faulted(ev.circuit, faults)
             try:
-                val, S = self._solve(circuit, overrides, self.cheap) if self.cheap else \
-                    (np.full(ev.n, np.nan), np.zeros((ev.n, len(ev.params))))
+                val = self._solve(circuit, overrides, self.cheap, False)[0] if self.cheap else \
+                    np.full(ev.n, np.nan)
                 rest = [i for i in range(ev.n) if i not in set(self.cheap)]
                 val[rest] = fill[rest]
-                got = (val, S)
+                got = (val, None)
             except _ERRORS:
                 got = (np.full(ev.n, np.nan), None)
-            self.cache[key] = got
+            self.vals[key] = got
         return got
 
     def _from_live(self, key, circuit, overrides, sens=True):
-        """The full solve from a :meth:`solve_live` result (or, wanting sensitivities,
-        a displays-only one) already cached: its live and lifted rows (the same
-        operating point and linearisation a full solve computes) and the power-off
-        readings solved now (they need no operating point).  None when there is no such
-        result or the power-off solve fails (the caller solves it all)."""
-        cheap = set(self.cheap)
-        ev = self.ev
-        off = [i for i in range(ev.n) if i not in cheap]
-        have = self.vals.get(key) if sens else None
-        if have is not None and have[1] is not None:
-            live, reuse_off = have, not off
-        else:
-            live, reuse_off = self.cache.get(("live",) + key), False
-        if live is None or live[1] is None or np.isnan(live[0][self.cheap]).any():
+        """The displays-only full solve from a :meth:`solve_live` result already cached:
+        its live and lifted rows (the same operating point a full solve computes) and
+        the power-off readings solved now (they need no operating point).  None when
+        sensitivities are wanted, when there is no such result or when the power-off
+        solve fails (the caller solves it all)."""
+        if sens:
             return None
-        val, S = live[0].copy(), live[1].copy()
-        if reuse_off:
-            return val, S
+        live = self.vals.get(("live",) + key)
+        if live is None or np.isnan(live[0][self.cheap]).any():
+            return None
+        ev = self.ev
+        cheap = set(self.cheap)
+        off = [i for i in range(ev.n) if i not in cheap]
+        val = live[0].copy()
         try:
-            v, s = self._solve(circuit, overrides, off, sens)
+            val[off] = self._solve(circuit, overrides, off, False)[0][off]
         except _ERRORS:
             return None
-        val[off], S[off] = v[off], s[off]
-        return val, S
+        return val, None
 
     def _solve(self, circuit, overrides, rows, sens=True):
         """Displays and sensitivities of the readings ``rows`` (raises when unsolvable);
-        ``sens`` False: the power-off readings' sensitivity rows left at zero."""
+        ``sens`` False: the displays only (the sensitivity returned is None)."""
         ev = self.ev
         rows = list(rows)
         rds = [ev.readings[i] for i in rows]
-        kw = {"warm": self.warm} if self.warm is not None else {}
+        # Newton starts from this variant's own solution when it was solved before (in
+        # this diagnosis or an earlier one of the same board), else from the healthy one
+        extra = tuple((p.ref, p.nodes, p.value) for p in circuit.parts[len(ev.circuit.parts):]) \
+            if circuit is not ev.circuit else ()
+        skey = (id(ev.circuit), extra) + _key_of(overrides)
+        hit = _SOLVED.get(skey)
+        if hit is not None and hit[0] is not ev.circuit:
+            hit = None
+        warm = hit[1] if hit is not None and hit[1] is not None else self.warm
+        kw = {"warm": warm} if warm is not None else {}
+        keep = None
         if any(i not in self.live_set for i in rows):
-            kw["off_warm"] = self._off_warm()
+            off = self._off_warm()
+            kw["off_warm"] = {**off, **hit[2]} if hit is not None else off
+            kw["off_keep"] = keep = {}
         # predict() re-solves with the meter in the circuit where the meter loads a node
         # heavily (a pad above an open LED): docs/junction-models.md
-        pr = predict(circuit, rds, ev.meters, overrides=overrides, off_sens=sens, **kw)
+        pr = predict(circuit, rds, ev.meters, overrides=overrides, sens=sens, **kw)
+        live = Solution(pr.operating_point) if pr.operating_point is not None else None
+        offs = dict(hit[2]) if hit is not None else {}
+        offs.update({k: Solution(op.voltages()) for k, op in (keep or {}).items()})
+        if len(_SOLVED) >= 4096:
+            _SOLVED.clear()
+        _SOLVED[skey] = (ev.circuit, live or (hit[1] if hit is not None else None), offs)
         val = np.full(ev.n, np.nan)
         val[rows] = np.asarray(pr.value, dtype=float)
+        if not sens:
+            return val, None
         S = np.zeros((ev.n, len(ev.params)))
         col = [ev.pindex.get(r, -1) for r in pr.params]
         have = [k for k, j in enumerate(col) if j >= 0]
@@ -270,23 +304,34 @@ class Exact:
         hypothesis: ``Board.off_fill``); with no live solution the hypothesis has none."""
         ev = self.ev
         off = [i for i in range(ev.n) if i not in self.live_set]
-        val, S = np.full(ev.n, np.nan), np.zeros((ev.n, len(ev.params)))
+        val = np.full(ev.n, np.nan)
+        S = np.zeros((ev.n, len(ev.params))) if sens else None
         if self.live:
             try:
                 v, s = self._solve(circuit, overrides, self.live, sens)
             except _ERRORS:
                 return val, None
-            val[self.live], S[self.live] = v[self.live], s[self.live]
+            val[self.live] = v[self.live]
+            if sens:
+                S[self.live] = s[self.live]
         fill = getattr(ev, "off_fill", None)
         if fill is None:   # a Board without readings' values (advice): the reading is unknown
             fill = np.full(ev.n, np.nan)
         for i in off:
             try:
                 v, s = self._solve(circuit, overrides, [i], sens)
-                val[i], S[i] = v[i], s[i]
+                val[i] = v[i]
+                if sens:
+                    S[i] = s[i]
             except _ERRORS:
                 val[i] = fill[i]
         return val, S
+
+
+def _off_key(circuit, rd):
+    """A power-off reading's key in the warm starts' dict (engine/semis.py)."""
+    plus, minus = circuit.part(rd.part).nodes[:2] if rd.part is not None else (rd.plus, rd.minus)
+    return (plus, minus, rd.quantity)
 
 
 def _exact(ev) -> Exact:
@@ -373,6 +418,28 @@ def fit_junction_drift(ev, part, exact=True):
                         ev.healthy_prediction())
         sd = float(np.sqrt(1.0 / info))
         return Fault(part.ref, "drift", float(part.value * np.exp(rho))), pred, sd, _occam(sd, spec)
+    best = _drift_gauss_newton(ev, part, j, rho, (lo, hi, blo, bhi), w, y)
+    if best is None:
+        f = Fault(part.ref, "drift", float(part.value * np.exp(hi)))
+        return f, np.full(ev.n, np.nan), None, 0.0
+    c2, rho, f, pred, S = best
+    g = float(np.sum(w * S[:, j] ** 2))
+    sd = float(np.sqrt(1.0 / g)) if g > 0 else None
+    if sd:
+        c2, rho, f, pred = _polish_drift(_exact(ev), ev, part, j, (c2, rho, f, pred), sd, spec)
+    occam = _occam(sd, spec) if sd else 0.0
+    return f, pred, sd, occam
+
+
+def _drift_gauss_newton(ev, part, j, rho, bounds, w, y):
+    """Gauss-Newton on the log-value ``rho`` of ``part``'s drift (column ``j``), each
+    step an exact re-solve of the drifted board (:meth:`Exact.solve`, with its
+    sensitivities), kept out of the tolerance band and within the drift range
+    ``bounds = (lo, hi, band low, band high)``; a step that raises the chi-square is
+    halved back.  Returns the best ``(chi2, rho, Fault, prediction, sensitivity)``,
+    or None when the first trial has no solution."""
+    lo, hi, blo, bhi = bounds
+    ex = _exact(ev)
     best = None
     for _ in range(_GN_STEPS):
         rho = float(np.clip(_outside(rho, blo, bhi), lo, hi))
@@ -390,21 +457,11 @@ def fit_junction_drift(ev, part, exact=True):
         g = float(np.sum(w * sj * sj))
         if g <= 0:
             break
-        res = np.where(np.isfinite(pred), y - pred, 0.0)
-        step = float(np.sum(w * sj * res) / g)
+        step = float(np.sum(w * sj * np.where(np.isfinite(pred), y - pred, 0.0)) / g)
         if abs(step) < 1e-4:
             break
         rho = rho + step
-    if best is None:
-        f = Fault(part.ref, "drift", float(part.value * np.exp(hi)))
-        return f, np.full(ev.n, np.nan), None, 0.0
-    c2, rho, f, pred, S = best
-    g = float(np.sum(w * S[:, j] ** 2))
-    sd = float(np.sqrt(1.0 / g)) if g > 0 else None
-    if sd:
-        c2, rho, f, pred = _polish_drift(ex, ev, part, j, (c2, rho, f, pred), sd, spec)
-    occam = _occam(sd, spec) if sd else 0.0
-    return f, pred, sd, occam
+    return best
 
 
 def _polish_drift(ex, ev, part, j, best, sd, spec):
@@ -674,31 +731,10 @@ def _refit_linear_drift(ev, h):
     w = _weights(ev, j)
     y = np.where(np.isfinite(ev.ev.y), ev.ev.y, 0.0)
     rho = float(np.log(f0.value / part.value))
-    ex = _exact(ev)
-    best = None
-    for _ in range(_GN_STEPS):
-        rho = float(np.clip(_outside(rho, blo, bhi), lo, hi))
-        f = Fault(part.ref, "drift", float(part.value * np.exp(rho)))
-        pred, S = ex.solve([f])
-        if S is None or np.isnan(pred).any():
-            break
-        c2 = float(_chi2(ev, pred, j)[0])
-        if best is None or c2 < best[0]:
-            best = (c2, f, pred, S)
-        elif c2 > best[0]:
-            rho = 0.5 * (rho + float(np.log(best[1].value / part.value)))
-            continue
-        sj = S[:, j]
-        g = float(np.sum(w * sj * sj))
-        if g <= 0:
-            break
-        step = float(np.sum(w * sj * np.where(np.isfinite(pred), y - pred, 0.0)) / g)
-        if abs(step) < 1e-4:
-            break
-        rho += step
+    best = _drift_gauss_newton(ev, part, j, rho, (lo, hi, blo, bhi), w, y)
     if best is None:
         return f0, exact_faults(ev, [f0]), h.drift_sd, h.occam
-    _, f, pred, S = best
+    _, _, f, pred, S = best
     g = float(np.sum(w * S[:, j] ** 2))
     sd = float(np.sqrt(1.0 / g)) if g > 0 else h.drift_sd
     return f, pred, sd, (_occam(sd, spec) if sd else h.occam)

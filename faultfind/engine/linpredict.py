@@ -229,14 +229,16 @@ def _reading_vectors(part, N, dtype):
     return er, ec, ev, U
 
 
-def _live_block(circuit, grp, readings, idx, meters, npar, pindex, value, sens, memo=None, store=False):
+def _live_block(circuit, grp, readings, idx, meters, npar, pindex, value, sens, memo=None, store=False,
+                grads=True):
     """Live readings of one analysis: block solves, then vectorized gradients.
 
     Per reading ``i`` (columns of ``U``) this is the Sherman-Morrison formula of
     the module docstring: ``den = 1 + alpha z``, ``x_L = x - w alpha (u^T x) / den``,
     ``lambda_L = mu / den``, ``r = s (u^T x) / den``.  ``memo`` (dict): readings
     already worked out on this network are taken from it; with ``store``, the
-    ones worked out here are put in it.
+    ones worked out here are put in it.  ``grads`` False: the values only (no
+    adjoint solves, ``sens`` left as it is; not with ``memo``).
     """
     net, lu, x = grp.net, grp.lu, grp.x
     N = net.size
@@ -281,6 +283,16 @@ def _live_block(circuit, grp, readings, idx, meters, npar, pindex, value, sens, 
         part = cols[c0:c0 + _BLOCK]
         rows = [i for i, _ in part]
         er, ec, ev_, U = _reading_vectors(part, N, net.A.dtype)
+        if not grads:
+            W = lu.solve(U)
+            alpha = np.array(alphas[c0:c0 + _BLOCK])
+            s = np.array(ss[c0:c0 + _BLOCK])
+            z = np.zeros(len(part), dtype=np.result_type(U.dtype, W.dtype, alpha.dtype))
+            np.add.at(z, ec, ev_ * W[er, ec])
+            ux = np.zeros(len(part), dtype=np.result_type(U.dtype, x.dtype))
+            np.add.at(ux, ec, ev_ * x[er])
+            value[rows] = s * ux / (1.0 + alpha * z)
+            continue
         W, Mu = lu.solve_both(U)
         alpha = np.array(alphas[c0:c0 + _BLOCK], dtype=complex)
         s = np.array(ss[c0:c0 + _BLOCK], dtype=complex)

@@ -43,8 +43,9 @@ Linear circuits never come here (``Circuit.is_nonlinear`` is false).
 
 from __future__ import annotations
 
+import copy
 import re
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 import scipy.sparse as sp
@@ -52,11 +53,13 @@ from scipy.sparse.linalg import splu
 
 from ..errors import ConvergenceError
 from ..model import SEMICONDUCTORS
+from .factor import Factorization
 from .junctions import ARG_MAX, Element, critical_voltage, device, law, limit
 from .mna import Network, assemble
+from .stamps import Stamps
 
-__all__ = ["System", "OperatingPoint", "operating_point", "ConvergenceError",
-           "VTOL", "MAXITER"]
+__all__ = ["System", "OperatingPoint", "Solution", "operating_point", "ConvergenceError",
+           "VTOL", "MAXITER", "linear_network", "shared_stamps", "junction_grad"]
 
 #: Newton has converged when every element voltage moved less than this (volts).
 VTOL = 1e-9
@@ -108,6 +111,12 @@ class OperatingPoint:
         return dict(zip(self.keys, self.v.tolist()))
 
 
+class Solution(dict):
+    """Element voltages by (part ref, element name) of an earlier solution of the very
+    board being solved (the same faulted variant): Newton starts there as they are (no
+    junction is put back at 0 V, :attr:`System.zero_start`) and settles in one iteration."""
+
+
 #: Devices built from (part, override) pairs, by the part's identity: every re-solve of a
 #: faulted variant builds the same devices again (the parts are immutable).
 _DEVICES: dict = {}
@@ -124,6 +133,145 @@ def _device(part, override):
         _DEVICES.clear()
     _DEVICES[key] = (part, dev)
     return dev
+
+
+#: Linear networks (:func:`.mna.assemble`) of recent circuits, by what they depend on
+#: (:func:`_linear_key`): the faulted variants of one board mostly share one (a
+#: junction's fault or a model key leaves the linear network as it was).
+_LINEAR: dict = {}
+#: At most this many networks, holding at most :data:`_LINEAR_ENTRIES` matrix entries
+#: in all (a board with semiconductors of thousands of parts keeps fewer).
+_LINEAR_SIZE = 512
+_LINEAR_ENTRIES = 2_000_000
+
+
+#: Matrix entries held by each of the caches of networks, by the cache's identity.
+_HELD: dict = {}
+
+
+def _bounded_put(cache, key, value):
+    """Put ``value`` (``(parts, (net, rows, cols, vals))``) in ``cache`` under ``key``,
+    dropping the oldest entries past :data:`_LINEAR_SIZE` or :data:`_LINEAR_ENTRIES`."""
+    total = _HELD.get(id(cache), 0) + value[1][3].size
+    if key in cache:
+        total -= cache.pop(key)[1][3].size
+    while cache and (len(cache) >= _LINEAR_SIZE or total > _LINEAR_ENTRIES):
+        total -= cache.pop(next(iter(cache)))[1][3].size
+    cache[key] = value
+    _HELD[id(cache)] = total
+
+
+def _linear_key(circuit, analysis, frequency, overrides, floating):
+    """What :func:`.mna.assemble` reads: every linear part as an object (with its
+    override), every semiconductor by its name, kind, nodes and topology override
+    (their values and models stamp nothing there)."""
+    joins = analysis == "off" or floating    # a semiconductor's faults change connectivity
+    over = []
+    for ref, ov in overrides.items():
+        if not circuit.has_part(ref):
+            continue
+        p = circuit.part(ref)
+        if p.kind in SEMICONDUCTORS:
+            if not isinstance(ov, str) or not (joins or ov == "short" and p.kind in _KEY_TWO):
+                continue       # a leak, a drift or (live, not floating) an open: no stamp
+        elif ov is None:
+            continue
+        over.append((ref, ov))
+    return (analysis, frequency, bool(floating), _signature(circuit), tuple(sorted(over, key=str)))
+
+
+#: Circuits' signatures (:func:`_signature`), by the circuit's identity.
+_SIGNATURES: dict = {}
+
+
+def _signature(circuit):
+    """The ground, every linear part as an object and every semiconductor by its name,
+    kind and nodes (its values and models stamp nothing in the linear network)."""
+    hit = _SIGNATURES.get(id(circuit))
+    if hit is not None and hit[0] is circuit:
+        return hit[1]
+    semi = SEMICONDUCTORS
+    sig = (circuit.ground,) + tuple((p.ref, p.kind, p.nodes) if p.kind in semi else id(p)
+                                    for p in circuit.parts)
+    if len(_SIGNATURES) >= 256:
+        _SIGNATURES.clear()
+    _SIGNATURES[id(circuit)] = (circuit, sig)
+    return sig
+
+
+def linear_network(circuit, analysis, frequency=None, overrides=None, floating=False):
+    """``(net, rows, cols, vals)``: :func:`.mna.assemble`'s network and its matrix as
+    COO triplets, cached (the network is shared: treat it as read-only)."""
+    overrides = overrides or {}
+    key = _linear_key(circuit, analysis, frequency, overrides, floating)
+    hit = _LINEAR.get(key)
+    if hit is not None:
+        return hit[1]
+    # the same network with other values of some linear parts: its values patched
+    skey = (key[0], key[1], key[2], key[4], circuit.ground,
+            tuple((p.ref, p.kind, p.nodes) for p in circuit.parts))
+    base = _BASES.get(skey)
+    got = _revalued(base, circuit, analysis, overrides) if base is not None else None
+    if got is None:
+        net = assemble(circuit, analysis, frequency, overrides, floating)
+        A0 = net.A.tocoo()      # a canonical CSC matrix: its COO triplets in its data's order
+        got = (net, A0.row.astype(np.int64), A0.col.astype(np.int64), A0.data)
+        _bounded_put(_BASES, skey, (circuit.parts, got))     # the latest of its structure
+    # the parts are kept with the entry: the ids in its key stay theirs
+    _bounded_put(_LINEAR, key, (circuit.parts, got))
+    return got
+
+
+#: A first assembled network of each structure (parts by name, kind and nodes; the
+#: same topology overrides): a network whose linear parts differ only in value is that
+#: one with its values patched (:func:`_revalued`).
+_BASES: dict = {}
+
+
+def _revalued(base, circuit, analysis, overrides):
+    """``base``'s network with the values of ``circuit``'s linear parts that differ from
+    its own only in ``value`` (resistors, fuses, closed switches; DC voltage sources;
+    parts that stamp nothing in this analysis); None when another change is there (the
+    caller assembles)."""
+    parts0, (net, rows, cols, vals) = base
+    changed = [(p0, p) for p0, p in zip(parts0, circuit.parts) if p0 is not p and p0 != p]
+    if len(changed) > 4:
+        return None
+    vals = vals.copy()
+    y_val, b, br_e = net.y_val, net.b, net.br_e
+    for p0, p in changed:
+        if p.kind in SEMICONDUCTORS or p0 != replace(p, value=p0.value):
+            return None           # not a value change of a linear part
+        ov = overrides.get(p.ref)
+        el = net.element.get(p.ref)
+        if ov is not None and not isinstance(ov, str):
+            return None
+        if el is None or ov in ("open", "short", "dead"):
+            continue              # nothing of it in this network
+        if el[0] == "y" and p.kind in ("resistor", "fuse", "switch"):
+            k = el[1]
+            if y_val is net.y_val:
+                y_val = y_val.copy()
+            dy = 1.0 / p.value - y_val[k]
+            y_val[k] += dy
+            a, bb = net.y_a[k], net.y_b[k]
+            for r, c, sg in ((a, a, 1.0), (bb, bb, 1.0), (a, bb, -1.0), (bb, a, -1.0)):
+                if r >= 0 and c >= 0:
+                    vals[np.flatnonzero((rows == r) & (cols == c))] += sg * dy
+        elif el[0] == "br" and p.kind == "voltage-source" and analysis == "dc" \
+                and p.waveform != "ac":
+            k = el[1]
+            if b is net.b:
+                b, br_e = b.copy(), br_e.copy()
+            br_e[k] = p.value
+            b[net.n + k] = p.value
+        else:
+            return None
+    A = net.A.copy()
+    A.data = vals.astype(A.dtype)
+    new = replace(net, A=A, b=b, y_val=y_val, br_e=br_e)
+    new.indeterminate = getattr(net, "indeterminate", set())
+    return new, rows, cols, vals
 
 
 class System:
@@ -166,7 +314,8 @@ class System:
         overrides = overrides or {}
         self.circuit = circuit
         self.analysis = analysis
-        net = assemble(circuit, analysis, frequency, overrides, floating)
+        net, a_rows, a_cols, a_vals = linear_network(circuit, analysis, frequency, overrides,
+                                                      floating)
         self.net0 = net
         N0 = net.size
         idx = net.node_index
@@ -177,11 +326,10 @@ class System:
             return nxt[0] - 1
 
         lr, lc, lv = [], [], []            # extension stamps (rows, cols, values)
+        conds = []                         # conductances (a, b, g), stamped together below
 
         def cond(a, b, g):
-            for r, c, s in ((a, a, g), (b, b, g), (a, b, -g), (b, a, -g)):
-                if r >= 0 and c >= 0:
-                    lr.append(r); lc.append(c); lv.append(s)
+            conds.append((a, b, g))
 
         els: list = []
         #: elements Newton starts at 0 V whatever the warm start says: the base-emitter
@@ -263,10 +411,15 @@ class System:
         self.size = N
         self.n_nodes = node_unknowns
         # padded linear matrix and right-hand side
-        A0 = net.A.tocoo()
-        self.lin_rows = np.concatenate([A0.row, np.array(lr, dtype=np.int64)]).astype(np.int64)
-        self.lin_cols = np.concatenate([A0.col, np.array(lc, dtype=np.int64)]).astype(np.int64)
-        self.lin_vals = np.concatenate([A0.data, np.array(lv, dtype=float)])
+        ca, cb, cg = (np.array(t) for t in zip(*conds)) if conds else \
+            (np.zeros(0, np.int64), np.zeros(0, np.int64), np.zeros(0))
+        cr = np.concatenate([ca, cb, ca, cb]).astype(np.int64)
+        cc = np.concatenate([ca, cb, cb, ca]).astype(np.int64)
+        cv = np.concatenate([cg, cg, -cg, -cg]).astype(float)
+        on = (cr >= 0) & (cc >= 0)
+        self.lin_rows = np.concatenate([a_rows, np.array(lr, dtype=np.int64), cr[on]])
+        self.lin_cols = np.concatenate([a_cols, np.array(lc, dtype=np.int64), cc[on]])
+        self.lin_vals = np.concatenate([a_vals, np.array(lv, dtype=float), cv[on]])
         b = np.zeros(N, dtype=net.b.dtype)
         b[:N0] = net.b
         for k, v in b_extra.items():
@@ -355,6 +508,7 @@ class System:
         self._indptr = np.concatenate([[0], np.cumsum(np.bincount(uniq // N, minlength=N))]).astype(np.int32)
         self._nlin = self.lin_vals.size
         self._ndev = int(ok.sum())
+        self._lin_data = None
 
     def matrix(self, g, gmin=0.0, lin_vals=None):
         """The linearized matrix: linear part + element conductances ``g`` + ``gmin`` on node diagonals."""
@@ -383,6 +537,22 @@ class System:
 
     def _values(self, g, gmin=0.0, lin_vals=None):
         """The matrix's nonzero values in the pattern's order."""
+        if lin_vals is None and self.lin_vals.dtype == float:
+            # the linear part's sums are the same every iteration: summed once
+            base = self.__dict__.get("_lin_data")
+            if base is None:
+                nl, nd = self._nlin, self._ndev
+                base = self._lin_data = np.bincount(self._inv[:nl], weights=self.lin_vals,
+                                                    minlength=self._nuniq)
+                self._dev_inv = self._inv[nl:nl + nd]
+                self._diag_pos = self._inv[nl + nd:]
+            data = base.copy()
+            if len(g):
+                dev = (self._ew * self._es[None, :] * np.asarray(g, dtype=float)[:, None])[self._emask]
+                data += np.bincount(self._dev_inv, weights=dev, minlength=self._nuniq)
+            if gmin:
+                data[self._diag_pos] += gmin
+            return data
         lin = self.lin_vals if lin_vals is None else lin_vals
         dev = (self._ew * self._es[None, :] * np.asarray(g)[:, None])[self._emask] if len(g) else np.zeros(0)
         diag = np.full(len(self.n_nodes), gmin)
@@ -406,7 +576,7 @@ class System:
         if len(v):
             c = (self.w * (i - g * v)[:, None])
             m = self.out >= 0
-            np.subtract.at(rhs, self.out[m], c[m])
+            rhs -= np.bincount(self.out[m], weights=c[m], minlength=rhs.size)
         return rhs
 
     def element_currents(self, x=None, v=None):
@@ -426,8 +596,9 @@ class System:
             for k, key in enumerate(self.keys):
                 if key in w:
                     v[k] = w[key]
-        for k in self.zero_start:
-            v[k] = 0.0
+        if not isinstance(warm, Solution):
+            for k in self.zero_start:
+                v[k] = 0.0
         return v
 
     def _newton(self, v, b, gmin=0.0, maxiter=MAXITER):
@@ -440,8 +611,9 @@ class System:
             J = self._work_matrix(g, gmin)
             rhs = self.companion_rhs(b, i, g, v)
             try:
-                x = splu(J, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.1,
-                         options={"SymmetricMode": True}).solve(rhs)
+                lu = splu(J, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.1,
+                          options={"SymmetricMode": True})
+                x = lu.solve(rhs)
             except RuntimeError:
                 return None, v, it, False, np.ones(len(v), dtype=bool)
             if not np.all(np.isfinite(x)):
@@ -460,6 +632,8 @@ class System:
                 moved &= off
             bad = lim | moved
             if not bad.any():
+                if gmin == 0.0:     # the factors of the Jacobian at the solution (v)
+                    self._last_lu = (v, lu)
                 return x, v, it, True, bad
             if it > DAMP_AFTER:
                 vnew = v + 0.5 * (vnew - v)
@@ -578,10 +752,24 @@ class System:
         _, g = law(op.v, self.log_is, self.nvt)
         return self.matrix(g)
 
+    def factors(self, op: OperatingPoint):
+        """``(J, Factorization of J)`` at an operating point: Newton's last factors when it
+        ended there (the same matrix, factored with the same options), else new ones."""
+        last = getattr(self, "_last_lu", None)
+        if last is not None and last[0] is op.v and getattr(self, "_Jw", None) is not None:
+            # Newton's work matrix holds that very matrix: handed over (the next Newton
+            # solve of this system starts a new one)
+            J, self._Jw, self._last_lu = self._Jw, None, None
+            return J, Factorization(J, lu=last[1])
+        J = self.jacobian(op)
+        return J, Factorization(J)
+
     def linear_network(self, A) -> Network:
-        """The extended :class:`Network` with matrix ``A`` (what the predictions read)."""
-        self.net.A = A
-        return self.net
+        """The extended :class:`Network` with matrix ``A`` (what the predictions read): a
+        new object each time (a system can serve several groups, each its own matrix)."""
+        net = copy.copy(self.net)
+        net.A = A
+        return net
 
     def small_signal(self, g):
         """The AC matrix of this (``"ac"``) system with element conductances ``g``."""
@@ -630,6 +818,26 @@ def operating_point(circuit, overrides=None, warm=None, floating=False) -> tuple
     """
     sysm = System(circuit, "dc", None, overrides, floating)
     return sysm, sysm.solve(warm)
+
+
+def shared_stamps(st: Stamps, system: System, circuit, pindex, net) -> Stamps:
+    """Set up ``st`` (a :class:`~.stamps.Stamps`) on ``net``, a linearised network of
+    ``system`` (:meth:`System.linear_network`): the stamp derivatives and the incidence
+    map are the linear network's, shared by every system built on it (a junction's
+    fault or value, or the meter's source, leaves them as they were), so they are
+    worked out once."""
+    memo = system.net0.__dict__.setdefault("_stamps", {})
+    key = (tuple(pindex), system.size)
+    got = memo.get(key)
+    if got is None:
+        Stamps.__init__(st, circuit, net, pindex)
+        if len(memo) > 16:
+            memo.clear()
+        memo[key] = (st.jy, st.dy, st.src, st.incidence())
+    else:
+        st.net = net
+        st.jy, st.dy, st.src, st._inc = got
+    return st
 
 
 def junction_grad(system: System, Lam, v, n_params):

@@ -35,14 +35,13 @@ from dataclasses import replace
 import numpy as np
 
 from ..model import Accuracy, Circuit, MeterProfile
-from .factor import Factorization
 from .junctions import law
 from .meter import OHMS_COMPLIANCE, ohmmeter_ranges
-from .nonlinear import System, junction_grad
+from .nonlinear import System, junction_grad, shared_stamps
 from .stamps import Stamps
 
 __all__ = ["off_reading", "lifted_junction", "lifted_junction_sens", "diode_test_display_limit",
-           "CLAMP_SHARE"]
+           "diode_test_adjoint", "CLAMP_SHARE"]
 
 #: A diode-test or ohms reading is OL when the source's clamp takes more than
 #: this share of the test current.
@@ -62,10 +61,10 @@ def _sens(circuit, sysm, op, u, pindex, npar):
     """``d (u^T x) / d ln p`` at an operating point of ``sysm`` (linearized network)."""
     if npar == 0:
         return np.zeros(0)
-    J = sysm.jacobian(op)
+    J, lu = sysm.factors(op)
     net = sysm.linear_network(J)
-    lam = Factorization(J).solve_adjoint(u)
-    st = Stamps(circuit, net, pindex)
+    lam = lu.solve_adjoint(u)
+    st = shared_stamps(Stamps.__new__(Stamps), sysm, circuit, pindex, net)
     G = st.grad_block(lam[:, None], op.x[:, None], npar, [-1])
     G = G + junction_grad(sysm, lam[:, None], op.v, npar)
     return np.asarray(G[:, 0].real, dtype=float)
@@ -150,10 +149,35 @@ def off_reading(circuit: Circuit, plus: str, minus: str, quantity: str, meter, o
     return np.inf, zeros
 
 
+def diode_test_adjoint(circuit, plus, minus, meter, op):
+    """``(system, lambda)`` of a diode test on ``circuit`` (no overrides) at its solution
+    ``op`` (an earlier :func:`off_reading`'s, ``keep["op"]``): the power-off system with
+    the meter's source in place and ``lambda = J^-T u``, ``u`` selecting the probes, for
+    the change of the display under a small change of the network's equations
+    (``d display = -lambda^T dF``).  None when the probes are not connected or ``op`` is
+    not a solution of that system."""
+    top = diode_test_display_limit(meter)
+    voc = max(meter.diode_test_voltage, top + KNEE_MARGIN)
+    sysm = _system(circuit, None, None, plus, minus, meter.diode_test_current, voc)
+    if not sysm.net0.connected(plus, minus) or tuple(op.keys) != sysm.keys:
+        return None
+    sysm.set_source(meter.diode_test_current, voc)
+    ip, im = sysm.net.node_index[plus], sysm.net.node_index[minus]
+    u = np.zeros(sysm.size)
+    if ip >= 0:
+        u[ip] += 1.0
+    if im >= 0:
+        u[im] -= 1.0
+    _, lu = sysm.factors(op)
+    return sysm, lu.solve_adjoint(u)
+
+
 #: Power-off systems of the last few (circuit, overrides) pairs, the meter
 #: source moved between readings instead of assembling the network again.
 _CACHE: dict = {}
-_CACHE_SIZE = 8
+#: At most this many systems, of at most :data:`_CACHE_UNKNOWNS` unknowns in all.
+_CACHE_SIZE = 128
+_CACHE_UNKNOWNS = 200_000
 
 
 def _system(circuit, overrides, pindex, plus, minus, current, voc):
@@ -165,8 +189,9 @@ def _system(circuit, overrides, pindex, plus, minus, current, voc):
         return sysm
     sysm = System(circuit, "off", None, overrides, source=(plus, minus, current, voc),
                   pindex=pindex)
-    if len(_CACHE) >= _CACHE_SIZE:
-        _CACHE.pop(next(iter(_CACHE)))
+    held = sum(v[2].size for v in _CACHE.values()) + sysm.size
+    while _CACHE and (len(_CACHE) >= _CACHE_SIZE or held > _CACHE_UNKNOWNS):
+        held -= _CACHE.pop(next(iter(_CACHE)))[2].size
     _CACHE[key] = (circuit, pindex, sysm)
     return sysm
 

@@ -54,16 +54,14 @@ def _solve_nonlinear(circuit, key, overrides, warm):
     dc = System(circuit, "dc", None, overrides, floating=True)
     op = dc.solve(warm)
     if key[0] == "dc":
-        dc.linear_network(dc.jacobian(op))
-        return dc.net, op.x, op
+        return dc.linear_network(dc.jacobian(op)), op.x, op
     ac = System(circuit, "ac", key[1], overrides, floating=True)
     pos = {k: i for i, k in enumerate(dc.keys)}
     v = op.v[[pos[k] for k in ac.keys]] if ac.keys else np.zeros(0)
     _, g = law(v, ac.log_is, ac.nvt)
     A = ac.matrix(g)
     x = Factorization(A).solve(ac.b)
-    ac.linear_network(A)
-    return ac.net, x, op
+    return ac.linear_network(A), x, op
 
 
 def _solve_live(circuit, key, overrides, warm=None):

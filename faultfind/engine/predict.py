@@ -21,7 +21,8 @@ _ = _lifted  # re-exported for engine/faulted.py
 
 
 def predict(circuit: Circuit, readings, meters: dict, overrides: dict | None = None, *,
-            share: dict | None = None, warm=None, off_warm=None, off_sens=True) -> Prediction:
+            share: dict | None = None, warm=None, off_warm=None, off_sens=True,
+            sens=True, off_keep=None) -> Prediction:
     """Predict the meter displays of ``readings`` on ``circuit``.
 
     Parameters
@@ -55,6 +56,13 @@ def predict(circuit: Circuit, readings, meters: dict, overrides: dict | None = N
     off_sens : bool, optional
         Circuits with semiconductors: False leaves the power-off readings'
         sensitivity rows at zero (values unchanged, no factorization each).
+    sens : bool, optional
+        Circuits with semiconductors: False leaves every sensitivity row at
+        zero (the values only, no adjoint solves).  Ignored for a linear
+        circuit.
+    off_keep : dict, optional
+        Circuits with semiconductors: filled with every power-off reading's
+        solution (a warm start for the same reading on the same board).
 
     Returns
     -------
@@ -75,4 +83,4 @@ def predict(circuit: Circuit, readings, meters: dict, overrides: dict | None = N
     if not circuit.is_nonlinear:
         return predict_linear(circuit, readings, meters, overrides, share=share)
     return predict_nonlinear(circuit, readings, meters, overrides, share=share, warm=warm, off_warm=off_warm,
-                             off_sens=off_sens)
+                             off_sens=off_sens, sens=sens, off_keep=off_keep)

@@ -62,7 +62,7 @@ from ..model import SEMICONDUCTORS, Circuit, MeterProfile, Part
 from .factor import Factorization
 from .junctions import law
 from .linpredict import Prediction, _lifted, _live_block, analysis_key, finish, parameters
-from .nonlinear import System, junction_grad
+from .nonlinear import System, junction_grad, shared_stamps
 from .offnet import off_reading
 from .stamps import Stamps
 
@@ -77,6 +77,8 @@ def split_overrides(circuit: Circuit, overrides: dict | None) -> tuple[Circuit, 
     overrides = overrides or {}
     if not overrides:
         return circuit, {}
+    if all(isinstance(ov, (str, tuple)) for ov in overrides.values()):
+        return circuit, dict(overrides)     # no value to write: the circuit as it is
     parts, rest = [], {}
     for p in circuit.parts:
         ov = overrides.get(p.ref)
@@ -90,6 +92,32 @@ def split_overrides(circuit: Circuit, overrides: dict | None) -> tuple[Circuit, 
                 q = replace(q, state="closed")
             parts.append(q)
     return replace(circuit, parts=tuple(parts)), rest
+
+
+#: DC systems of recent (circuit, variant) pairs: a variant solved again (its full
+#: solve after a live-only one, the next diagnosis of the same board) finds its system
+#: assembled.  Bounded by count and by unknowns in all.
+_SYSTEMS: dict = {}
+_SYSTEMS_SIZE = 512
+_SYSTEMS_UNKNOWNS = 500_000
+_HELD = [0]
+
+
+def _system(circuit, overrides, floating, probe, pindex, loads):
+    """``System(circuit, "dc", None, overrides, floating, probe=, pindex=, loads=)``,
+    kept per (circuit, overrides, probe, loads, parameter columns)."""
+    key = (id(circuit), tuple(sorted((r, repr(v)) for r, v in (overrides or {}).items())),
+           bool(floating), probe, tuple(loads), id(pindex))
+    hit = _SYSTEMS.get(key)
+    if hit is not None and hit[0] is circuit and hit[1] is pindex:
+        return hit[2]
+    sysm = System(circuit, "dc", None, overrides, floating, probe=probe, pindex=pindex,
+                  loads=loads)
+    _HELD[0] += sysm.size
+    while _SYSTEMS and (len(_SYSTEMS) >= _SYSTEMS_SIZE or _HELD[0] > _SYSTEMS_UNKNOWNS):
+        _HELD[0] -= _SYSTEMS.pop(next(iter(_SYSTEMS)))[2].size
+    _SYSTEMS[key] = (circuit, pindex, sysm)
+    return sysm
 
 
 class DCGroup(Stamps):
@@ -110,14 +138,12 @@ class DCGroup(Stamps):
         self.overrides = dict(overrides or {})
         self.cols = {}
         self.keep = False
-        self.sys = System(circuit, "dc", None, overrides, floating, probe=probe, pindex=pindex,
-                          loads=loads)
+        self.sys = _system(circuit, overrides, floating, probe, pindex, loads)
         self.op = self.sys.solve(warm)
-        J = self.sys.jacobian(self.op)
+        J, self.lu = self.sys.factors(self.op)
         net = self.sys.linear_network(J)
-        self.lu = Factorization(J)
         self.x = self.op.x
-        super().__init__(circuit, net, pindex)
+        shared_stamps(self, self.sys, circuit, pindex, net)
 
     def grad_block(self, Lam, X, n_params, skips):
         G = super().grad_block(Lam, X, n_params, skips)
@@ -175,10 +201,11 @@ class ACGroup(Stamps):
         return G
 
 
-def junction_current(circuit, overrides, key, ref, meter, pindex, npar, dc):
+def junction_current(circuit, overrides, key, ref, meter, pindex, npar, dc, grads=True):
     """A current reading through a semiconductor's lead: exact re-solve with the meter's shunt there.
 
-    Returns ``(complex value, sensitivity row)``; a lead the fault left open reads 0.
+    Returns ``(complex value, sensitivity row)``; a lead the fault left open reads 0;
+    ``grads`` False: the row is zeros.
     """
     probe = (ref, float(meter.current_shunt))
     pd = DCGroup(circuit, overrides, pindex, warm=dc.op, probe=probe)
@@ -188,6 +215,8 @@ def junction_current(circuit, overrides, key, ref, meter, pindex, npar, dc):
     u = np.zeros(grp.sys.size, dtype=grp.net.A.dtype)
     for k, cf in grp.sys.probe_u.items():
         u[k] = cf
+    if not grads:
+        return complex(u @ grp.x), np.zeros(npar)
     lam = grp.lu.solve_adjoint(u)
     G = grp.grad_block(lam[:, None], grp.x[:, None], npar, [-1])
     return complex(u @ grp.x), G[:, 0]
@@ -201,15 +230,22 @@ def junction_current(circuit, overrides, key, ref, meter, pindex, npar, dc):
 LOAD_EXACT = 1e-3
 
 
-def _heavy_loads(c, over, grp, readings, idx, meters, pindex, npar, value, sens):
+def _heavy_loads(c, over, grp, readings, idx, meters, pindex, npar, value, sens, grads=True):
     """Voltage readings the meter loads heavily: exact re-solves with its input resistance.
 
     Returns the readings left for the first-order path.
     """
     volt = [i for i in idx if readings[i].quantity == "voltage"]
     if not volt:
-        return _heavy_shunts(c, over, grp, readings, idx, meters, pindex, npar, value, sens)
-    U = np.column_stack([grp.net.node_vector(readings[i].plus, readings[i].minus) for i in volt])
+        return _heavy_shunts(c, over, grp, readings, idx, meters, pindex, npar, value, sens, grads)
+    U = np.zeros((grp.net.size, len(volt)))
+    at = grp.net.node_index
+    for q, i in enumerate(volt):
+        a, b = at[readings[i].plus], at[readings[i].minus]
+        if a >= 0:
+            U[a, q] += 1.0
+        if b >= 0:
+            U[b, q] -= 1.0
     z = np.einsum("ij,ij->j", U, grp.lu.solve(U))
     heavy = set()
     for q, i in enumerate(volt):
@@ -219,19 +255,20 @@ def _heavy_loads(c, over, grp, readings, idx, meters, pindex, npar, value, sens)
             continue
         loaded = DCGroup(c, over, pindex, warm=grp.op, loads=((rd.plus, rd.minus, g),))
         u = loaded.net.node_vector(rd.plus, rd.minus)
-        lam = loaded.lu.solve_adjoint(u)
-        G = loaded.grad_block(lam[:, None], loaded.x[:, None], npar, [-1])
-        value[i], sens[i] = u @ loaded.x, G[:, 0]
+        value[i] = u @ loaded.x
+        if grads:
+            lam = loaded.lu.solve_adjoint(u)
+            sens[i] = loaded.grad_block(lam[:, None], loaded.x[:, None], npar, [-1])[:, 0]
         heavy.add(i)
     return _heavy_shunts(c, over, grp, readings, [i for i in idx if i not in heavy], meters,
-                         pindex, npar, value, sens)
+                         pindex, npar, value, sens, grads)
 
 
 _SHUNT_NODE = "__shunt_node__"
 _SHUNT = "__shunt__"
 
 
-def _heavy_shunts(c, over, grp, readings, idx, meters, pindex, npar, value, sens):
+def _heavy_shunts(c, over, grp, readings, idx, meters, pindex, npar, value, sens, grads=True):
     """Current readings through a linear part, a supply or a wire whose meter shunt matters
     (more than :data:`LOAD_EXACT` of the branch): exact re-solves with the shunt in the circuit.
 
@@ -276,9 +313,10 @@ def _heavy_shunts(c, over, grp, readings, idx, meters, pindex, npar, value, sens
         loaded = DCGroup(cm, over, pindex, warm=grp.op)
         # through the shunt from the meter node on: through the part (a source delivers the reverse)
         u = loaded.net.node_vector(_SHUNT_NODE, p.nodes[1]) / (-rs if p.is_source else rs)
-        lam = loaded.lu.solve_adjoint(u)
-        G = loaded.grad_block(lam[:, None], loaded.x[:, None], npar, [-1])
-        value[i], sens[i] = u @ loaded.x, G[:, 0]
+        value[i] = u @ loaded.x
+        if grads:
+            lam = loaded.lu.solve_adjoint(u)
+            sens[i] = loaded.grad_block(lam[:, None], loaded.x[:, None], npar, [-1])[:, 0]
         heavy.add(i)
     return [i for i in idx if i not in heavy]
 
@@ -316,9 +354,26 @@ def _meter_shifts_operating_point(grp, readings, idx, meters, value):
     value[volt] = value[volt] + delta
 
 
+#: Parameters and their columns of recent circuits, by the circuit's identity.
+_PARAMS: dict = {}
+
+
+def _parameters(circuit):
+    """``(parameters(circuit), {ref: column})``, kept per circuit (read-only)."""
+    hit = _PARAMS.get(id(circuit))
+    if hit is not None and hit[0] is circuit:
+        return hit[1], hit[2]
+    params = parameters(circuit)
+    pindex = {r: j for j, r in enumerate(params)}
+    if len(_PARAMS) >= 256:
+        _PARAMS.clear()
+    _PARAMS[id(circuit)] = (circuit, params, pindex)
+    return params, pindex
+
+
 def predict_nonlinear(circuit: Circuit, readings, meters: dict, overrides: dict | None = None, *,
                       share: dict | None = None, warm=None, off_warm=None,
-                      off_sens=True) -> Prediction:
+                      off_sens=True, sens=True, off_keep=None) -> Prediction:
     """:func:`faultfind.engine.predict.predict` for a circuit with semiconductors.
 
     ``warm``: an earlier prediction's ``operating_point`` (or an
@@ -329,6 +384,9 @@ def predict_nonlinear(circuit: Circuit, readings, meters: dict, overrides: dict 
     solved from cold and its solution added (engine/offnet.py).
     ``off_sens`` False: the power-off readings' sensitivity rows are left at
     zero (their values are the same; each row costs a factorization).
+    ``sens`` False: every sensitivity row is left at zero (the values only: no
+    adjoint solves; implies ``off_sens`` False).  ``off_keep``: a dict filled with
+    every power-off reading's solution (its first range's) by the same key.
 
     Raises
     ------
@@ -337,15 +395,15 @@ def predict_nonlinear(circuit: Circuit, readings, meters: dict, overrides: dict 
     """
     if "default" not in meters:
         raise ValueError("meters: must contain a 'default' profile")
+    off_sens = off_sens and sens
     c, over = split_overrides(circuit, overrides)
-    params = parameters(circuit)
-    pindex = {r: j for j, r in enumerate(params)}
+    params, pindex = _parameters(circuit)
     npar = len(params)
     readings = list(readings)
     nr = len(readings)
     value = np.zeros(nr, dtype=complex)
     any_ac = any(rd.quantity not in ("resistance", "diode-test") and rd.mode == "ac" for rd in readings)
-    sens = np.zeros((nr, npar), dtype=complex if any_ac else float)
+    rows = np.zeros((nr, npar), dtype=complex if any_ac else float)
     by_key: dict = {}
     for i, rd in enumerate(readings):
         meter: MeterProfile = meters.get(rd.meter or "default")
@@ -353,18 +411,22 @@ def predict_nonlinear(circuit: Circuit, readings, meters: dict, overrides: dict 
             raise ValueError(f"reading {i}: meter profile {rd.meter!r} is not defined")
         key = analysis_key(circuit, rd)
         if key[0] == "lifted":
-            value[i], sens[i] = _lifted(c, rd, pindex, npar, over, meter)
+            value[i], rows[i] = _lifted(c, rd, pindex, npar, over, meter)
         elif key[0] == "off":
             plus, minus = c.part(rd.part).nodes[:2] if rd.part is not None else (rd.plus, rd.minus)
             okey = (plus, minus, rd.quantity)
-            hold = {} if off_warm is not None and okey not in off_warm else None
+            hold = {} if (off_warm is not None and okey not in off_warm) or off_keep is not None \
+                else None
             v, s = off_reading(c, plus, minus, rd.quantity, meter, over, pindex,
                                npar if off_sens else 0, warm=(off_warm or {}).get(okey), keep=hold)
             value[i] = v
             if off_sens:
-                sens[i] = s
+                rows[i] = s
             if hold and "op" in hold:
-                off_warm[okey] = hold["op"]
+                if off_warm is not None and okey not in off_warm:
+                    off_warm[okey] = hold["op"]
+                if off_keep is not None:
+                    off_keep[okey] = hold["op"]
         else:
             by_key.setdefault(key, []).append(i)
     dc = None
@@ -390,14 +452,16 @@ def predict_nonlinear(circuit: Circuit, readings, meters: dict, overrides: dict 
             if (rd.quantity == "current" and c.part(rd.part).kind in SEMICONDUCTORS
                     and rd.part in dc.sys.devices):
                 meter = meters[rd.meter or "default"]
-                value[i], sens[i] = junction_current(c, over, key, rd.part, meter, pindex, npar, dc)
+                value[i], rows[i] = junction_current(c, over, key, rd.part, meter, pindex, npar, dc,
+                                                     sens)
             else:
                 plain.append(i)
         if key[0] == "dc":
-            plain = _heavy_loads(c, over, grp, readings, plain, meters, pindex, npar, value, sens)
+            plain = _heavy_loads(c, over, grp, readings, plain, meters, pindex, npar, value, rows,
+                                 sens)
         if plain:
-            _live_block(c, grp, readings, plain, meters, npar, pindex, value, sens)
+            _live_block(c, grp, readings, plain, meters, npar, pindex, value, rows, grads=sens)
         if key[0] == "ac":
             _meter_shifts_operating_point(grp, readings, plain, meters, value)
-    return finish(readings, value, sens, params, any_ac,
+    return finish(readings, value, rows, params, any_ac,
                   dc.op.voltages() if dc is not None else None)

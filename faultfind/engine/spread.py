@@ -68,7 +68,7 @@ def _resolved(circuit, readings, meters, part, factors, rows, y0, warm):
     for k, f in enumerate(factors):
         try:
             P[k, idx] = predict(circuit, sub, meters, {part.ref: part.value * float(f)},
-                                warm=warm).value
+                                warm=warm, sens=False).value
         except SolveError:
             P[k, idx] = np.nan
     # a diode test a part's tolerance carries over the display's top reads OL there:

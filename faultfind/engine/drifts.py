@@ -77,6 +77,32 @@ def _occam(sd, spec) -> float:
     return float(np.log(min(np.sqrt(2 * np.pi) * sd, span) / span))
 
 
+def _edge_occam(g, c2, spec) -> float:
+    """Log Occam factor of a drift fit without a curvature (its best at an end of the range).
+
+    The likelihood ``exp(-(chi2 - min) / 2)`` integrated over the search grid
+    ``g`` (trapezoid rule in log-value, the tolerance band left out), over the
+    prior width: what the Laplace factor of :func:`_occam` approximates when a
+    parabola fits.  A drift of a link pinned at a thousand times its value fits
+    like the link open: its evidence is paid for over the values that fit, not
+    given for free.
+    """
+    lo, hi, blo, bhi = spec
+    span = (hi - lo) - max(0.0, min(hi, bhi) - max(lo, blo))
+    ok = np.isfinite(c2)
+    if ok.sum() < 2:
+        return 0.0
+    x, idx = np.unique(np.asarray(g, dtype=float)[ok], return_index=True)
+    y = np.asarray(c2, dtype=float)[ok][idx]
+    like = np.exp(-(y - y.min()) / 2.0)
+    seg = 0.5 * (like[1:] + like[:-1]) * np.diff(x)
+    seg[(x[:-1] >= blo) & (x[1:] <= bhi)] = 0.0     # across the tolerance band: not a drift
+    width = float(seg.sum())
+    if not width > 0.0:
+        return 0.0
+    return float(np.log(min(width, span) / span))
+
+
 class DriftFits:
     """Drift search methods of :class:`~.hypotheses.Evaluator`."""
 
@@ -155,7 +181,7 @@ class DriftFits:
                 sd = float(np.sqrt(2.0 / curv[i]))
                 occam = _occam(sd, specs[i])
             else:
-                sd, occam = None, 0.0
+                sd, occam = None, _edge_occam(grids[i], allc2[i], specs[i])
             finals.append((p, "drift", np.array([np.exp(rho[i])])))
             info.append((Fault(p.ref, "drift", float(p.value * np.exp(rho[i]))), sd, occam))
         for p in flat:  # unseen: the value stays unknown over the whole range; no Occam factor
@@ -220,6 +246,8 @@ class DriftFits:
     def occam_of(self, h) -> float:
         """Log Occam factor of a single drift hypothesis (0 for the other modes)."""
         f = h.faults[0]
-        if f.mode != "drift" or h.drift_sd is None:
+        if f.mode != "drift":
             return 0.0
+        if h.drift_sd is None:
+            return h.occam  # fitted without a curvature (:func:`_edge_occam`)
         return _occam(h.drift_sd, self.drift_range(self.circuit.part(f.ref)))

@@ -116,29 +116,47 @@ def _grid_side(circuit):
     return max(int(n[1:].split(".")[0]) for n in circuit.nodes if n.startswith("N")) + 1
 
 
-def grid_scenario(n_parts: int, seed: int = 0):
-    """The handheld family: circuit, planted fault ``(ref, "open")``, readings (with values)."""
-    c = grid(n_parts, seed=seed)
+def grid_scenario(n_parts: int, seed: int = 0, near: int = GRID_NEAR, load_every: int = 5,
+                  fault_at=GRID_FAULT):
+    """The handheld family: circuit, planted fault ``(ref, "open")``, readings (with values).
+
+    ``near``: how many of the 100 readings are the nodes nearest the fault (the
+    rest spread over the grid); ``load_every``: a load on every n-th node;
+    ``fault_at``: the open link's ``(i, j)``, from ``N<i>.<j>`` to ``N<i+1>.<j>``.
+    """
+    if not 0 <= near <= GRID_NEAR + GRID_SPREAD:
+        raise ValueError(f"near: 0 to {GRID_NEAR + GRID_SPREAD}, got {near}")
+    c = grid(n_parts, load_every=load_every, seed=seed)
     side = _grid_side(c)
-    fi, fj = GRID_FAULT
+    fi, fj = fault_at
+    if not (0 <= fi < side - 1 and 0 <= fj < side):
+        raise ValueError(f"fault_at: inside the {side} x {side} grid, got {fault_at}")
+    n_spread = GRID_NEAR + GRID_SPREAD - near
     fault = next(p.ref for p in c.parts if p.nodes == (f"N{fi}.{fj}", f"N{fi + 1}.{fj}"))
     nodes = [(f"N{i}.{j}", i, j) for i in range(side) for j in range(side)]
     d = np.array([math.hypot(i - fi - 0.5, j - fj) for _, i, j in nodes])
     order = np.argsort(d, kind="stable")
-    near = [nodes[k][0] for k in order[:GRID_NEAR]]
-    taken = set(near)
-    # the spread: a jittered lattice over the whole grid
+    close = [nodes[k][0] for k in order[:near]]
+    taken = set(close)
+    # the spread: a jittered lattice over the whole grid (topped up at random
+    # where the lattice's cells fell on nodes already taken)
     rng = np.random.default_rng(seed + 7)
-    m = int(math.ceil(math.sqrt(GRID_SPREAD)))
+    m = int(math.ceil(math.sqrt(max(n_spread, 1))))
     spread = []
     for a in range(m):
         for b in range(m):
             i = min(side - 1, int((a + rng.random()) * side / m))
             j = min(side - 1, int((b + rng.random()) * side / m))
             n = f"N{i}.{j}"
-            if n not in taken and len(spread) < GRID_SPREAD:
+            if n not in taken and len(spread) < n_spread:
                 taken.add(n)
                 spread.append(n)
+    while len(spread) < n_spread:
+        n = f"N{int(rng.integers(side))}.{int(rng.integers(side))}"
+        if n not in taken:
+            taken.add(n)
+            spread.append(n)
+    near = close
     rds = [Reading("voltage", "dc", n, c.ground, label=f"TP {n}") for n in near + spread]
     meters = meters_with_default(None)
     rng = np.random.default_rng(seed + 1)
@@ -151,16 +169,23 @@ def grid_scenario(n_parts: int, seed: int = 0):
     return c, (fault, "open"), out
 
 
-def write(n_parts: int, outdir, seed: int = 0, family: str = "bench"):
+def write(n_parts: int, outdir, seed: int = 0, family: str = "bench", **shape):
     """Write ``circuit.toml``, ``readings.csv`` (and ``meters.toml``) under ``outdir``.
 
-    Returns (circuit path, readings path, meters path or None, fault, number of parts).
+    ``shape``: the handheld family's ``near``, ``load_every`` and ``fault_at``
+    (see :func:`grid_scenario`).  Returns (circuit path, readings path, meters
+    path or None, fault, number of parts).
     """
     if family not in FAMILIES:
         raise ValueError(f"family: one of {', '.join(FAMILIES)}, got {family!r}")
+    if shape and family != "handheld":
+        raise ValueError(f"{', '.join(shape)}: only for the handheld family")
     outdir = pathlib.Path(outdir)
     outdir.mkdir(parents=True, exist_ok=True)
-    c, fault, rows = (scenario if family == "bench" else grid_scenario)(n_parts, seed)
+    if family == "bench":
+        c, fault, rows = scenario(n_parts, seed)
+    else:
+        c, fault, rows = grid_scenario(n_parts, seed, **shape)
     cpath = outdir / "circuit.toml"
     cpath.write_text(mesh_toml(c) + "\n", encoding="utf-8")
     rpath = outdir / "readings.csv"
@@ -176,14 +201,30 @@ def write(n_parts: int, outdir, seed: int = 0, family: str = "bench"):
     return cpath, rpath, mpath, fault, len(c.parts)
 
 
+def shape_args(a) -> dict:
+    """The handheld family's shape options given on the command line (``near``, ...)."""
+    out = {}
+    if a.near is not None:
+        out["near"] = a.near
+    if a.load_every is not None:
+        out["load_every"] = a.load_every
+    if a.fault_at is not None:
+        out["fault_at"] = tuple(a.fault_at)
+    return out
+
+
 def main(argv=None):
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("n", type=int)
     ap.add_argument("outdir")
     ap.add_argument("--seed", type=int, default=0)
     ap.add_argument("--family", choices=FAMILIES, default="bench")
+    ap.add_argument("--near", type=int, help="handheld: readings nearest the fault (default 30 of 100)")
+    ap.add_argument("--load-every", type=int, help="handheld: a load on every n-th node (default 5)")
+    ap.add_argument("--fault-at", type=int, nargs=2, metavar=("I", "J"),
+                    help="handheld: the open link from N<I>.<J> to N<I+1>.<J> (default 3 1)")
     a = ap.parse_args(argv)
-    cp, rp, mp, fault, n = write(a.n, a.outdir, a.seed, a.family)
+    cp, rp, mp, fault, n = write(a.n, a.outdir, a.seed, a.family, **shape_args(a))
     print(f"{n} parts; fault {fault[0]} {fault[1]}; {cp} {rp} {mp}")
 
 

@@ -28,3 +28,33 @@ def test_benchmark_script_starts(script):
                        capture_output=True, text=True, timeout=120)
     assert p.returncode == 0, p.stderr
     assert "usage:" in p.stdout
+
+
+def test_scale_case_shape_options_shape_the_board():
+    # the handheld family's shape options: 100 readings, the `near` first of
+    # them the nodes closest to the open link, the link where asked, loads on
+    # every n-th node; a wrong option is refused by name
+    import math
+    sys.path.insert(0, str(ROOT / "benchmarks"))
+    try:
+        from scale_case import grid_scenario
+    finally:
+        sys.path.remove(str(ROOT / "benchmarks"))
+    c, fault, rows = grid_scenario(1000, seed=5, near=60, load_every=8, fault_at=(2, 9))
+    nodes = [rd.plus for rd, _ in rows]
+    assert len(nodes) == 100 and len(set(nodes)) == 100
+    assert c.part(fault[0]).nodes == ("N2.9", "N3.9")
+
+    def dist(n):
+        i, j = (int(x) for x in n[1:].split("."))
+        return math.hypot(i - 2.5, j - 9)
+    assert max(dist(n) for n in nodes[:60]) <= min(dist(n) for n in nodes[60:])
+
+    def n_loads(circuit):
+        return sum(1 for p in circuit.parts if p.kind == "resistor" and circuit.ground in p.nodes)
+    c4, _, _ = grid_scenario(1000, seed=5, load_every=4)
+    assert n_loads(c4) > n_loads(c)
+    with pytest.raises(ValueError, match="fault_at"):
+        grid_scenario(1000, fault_at=(99, 0))
+    with pytest.raises(ValueError, match="near"):
+        grid_scenario(1000, near=101)

@@ -66,14 +66,19 @@ _GRID = 25
 SEARCH_WINDOW = 50.0
 
 
+def _prior_width(spec) -> float:
+    """Width of a drift's prior: its search range less the tolerance band (log-value)."""
+    lo, hi, blo, bhi = spec
+    return (hi - lo) - max(0.0, min(hi, bhi) - max(lo, blo))
+
+
 def _occam(sd, spec) -> float:
     """Log Occam factor of a fitted drift: the posterior width over the prior width.
 
     ``spec`` is :meth:`Evaluator.drift_range` (search range and tolerance band,
     in log-value); the prior is uniform over the range outside the band.
     """
-    lo, hi, blo, bhi = spec
-    span = (hi - lo) - max(0.0, min(hi, bhi) - max(lo, blo))
+    span = _prior_width(spec)
     return float(np.log(min(np.sqrt(2 * np.pi) * sd, span) / span))
 
 
@@ -87,8 +92,8 @@ def _edge_occam(g, c2, spec) -> float:
     like the link open: its evidence is paid for over the values that fit, not
     given for free.
     """
-    lo, hi, blo, bhi = spec
-    span = (hi - lo) - max(0.0, min(hi, bhi) - max(lo, blo))
+    blo, bhi = spec[2], spec[3]
+    span = _prior_width(spec)
     ok = np.isfinite(c2)
     if ok.sum() < 2:
         return 0.0

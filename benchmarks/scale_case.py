@@ -156,8 +156,7 @@ def grid_scenario(n_parts: int, seed: int = 0, near: int = GRID_NEAR, load_every
         if n not in taken:
             taken.add(n)
             spread.append(n)
-    near = close
-    rds = [Reading("voltage", "dc", n, c.ground, label=f"TP {n}") for n in near + spread]
+    rds = [Reading("voltage", "dc", n, c.ground, label=f"TP {n}") for n in close + spread]
     meters = meters_with_default(None)
     rng = np.random.default_rng(seed + 1)
     board = draw_board(c, rng)

@@ -7,6 +7,7 @@ figures.  ``--help`` imports the whole script and exits 0 without measuring.
 
 from __future__ import annotations
 
+import math
 import subprocess
 import sys
 from pathlib import Path
@@ -34,7 +35,6 @@ def test_scale_case_shape_options_shape_the_board():
     # the handheld family's shape options: 100 readings, the `near` first of
     # them the nodes closest to the open link, the link where asked, loads on
     # every n-th node; a wrong option is refused by name
-    import math
     sys.path.insert(0, str(ROOT / "benchmarks"))
     try:
         from scale_case import grid_scenario
